@@ -1,0 +1,303 @@
+/**
+ * The SQLite schema (Drizzle). Migrations under db/migrations/ are generated from this file
+ * with `npm run db:generate` and never edited by hand.
+ *
+ * Times are stored as integer milliseconds since the epoch (`timestamp_ms` mode).
+ */
+import { sql } from "drizzle-orm";
+import { index, integer, primaryKey, real, sqliteTable, text, uniqueIndex } from "drizzle-orm/sqlite-core";
+
+export const ROLES = ["admin", "lead", "processor", "auditor"] as const;
+export type Role = (typeof ROLES)[number];
+
+export const RUN_STATUSES = ["queued", "running", "succeeded", "failed", "cancelled", "interrupted"] as const;
+export type RunStatus = (typeof RUN_STATUSES)[number];
+
+export const STEP_STATUSES = ["waiting", "running", "succeeded", "failed", "cancelled", "skipped"] as const;
+export type StepStatus = (typeof STEP_STATUSES)[number];
+
+/** Which door started something. */
+export const DOORS = ["cli", "web", "watcher"] as const;
+export type Door = (typeof DOORS)[number];
+
+const now = sql`(unixepoch('subsec') * 1000)`;
+
+export const users = sqliteTable("users", {
+  id: integer("id").primaryKey({ autoIncrement: true }),
+  email: text("email").notNull().unique(),
+  name: text("name").notNull(),
+  role: text("role", { enum: ROLES }).notNull(),
+  passwordHash: text("password_hash").notNull(),
+  /** Deactivated users cannot sign in; they are never deleted so the audit trail keeps their name. */
+  active: integer("active", { mode: "boolean" }).notNull().default(true),
+  createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+});
+
+export const surveys = sqliteTable("surveys", {
+  id: integer("id").primaryKey({ autoIncrement: true }),
+  /** Short stable name used on the command line, e.g. "quillmoor". */
+  slug: text("slug").notNull().unique(),
+  name: text("name").notNull(),
+  site: text("site").notNull().default(""),
+  client: text("client").notNull().default(""),
+  description: text("description").notNull().default(""),
+  createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+});
+
+export const profiles = sqliteTable(
+  "profiles",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    surveyId: integer("survey_id")
+      .notNull()
+      .references(() => surveys.id),
+    /** Line name, e.g. "QM-1". */
+    name: text("name").notNull(),
+    description: text("description").notNull().default(""),
+  },
+  (t) => [uniqueIndex("profiles_survey_name").on(t.surveyId, t.name)],
+);
+
+/** A folder of field files at one moment: its content hash identifies it. */
+export const datasets = sqliteTable(
+  "datasets",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    surveyId: integer("survey_id").references(() => surveys.id),
+    profileId: integer("profile_id").references(() => profiles.id),
+    name: text("name").notNull(),
+    /** Absolute folder path when registered. */
+    folderPath: text("folder_path").notNull(),
+    /** SHA-256 over the sorted (name, file hash) list. */
+    contentHash: text("content_hash").notNull(),
+    fileCount: integer("file_count").notNull(),
+    totalBytes: integer("total_bytes").notNull(),
+    createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+  },
+  (t) => [uniqueIndex("datasets_folder_hash").on(t.folderPath, t.contentHash)],
+);
+
+export const datasetFiles = sqliteTable(
+  "dataset_files",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    datasetId: integer("dataset_id")
+      .notNull()
+      .references(() => datasets.id),
+    name: text("name").notNull(),
+    sizeBytes: integer("size_bytes").notNull(),
+    sha256: text("sha256").notNull(),
+  },
+  (t) => [index("dataset_files_dataset").on(t.datasetId)],
+);
+
+/** A named pipeline; its content lives in versions. */
+export const pipelines = sqliteTable("pipelines", {
+  id: integer("id").primaryKey({ autoIncrement: true }),
+  name: text("name").notNull().unique(),
+  surveyId: integer("survey_id").references(() => surveys.id),
+  createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+});
+
+/** Every saved change of a pipeline is a new version; versions are never overwritten. */
+export const pipelineVersions = sqliteTable(
+  "pipeline_versions",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    pipelineId: integer("pipeline_id")
+      .notNull()
+      .references(() => pipelines.id),
+    version: integer("version").notNull(),
+    /** The YAML text as written. */
+    sourceText: text("source_text").notNull(),
+    /** Where it was read from, if from a file. */
+    sourcePath: text("source_path"),
+    /** The validated definition (steps with full parameters), JSON. */
+    definitionJson: text("definition_json").notNull(),
+    contentHash: text("content_hash").notNull(),
+    createdByUserId: integer("created_by_user_id").references(() => users.id),
+    createdByLabel: text("created_by_label").notNull(),
+    createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+  },
+  (t) => [
+    uniqueIndex("pipeline_versions_number").on(t.pipelineId, t.version),
+    index("pipeline_versions_hash").on(t.pipelineId, t.contentHash),
+  ],
+);
+
+export const runs = sqliteTable(
+  "runs",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    pipelineVersionId: integer("pipeline_version_id")
+      .notNull()
+      .references(() => pipelineVersions.id),
+    datasetId: integer("dataset_id")
+      .notNull()
+      .references(() => datasets.id),
+    /** The run this one reruns, if any. */
+    parentRunId: integer("parent_run_id"),
+    /** Step id the rerun started from (overrides apply from here). */
+    rerunFromStep: text("rerun_from_step"),
+    /** Parameter overrides of a rerun, JSON: { "<step label>": { param: value } }. */
+    overridesJson: text("overrides_json").notNull().default("{}"),
+    startedByUserId: integer("started_by_user_id").references(() => users.id),
+    /** Person or process label shown when no user is known (e.g. OS user on the CLI). */
+    startedByLabel: text("started_by_label").notNull(),
+    door: text("door", { enum: DOORS }).notNull(),
+    status: text("status", { enum: RUN_STATUSES }).notNull().default("queued"),
+    /** Set by the web or a signal; the runner stops at the next check. */
+    cancelRequested: integer("cancel_requested", { mode: "boolean" }).notNull().default(false),
+    /** Process executing the run, for interrupted-run detection. */
+    hostPid: integer("host_pid"),
+    error: text("error"),
+    createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+    startedAt: integer("started_at", { mode: "timestamp_ms" }),
+    finishedAt: integer("finished_at", { mode: "timestamp_ms" }),
+  },
+  (t) => [index("runs_status").on(t.status), index("runs_created").on(t.createdAt)],
+);
+
+export const runSteps = sqliteTable(
+  "run_steps",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    runId: integer("run_id")
+      .notNull()
+      .references(() => runs.id),
+    /** 0-based position in the pipeline. */
+    position: integer("position").notNull(),
+    /** Label in the pipeline (defaults to the step id; unique within a pipeline). */
+    label: text("label").notNull(),
+    stepId: text("step_id").notNull(),
+    stepVersion: integer("step_version").notNull(),
+    /** Validated parameters with defaults filled in, canonical JSON. */
+    paramsJson: text("params_json").notNull(),
+    /** Hash of step id, version, canonical params and input artifact hashes. */
+    cacheKey: text("cache_key"),
+    /** { slot: artifact hash } read by the step. */
+    inputsJson: text("inputs_json").notNull().default("{}"),
+    /** { slot: artifact hash } written by the step. */
+    outputsJson: text("outputs_json").notNull().default("{}"),
+    cacheHit: integer("cache_hit", { mode: "boolean" }).notNull().default(false),
+    /** For a cache hit: the run step that computed the outputs. */
+    cacheSourceStepId: integer("cache_source_step_id"),
+    status: text("status", { enum: STEP_STATUSES }).notNull().default("waiting"),
+    progress: real("progress").notNull().default(0),
+    progressMessage: text("progress_message"),
+    summaryJson: text("summary_json"),
+    seriesJson: text("series_json"),
+    error: text("error"),
+    startedAt: integer("started_at", { mode: "timestamp_ms" }),
+    finishedAt: integer("finished_at", { mode: "timestamp_ms" }),
+    durationMs: integer("duration_ms"),
+  },
+  (t) => [uniqueIndex("run_steps_position").on(t.runId, t.position), index("run_steps_cache_key").on(t.cacheKey)],
+);
+
+export const stepLogs = sqliteTable(
+  "step_logs",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    runId: integer("run_id")
+      .notNull()
+      .references(() => runs.id),
+    runStepId: integer("run_step_id").references(() => runSteps.id),
+    at: integer("at", { mode: "timestamp_ms" }).notNull(),
+    level: text("level", { enum: ["debug", "info", "warn", "error"] }).notNull(),
+    message: text("message").notNull(),
+    dataJson: text("data_json"),
+  },
+  (t) => [index("step_logs_run").on(t.runId, t.id), index("step_logs_step").on(t.runStepId, t.id)],
+);
+
+/** Content-addressed artifacts on disk under data/artifacts/. */
+export const artifacts = sqliteTable("artifacts", {
+  /** SHA-256 of the artifact bytes, hex. */
+  hash: text("hash").primaryKey(),
+  /** The slot kind, e.g. "gathers", "model", "picks". */
+  kind: text("kind").notNull(),
+  /** Path relative to the data folder. */
+  path: text("path").notNull(),
+  sizeBytes: integer("size_bytes").notNull(),
+  producedByRunStepId: integer("produced_by_run_step_id"),
+  createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+});
+
+/** A lead's review of a run. */
+export const reviews = sqliteTable(
+  "reviews",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    runId: integer("run_id")
+      .notNull()
+      .references(() => runs.id),
+    reviewerUserId: integer("reviewer_user_id")
+      .notNull()
+      .references(() => users.id),
+    decision: text("decision", { enum: ["approved", "returned"] }).notNull(),
+    comment: text("comment").notNull().default(""),
+    at: integer("at", { mode: "timestamp_ms" }).notNull().default(now),
+  },
+  (t) => [index("reviews_run").on(t.runId)],
+);
+
+/** Who did what, when, with before and after. Append-only. */
+export const auditEvents = sqliteTable(
+  "audit_events",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    at: integer("at", { mode: "timestamp_ms" }).notNull().default(now),
+    actorUserId: integer("actor_user_id").references(() => users.id),
+    actorLabel: text("actor_label").notNull(),
+    door: text("door", { enum: DOORS }).notNull(),
+    /** Verb, e.g. "run.start", "run.rerun", "run.cancel", "user.add", "pipeline.version", "review.approve". */
+    action: text("action").notNull(),
+    entityType: text("entity_type").notNull(),
+    entityId: text("entity_id").notNull(),
+    beforeJson: text("before_json"),
+    afterJson: text("after_json"),
+  },
+  (t) => [index("audit_events_entity").on(t.entityType, t.entityId), index("audit_events_at").on(t.at)],
+);
+
+/** Folders a watcher looks after, and what it last processed. */
+export const watchedFolders = sqliteTable("watched_folders", {
+  id: integer("id").primaryKey({ autoIncrement: true }),
+  folderPath: text("folder_path").notNull().unique(),
+  pipelinePath: text("pipeline_path").notNull(),
+  /** Content hash of the dataset last run, so a restart does not redo it. */
+  lastContentHash: text("last_content_hash"),
+  lastRunId: integer("last_run_id"),
+  updatedAt: integer("updated_at", { mode: "timestamp_ms" }).notNull().default(now),
+});
+
+/** What a watcher saw: files accepted, ignored or rejected, with the reason. */
+export const watchEvents = sqliteTable(
+  "watch_events",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    folderId: integer("folder_id")
+      .notNull()
+      .references(() => watchedFolders.id),
+    at: integer("at", { mode: "timestamp_ms" }).notNull().default(now),
+    file: text("file"),
+    event: text("event", { enum: ["accepted", "ignored", "rejected", "run-started", "run-skipped"] }).notNull(),
+    reason: text("reason").notNull().default(""),
+    runId: integer("run_id"),
+  },
+  (t) => [index("watch_events_folder").on(t.folderId, t.id)],
+);
+
+/** Files of a dataset rejected by a reader in a run (the run went on without them). */
+export const rejectedFiles = sqliteTable(
+  "rejected_files",
+  {
+    runId: integer("run_id")
+      .notNull()
+      .references(() => runs.id),
+    name: text("name").notNull(),
+    reason: text("reason").notNull(),
+  },
+  (t) => [primaryKey({ columns: [t.runId, t.name] })],
+);

@@ -1,0 +1,206 @@
+/**
+ * Shared data types that flow between pipeline steps.
+ *
+ * Every value a step reads or writes lives in a named *slot* (see {@link SlotValues}).
+ * The runner stores each slot value as a content-addressed artifact (see artifact-codec.ts),
+ * so everything here must be plain data: numbers, strings, booleans, arrays, plain objects
+ * and typed arrays. No classes, Maps, Dates or functions.
+ *
+ * Units are SI throughout: metres, seconds, m/s, kg/m³.
+ */
+
+/** Particle-motion component a trace records. */
+export type Component = "z" | "x" | "y";
+
+/** Per-trace header, our own field names. Positions in metres along the profile. */
+export interface TraceHeader {
+  /** Field file (or synthetic shot label) this trace came from. */
+  sourceFile: string;
+  /** Channel number within its record, 1-based. */
+  channel: number;
+  /** Source point number from the field log (the stack groups on it). */
+  sourcePoint: number;
+  /** Blow (repeat) number at this source point, 1-based; 0 once stacked. */
+  blow: number;
+  /** Source position, m. */
+  sourceX: number;
+  /** Source elevation / depth, m (positive down; 0 at the surface). */
+  sourceZ: number;
+  /** Receiver position, m. */
+  receiverX: number;
+  /** Receiver depth, m (positive down). */
+  receiverZ: number;
+  /** Signed offset receiverX - sourceX, m. */
+  offset: number;
+  /** Number of records summed into this trace (1 for a single blow). */
+  stackCount: number;
+  /** Recorded component. */
+  component: Component;
+  /** True when the trace is known dead or killed; its samples are zero. */
+  dead: boolean;
+}
+
+/** One shot gather (or one field record before stacking). */
+export interface Gather {
+  /** Stable label, e.g. "SP07-b2" for one blow or "SP07" once stacked. */
+  id: string;
+  /** Sample interval, s. */
+  sampleIntervalS: number;
+  /** Samples per trace. */
+  sampleCount: number;
+  /** Time of the first sample relative to the source instant, s (negative for pre-trigger). */
+  startTimeS: number;
+  /** One header per trace, same order as the rows of {@link Gather.data}. */
+  traces: TraceHeader[];
+  /** Samples, flat row-major `[trace][sample]`, length traces.length * sampleCount. */
+  data: Float32Array;
+}
+
+/** A set of gathers: the working data most steps read and write. */
+export interface GatherSet {
+  kind: "gathers";
+  gathers: Gather[];
+}
+
+/** One raw field file handed to the import step by the runner. */
+export interface FieldFile {
+  /** File name relative to the dataset folder. */
+  name: string;
+  /** SHA-256 of the bytes, hex. */
+  sha256: string;
+  bytes: Uint8Array;
+}
+
+/** The dataset's files, read by the runner (steps never touch the disk). */
+export interface FieldFileSet {
+  kind: "field-files";
+  files: FieldFile[];
+}
+
+/** A text file named by the pipeline file (e.g. the geometry table), read by the runner. */
+export interface TextInput {
+  kind: "text";
+  /** File name as given in the pipeline file. */
+  name: string;
+  text: string;
+}
+
+/** First-arrival picks, one entry per trace that has a pick. */
+export interface PickSet {
+  kind: "picks";
+  /** Method that made the picks, e.g. "energy-ratio" or "information-criterion". */
+  method: string;
+  picks: Array<{
+    gatherId: string;
+    traceIndex: number;
+    /** Pick time relative to the source instant, s. */
+    timeS: number;
+    /** Quality in [0, 1], higher is better. */
+    quality: number;
+    /** True when the pick breaks the smooth offset-time trend. */
+    flagged: boolean;
+  }>;
+}
+
+/** Mute lines per gather, for drawing and for reuse. Times relative to the source instant, s. */
+export interface MuteSet {
+  kind: "mutes";
+  lines: Array<{
+    gatherId: string;
+    /** "top", "bottom" or "window-start" / "window-end". */
+    role: string;
+    /** Per trace of the gather, time of the line, s. */
+    timesS: Float32Array;
+    /** Cosine taper length, s. */
+    taperS: number;
+  }>;
+}
+
+/** Amplitude spectra, per gather: mean over traces and per trace. */
+export interface SpectrumSet {
+  kind: "spectra";
+  /** Frequency axis, Hz. */
+  frequenciesHz: Float32Array;
+  gathers: Array<{
+    gatherId: string;
+    /** Mean amplitude spectrum over the live traces. */
+    mean: Float32Array;
+    /** Per-trace amplitude spectra, flat `[trace][frequency]`. */
+    perTrace: Float32Array;
+  }>;
+}
+
+/**
+ * Elastic model on a regular grid. Arrays are flat row-major `[z][x]`
+ * (row iz = depth originZ + iz*spacing, column ix = originX + ix*spacing).
+ */
+export interface ElasticModel {
+  kind: "model";
+  nx: number;
+  nz: number;
+  /** Grid spacing, m (square cells). */
+  spacingM: number;
+  /** Position of column 0, m along the profile. */
+  originX: number;
+  /** Depth of row 0, m (0 = free surface). */
+  originZ: number;
+  /** P velocity, m/s. */
+  vp: Float32Array;
+  /** S velocity, m/s. */
+  vs: Float32Array;
+  /** Density, kg/m³. */
+  rho: Float32Array;
+}
+
+/** Wavefield snapshots at chosen times (one shot), flat `[frame][z][x]`. */
+export interface SnapshotSet {
+  kind: "snapshots";
+  shotId: string;
+  component: string;
+  nx: number;
+  nz: number;
+  spacingM: number;
+  originX: number;
+  originZ: number;
+  timesS: number[];
+  frames: Float32Array;
+}
+
+/** A small JSON document a step produces (tables, per-iteration curves, reports). */
+export interface JsonDocument {
+  kind: "json";
+  /** What the document is, e.g. "geometry-check" or "misfit". */
+  role: string;
+  data: unknown;
+}
+
+/** Every slot a pipeline carries, by name. A step declares which it reads and writes. */
+export interface SlotValues {
+  /** Raw field files of the dataset (filled by the runner). */
+  fieldFiles: FieldFileSet;
+  /** The geometry table named in the pipeline file (filled by the runner). */
+  geometryTable: TextInput;
+  /** The working gathers: field data as processed so far. */
+  gathers: GatherSet;
+  /** First-arrival picks. */
+  picks: PickSet;
+  /** Mute lines. */
+  mutes: MuteSet;
+  /** Amplitude spectra. */
+  spectra: SpectrumSet;
+  /** The current elastic model. */
+  model: ElasticModel;
+  /** Synthetic gathers from forward modelling. */
+  synthetic: GatherSet;
+  /** Wavefield snapshots. */
+  snapshots: SnapshotSet;
+  /** A wavelet per shot or one for all, as gathers with one trace each. */
+  wavelet: GatherSet;
+  /** A per-step report. */
+  report: JsonDocument;
+}
+
+export type SlotName = keyof SlotValues;
+
+/** Slots the runner fills from disk rather than from a step. */
+export const RUNNER_SLOTS: readonly SlotName[] = ["fieldFiles", "geometryTable"] as const;
