@@ -1,0 +1,38 @@
+import { pageUser } from "@/app/lib/page-user";
+import { can, ROLE_LABELS } from "@/app/lib/permissions";
+import { MainNav } from "@/app/ui/shell/main-nav";
+import { SignOutButton } from "@/app/ui/auth/sign-out-button";
+
+export const dynamic = "force-dynamic";
+
+export default async function ControlLayout({ children }: { children: React.ReactNode }) {
+  const user = await pageUser();
+  const links = [
+    { href: "/runs", label: "Runs" },
+    ...(can(user.role, "runs.start") ? [{ href: "/runs/new", label: "Start a run" }] : []),
+    { href: "/compare", label: "Compare settings" },
+    ...(can(user.role, "audit.read") ? [{ href: "/audit", label: "Audit trail" }] : []),
+    ...(can(user.role, "users.manage") ? [{ href: "/people", label: "People" }] : []),
+  ];
+  return (
+    <div className="min-h-screen">
+      <header className="border-b border-line bg-panel">
+        <div className="mx-auto flex h-14 max-w-[1400px] items-center gap-6 px-5">
+          <a href="/runs" className="flex items-center gap-2 font-semibold">
+            {/* eslint-disable-next-line @next/next/no-img-element */}
+            <img src="/icon.svg" alt="" width={24} height={24} />
+            Tracewright
+          </a>
+          <MainNav links={links} />
+          <div className="ml-auto flex items-center gap-3 text-sm">
+            <span data-testid="signed-in-as">
+              {user.name} <span className="rounded bg-accent-soft px-1.5 py-0.5 text-xs text-accent">{ROLE_LABELS[user.role]}</span>
+            </span>
+            <SignOutButton />
+          </div>
+        </div>
+      </header>
+      <main className="mx-auto max-w-[1400px] px-5 py-6">{children}</main>
+    </div>
+  );
+}

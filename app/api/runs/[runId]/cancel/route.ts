@@ -1,0 +1,18 @@
+import { NextResponse } from "next/server";
+import { getDb } from "@/db/client";
+import { answer, parseId } from "@/app/lib/api";
+import { requirePermission, webActor } from "@/app/lib/session";
+import { requestCancel } from "@/pipeline/launch";
+
+export const dynamic = "force-dynamic";
+export const runtime = "nodejs";
+
+/** POST /api/runs/:runId/cancel: ask a queued or running run to stop at its next check. */
+export async function POST(_req: Request, ctx: { params: Promise<{ runId: string }> }) {
+  return answer(async () => {
+    const user = await requirePermission("runs.cancel");
+    const runId = parseId((await ctx.params).runId, "runId");
+    requestCancel(getDb(), runId, webActor(user));
+    return NextResponse.json({ runId, cancelRequested: true }, { status: 202 });
+  });
+}

@@ -1,0 +1,31 @@
+import { NextResponse } from "next/server";
+import { z } from "zod";
+import { getDb } from "@/db/client";
+import { answer, parseId, parseOr400 } from "@/app/lib/api";
+import { requirePermission, webActor } from "@/app/lib/session";
+import { launchInBackground, queueRerun } from "@/pipeline/launch";
+
+export const dynamic = "force-dynamic";
+export const runtime = "nodejs";
+
+const rerunSchema = z.object({
+  /** Label of the step the rerun starts from. */
+  fromLabel: z.string().min(1).max(200),
+  /** { "<step label>": { "<param>": value } }; validated against the step schemas by the engine. */
+  overrides: z.record(z.string(), z.record(z.string(), z.unknown())).default({}),
+});
+
+/**
+ * POST /api/runs/:runId/rerun: a new run from a step with changed parameters, through the
+ * engine (pipeline/launch.ts), which validates the overrides; answers 202 with the new run id.
+ */
+export async function POST(req: Request, ctx: { params: Promise<{ runId: string }> }) {
+  return answer(async () => {
+    const user = await requirePermission("runs.rerun");
+    const parentRunId = parseId((await ctx.params).runId, "runId");
+    const body = parseOr400(rerunSchema, await req.json().catch(() => null), "body");
+    const { runId } = queueRerun(getDb(), { parentRunId, fromLabel: body.fromLabel, overrides: body.overrides, actor: webActor(user) });
+    launchInBackground(runId);
+    return NextResponse.json({ runId }, { status: 202 });
+  });
+}

@@ -1,0 +1,46 @@
+import { NextResponse } from "next/server";
+import { z } from "zod";
+import { getDb, inTransaction } from "@/db/client";
+import { recordAudit } from "@/db/queries/audit";
+import { addReview, listReviews } from "@/db/queries/reviews";
+import { answer, parseId, parseOr400 } from "@/app/lib/api";
+import { requirePermission, webActor } from "@/app/lib/session";
+
+export const dynamic = "force-dynamic";
+export const runtime = "nodejs";
+
+/** GET /api/runs/:runId/reviews: the decisions on a run, newest first. */
+export async function GET(_req: Request, ctx: { params: Promise<{ runId: string }> }) {
+  return answer(async () => {
+    await requirePermission("runs.read");
+    const runId = parseId((await ctx.params).runId, "runId");
+    return NextResponse.json({ reviews: listReviews(getDb(), runId) });
+  });
+}
+
+const reviewSchema = z.object({
+  decision: z.enum(["approved", "returned"]),
+  comment: z.string().max(4000).default(""),
+});
+
+/** POST /api/runs/:runId/reviews: approve or send back (lead, admin); recorded in the audit trail. */
+export async function POST(req: Request, ctx: { params: Promise<{ runId: string }> }) {
+  return answer(async () => {
+    const user = await requirePermission("runs.review");
+    const runId = parseId((await ctx.params).runId, "runId");
+    const body = parseOr400(reviewSchema, await req.json().catch(() => null), "body");
+    const db = getDb();
+    const review = inTransaction(db, (tx) => {
+      const r = addReview(tx, { runId, reviewerUserId: user.id, decision: body.decision, comment: body.comment });
+      recordAudit(tx, {
+        actor: webActor(user),
+        action: body.decision === "approved" ? "review.approve" : "review.return",
+        entityType: "run",
+        entityId: runId,
+        after: { decision: r.decision, comment: r.comment },
+      });
+      return r;
+    });
+    return NextResponse.json({ review }, { status: 201 });
+  });
+}

@@ -1,0 +1,118 @@
+"use server";
+
+/**
+ * Server actions of the People page: add or invite users, change roles, deactivate and
+ * reactivate. Users are never deleted. Each action checks "users.manage" itself and records
+ * an audit event.
+ */
+import crypto from "node:crypto";
+import { revalidatePath } from "next/cache";
+import { z } from "zod";
+import { getDb } from "@/db/client";
+import { recordAudit } from "@/db/queries/audit";
+import { createUser, setUserActive, setUserRole } from "@/db/queries/users";
+import { ROLES } from "@/db/schema";
+import { AppError } from "@/pipeline/errors";
+import { sendInvitation } from "../mail";
+import { requirePermission, webActor } from "../session";
+import { errorState, type FormState } from "./form-state";
+
+const addUserSchema = z.object({
+  name: z.string().trim().min(2, "Give the person's name (2 characters or more).").max(120),
+  email: z.string().trim().email("Enter an email address like name@example.org."),
+  role: z.enum(ROLES, { message: `Choose one of: ${ROLES.join(", ")}.` }),
+  /** Empty: invite with a generated temporary password. */
+  password: z.union([z.literal(""), z.string().min(10, "Passwords need 10 characters or more.").max(200)]),
+});
+
+/** Adds a user with a chosen password, or invites them with a temporary one (mailed when SMTP is set up). */
+export async function addUser(_prev: FormState, form: FormData): Promise<FormState> {
+  try {
+    const admin = await requirePermission("users.manage");
+    const input = addUserSchema.parse({
+      name: form.get("name") ?? "",
+      email: form.get("email") ?? "",
+      role: form.get("role") ?? "",
+      password: form.get("password") ?? "",
+    });
+    const invite = input.password === "";
+    const password = invite ? crypto.randomBytes(9).toString("base64url") : input.password;
+    const db = getDb();
+    const user = createUser(db, { name: input.name, email: input.email, role: input.role, password });
+    recordAudit(db, {
+      actor: webActor(admin),
+      action: invite ? "user.invite" : "user.add",
+      entityType: "user",
+      entityId: user.id,
+      after: { name: user.name, email: user.email, role: user.role },
+    });
+    revalidatePath("/people");
+    if (!invite) return { ok: `${user.name} can now sign in as ${user.role}.` };
+    const mail = await sendInvitation({
+      to: user.email,
+      name: user.name,
+      role: user.role,
+      temporaryPassword: password,
+      signInUrl: `${process.env.NEXTAUTH_URL ?? "http://127.0.0.1:3000"}/sign-in`,
+      invitedBy: admin.name,
+    });
+    if (mail.sent) return { ok: `Invitation mailed to ${user.email}.` };
+    return {
+      ok: `${user.name} was added, but the invitation could not be mailed: ${mail.reason}. Pass on this temporary password yourself.`,
+      temporaryPassword: password,
+    };
+  } catch (err) {
+    return errorState(err);
+  }
+}
+
+const changeRoleSchema = z.object({ userId: z.coerce.number().int().positive(), role: z.enum(ROLES) });
+
+/** Changes a user's role (not one's own, so an administrator cannot lock everybody out). */
+export async function changeRole(_prev: FormState, form: FormData): Promise<FormState> {
+  try {
+    const admin = await requirePermission("users.manage");
+    const input = changeRoleSchema.parse({ userId: form.get("userId"), role: form.get("role") });
+    if (input.userId === admin.id) throw new AppError("conflict", "You cannot change your own role; ask another administrator.");
+    const db = getDb();
+    const { before, after } = setUserRole(db, input.userId, input.role);
+    recordAudit(db, {
+      actor: webActor(admin),
+      action: "user.role",
+      entityType: "user",
+      entityId: input.userId,
+      before: { role: before.role },
+      after: { role: after.role },
+    });
+    revalidatePath("/people");
+    return { ok: `${after.name} is now ${after.role}.` };
+  } catch (err) {
+    return errorState(err);
+  }
+}
+
+const setActiveSchema = z.object({ userId: z.coerce.number().int().positive(), active: z.enum(["true", "false"]) });
+
+/** Deactivates or reactivates a user. Deactivated users cannot sign in; their name stays in the records. */
+export async function changeActive(_prev: FormState, form: FormData): Promise<FormState> {
+  try {
+    const admin = await requirePermission("users.manage");
+    const input = setActiveSchema.parse({ userId: form.get("userId"), active: form.get("active") });
+    const active = input.active === "true";
+    if (input.userId === admin.id && !active) throw new AppError("conflict", "You cannot deactivate your own account.");
+    const db = getDb();
+    const { before, after } = setUserActive(db, input.userId, active);
+    recordAudit(db, {
+      actor: webActor(admin),
+      action: active ? "user.reactivate" : "user.deactivate",
+      entityType: "user",
+      entityId: input.userId,
+      before: { active: before.active },
+      after: { active: after.active },
+    });
+    revalidatePath("/people");
+    return { ok: `${after.name} is ${active ? "active again" : "deactivated"}.` };
+  } catch (err) {
+    return errorState(err);
+  }
+}

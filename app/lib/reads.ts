@@ -1,0 +1,123 @@
+/**
+ * Server reads for pages and route handlers: thin wrappers over db/queries that return the
+ * JSON-safe view types of app/lib/view-types.ts. No logic of their own beyond shaping.
+ */
+import { getDb } from "@/db/client";
+import { listReviews } from "@/db/queries/reviews";
+import { getRun, getStepLogs, listRuns, type RunFilter, type RunRow } from "@/db/queries/runs";
+import type { LogLine, RunListItem, RunListPage, RunView, StepView } from "./view-types";
+
+const ms = (d: Date | null | undefined) => (d ? d.getTime() : null);
+
+function toListItem(r: Omit<RunRow, "stepsDone" | "stepsTotal" | "cacheHits"> & Partial<RunRow>): RunListItem {
+  const started = ms(r.startedAt);
+  const finished = ms(r.finishedAt);
+  return {
+    id: r.id,
+    status: r.status,
+    door: r.door,
+    startedBy: r.startedByLabel,
+    parentRunId: r.parentRunId,
+    rerunFromStep: r.rerunFromStep,
+    createdAt: r.createdAt.getTime(),
+    startedAt: started,
+    finishedAt: finished,
+    durationMs: started !== null && finished !== null ? finished - started : null,
+    pipelineName: r.pipelineName,
+    pipelineVersion: r.pipelineVersion,
+    datasetName: r.datasetName,
+    surveySlug: r.surveySlug,
+    surveyName: r.surveyName,
+    stepsDone: r.stepsDone ?? 0,
+    stepsTotal: r.stepsTotal ?? 0,
+    cacheHits: r.cacheHits ?? 0,
+    error: r.error,
+  };
+}
+
+/** A page of runs. */
+export function readRunList(filter: RunFilter): RunListPage {
+  const page = filter.page ?? 1;
+  const pageSize = filter.pageSize ?? 25;
+  const { rows, total } = listRuns(getDb(), { ...filter, page, pageSize });
+  return { rows: rows.map(toListItem), total, page, pageSize };
+}
+
+/** A run with steps, reviews and its parent chain, or null. */
+export function readRun(id: number): RunView | null {
+  const db = getDb();
+  const run = getRun(db, id);
+  if (!run) return null;
+  const steps: StepView[] = run.steps.map((s) => ({
+    id: s.id,
+    position: s.position,
+    label: s.label,
+    stepId: s.stepId,
+    stepVersion: s.stepVersion,
+    status: s.status,
+    progress: s.progress,
+    progressMessage: s.progressMessage,
+    cacheHit: s.cacheHit,
+    cacheSourceRunId: s.cacheSourceRunId,
+    cacheKey: s.cacheKey,
+    params: s.params,
+    inputs: s.inputs,
+    outputs: s.outputs,
+    summary: s.summary,
+    series: s.series,
+    error: s.error,
+    startedAt: ms(s.startedAt),
+    finishedAt: ms(s.finishedAt),
+    durationMs: s.durationMs,
+  }));
+  const done = steps.filter((s) => s.status === "succeeded").length;
+  const parentChain: RunView["parentChain"] = [];
+  const seen = new Set<number>([id]);
+  let parentId = run.parentRunId;
+  while (parentId !== null && !seen.has(parentId) && parentChain.length < 50) {
+    seen.add(parentId);
+    const p = getRun(db, parentId);
+    if (!p) break;
+    parentChain.push({ id: p.id, status: p.status, startedBy: p.startedByLabel, createdAt: p.createdAt.getTime(), rerunFromStep: p.rerunFromStep });
+    parentId = p.parentRunId;
+  }
+  return {
+    ...toListItem({ ...run, stepsDone: done, stepsTotal: steps.length, cacheHits: steps.filter((s) => s.cacheHit).length }),
+    datasetId: run.datasetId,
+    datasetHash: run.datasetHash,
+    datasetFolder: run.datasetFolder,
+    profileName: run.profileName,
+    pipelineVersionId: run.pipelineVersionId,
+    pipelineSource: run.pipelineSource,
+    startedByEmail: run.startedByEmail,
+    overrides: run.overrides,
+    cancelRequested: run.cancelRequested,
+    steps,
+    rejectedFiles: run.rejectedFiles,
+    childRunIds: run.childRunIds,
+    parentChain,
+    reviews: listReviews(db, id).map((r) => ({
+      id: r.id,
+      decision: r.decision,
+      comment: r.comment,
+      reviewer: r.reviewerName,
+      at: r.at.getTime(),
+    })),
+  };
+}
+
+/** Log lines of a run after `afterId`. */
+export function readLogs(runId: number, opts: { runStepId?: number; afterId?: number; limit?: number }): LogLine[] {
+  return getStepLogs(getDb(), { runId, ...opts }).map((l) => ({
+    id: l.id,
+    runStepId: l.runStepId,
+    at: l.at.getTime(),
+    level: l.level,
+    message: l.message,
+  }));
+}
+
+/** True while a run may still change. */
+export function isLive(status: string): boolean {
+  return status === "queued" || status === "running";
+}

@@ -1,0 +1,125 @@
+/**
+ * Shapes the control room's pages and API answers use (JSON-safe: times as epoch ms).
+ * Shared by server reads, route handlers and client components.
+ */
+import type { Door, Role, RunStatus, StepStatus } from "@/db/schema";
+
+export type { Door, Role, RunStatus, StepStatus };
+
+export interface RunListItem {
+  id: number;
+  status: RunStatus;
+  door: Door;
+  startedBy: string;
+  parentRunId: number | null;
+  rerunFromStep: string | null;
+  createdAt: number;
+  startedAt: number | null;
+  finishedAt: number | null;
+  durationMs: number | null;
+  pipelineName: string;
+  pipelineVersion: number;
+  datasetName: string;
+  surveySlug: string | null;
+  surveyName: string | null;
+  stepsDone: number;
+  stepsTotal: number;
+  cacheHits: number;
+  error: string | null;
+}
+
+export interface RunListPage {
+  rows: RunListItem[];
+  total: number;
+  page: number;
+  pageSize: number;
+}
+
+export interface StepView {
+  id: number;
+  position: number;
+  label: string;
+  stepId: string;
+  stepVersion: number;
+  status: StepStatus;
+  progress: number;
+  progressMessage: string | null;
+  cacheHit: boolean;
+  cacheSourceRunId: number | null;
+  cacheKey: string | null;
+  params: Record<string, unknown>;
+  inputs: Record<string, string>;
+  outputs: Record<string, string>;
+  summary: Record<string, unknown> | null;
+  series: Array<{ name: string; xLabel: string; yLabel: string; points: Array<{ x: number; y: number; group?: string }> }>;
+  error: string | null;
+  startedAt: number | null;
+  finishedAt: number | null;
+  durationMs: number | null;
+}
+
+export interface ReviewView {
+  id: number;
+  decision: "approved" | "returned";
+  comment: string;
+  reviewer: string;
+  at: number;
+}
+
+export interface RunView extends RunListItem {
+  datasetId: number;
+  datasetHash: string;
+  datasetFolder: string;
+  profileName: string | null;
+  pipelineVersionId: number;
+  pipelineSource: string;
+  startedByEmail: string | null;
+  overrides: Record<string, Record<string, unknown>>;
+  cancelRequested: boolean;
+  steps: StepView[];
+  rejectedFiles: Array<{ name: string; reason: string }>;
+  childRunIds: number[];
+  /** Parent, grandparent, ... (nearest first). */
+  parentChain: Array<{ id: number; status: RunStatus; startedBy: string; createdAt: number; rerunFromStep: string | null }>;
+  reviews: ReviewView[];
+}
+
+export interface LogLine {
+  id: number;
+  runStepId: number | null;
+  at: number;
+  level: "debug" | "info" | "warn" | "error";
+  message: string;
+}
+
+/** An artifact's outline: enough to pick a gather or a model without its samples. */
+export type ArtifactOutline =
+  | {
+      hash: string;
+      kind: "gathers";
+      gathers: Array<{ id: string; traceCount: number; sampleCount: number; sampleIntervalS: number; startTimeS: number }>;
+    }
+  | { hash: string; kind: "model"; nx: number; nz: number; spacingM: number; originX: number; originZ: number }
+  | { hash: string; kind: "snapshots"; shotId: string; component: string; nx: number; nz: number; spacingM: number; originX: number; originZ: number; timesS: number[] }
+  | { hash: string; kind: "picks"; method: string; count: number }
+  | { hash: string; kind: "mutes"; count: number }
+  | { hash: string; kind: "spectra"; gatherIds: string[]; frequencyCount: number }
+  | { hash: string; kind: "json"; role: string; data: unknown }
+  | { hash: string; kind: string };
+
+/** JSON header of the binary trace answer (see app/lib/trace-wire.ts). */
+export interface TraceHeaderWire {
+  gatherId: string;
+  traceCount: number;
+  /** Samples per trace in the payload (after decimation). */
+  sampleCount: number;
+  /** Sample interval of the payload, s. */
+  sampleIntervalS: number;
+  startTimeS: number;
+  /** Time decimation factor applied (1 = full resolution). */
+  decimation: number;
+  offsetsM: number[];
+  receiverXM: number[];
+  sourceXM: number;
+  dead: boolean[];
+}

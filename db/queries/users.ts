@@ -1,0 +1,102 @@
+/**
+ * People who may sign in to the control room. Users are never deleted: a deactivated user
+ * keeps their name in runs, reviews and the audit trail.
+ */
+import { asc, eq } from "drizzle-orm";
+import bcrypt from "bcryptjs";
+import type { Db } from "../client";
+import { users, type Role } from "../schema";
+import { AppError } from "../../pipeline/errors";
+
+/** A user as shown to people (no password hash). */
+export interface UserRow {
+  id: number;
+  email: string;
+  name: string;
+  role: Role;
+  active: boolean;
+  createdAt: Date;
+}
+
+/** bcrypt cost factor: 10 rounds is the bcryptjs default and signs in well under 100 ms here. */
+const BCRYPT_ROUNDS = 10;
+
+function toRow(u: typeof users.$inferSelect): UserRow {
+  return { id: u.id, email: u.email, name: u.name, role: u.role, active: u.active, createdAt: u.createdAt };
+}
+
+/** Normalises an email for lookups and storage (trimmed, lower case). */
+export function normaliseEmail(email: string): string {
+  return email.trim().toLowerCase();
+}
+
+/** All users, active first, then by name. */
+export function listUsers(db: Db): UserRow[] {
+  return db
+    .select()
+    .from(users)
+    .orderBy(asc(users.name))
+    .all()
+    .map(toRow)
+    .sort((a, b) => Number(b.active) - Number(a.active));
+}
+
+/** One user by id, or null. */
+export function getUserById(db: Db, id: number): UserRow | null {
+  const u = db.select().from(users).where(eq(users.id, id)).get();
+  return u ? toRow(u) : null;
+}
+
+/** One user by email, or null. */
+export function getUserByEmail(db: Db, email: string): UserRow | null {
+  const u = db.select().from(users).where(eq(users.email, normaliseEmail(email))).get();
+  return u ? toRow(u) : null;
+}
+
+/**
+ * Checks an email and password. Returns the user when the password matches and the account is
+ * active, else null (the caller does not learn which of the two failed).
+ */
+export async function verifyCredentials(db: Db, email: string, password: string): Promise<UserRow | null> {
+  const u = db.select().from(users).where(eq(users.email, normaliseEmail(email))).get();
+  if (!u || !u.active) return null;
+  const ok = await bcrypt.compare(password, u.passwordHash);
+  return ok ? toRow(u) : null;
+}
+
+/** Adds a user with a bcrypt-hashed password. Throws AppError "conflict" when the email is taken. */
+export function createUser(db: Db, input: { email: string; name: string; role: Role; password: string }): UserRow {
+  const email = normaliseEmail(input.email);
+  if (getUserByEmail(db, email)) {
+    throw new AppError("conflict", `A user with the email ${email} already exists.`, { field: "email" });
+  }
+  const passwordHash = bcrypt.hashSync(input.password, BCRYPT_ROUNDS);
+  const u = db.insert(users).values({ email, name: input.name.trim(), role: input.role, passwordHash }).returning().get();
+  return toRow(u);
+}
+
+function requireUser(db: Db, id: number): UserRow {
+  const u = getUserById(db, id);
+  if (!u) throw new AppError("not-found", `No user with id ${id}.`, { field: "userId" });
+  return u;
+}
+
+/** Changes a user's role; returns the user before and after. */
+export function setUserRole(db: Db, id: number, role: Role): { before: UserRow; after: UserRow } {
+  const before = requireUser(db, id);
+  db.update(users).set({ role }).where(eq(users.id, id)).run();
+  return { before, after: { ...before, role } };
+}
+
+/** Activates or deactivates a user (never deletes); returns the user before and after. */
+export function setUserActive(db: Db, id: number, active: boolean): { before: UserRow; after: UserRow } {
+  const before = requireUser(db, id);
+  db.update(users).set({ active }).where(eq(users.id, id)).run();
+  return { before, after: { ...before, active } };
+}
+
+/** Sets a new password (bcrypt-hashed). */
+export function setUserPassword(db: Db, id: number, password: string): void {
+  requireUser(db, id);
+  db.update(users).set({ passwordHash: bcrypt.hashSync(password, BCRYPT_ROUNDS) }).where(eq(users.id, id)).run();
+}
