@@ -53,8 +53,11 @@ export function defaultWorkerCount(): number {
 export function createWorkerPool(threads = defaultWorkerCount()): WorkerPool {
   const jsEntry = path.join(here, "entry.js");
   const tsEntry = path.join(here, "entry.ts");
+  // entry-loader.cjs registers tsx inside each worker and loads entry.ts (see its header).
+  const loaderEntry = path.join(here, "entry-loader.cjs");
+  void tsEntry;
   const piscina = new Piscina({
-    filename: tsEntry,
+    filename: loaderEntry,
     minThreads: threads,
     maxThreads: threads,
     idleTimeout: 30_000,
