@@ -20,3 +20,12 @@ export function scaleSamples(arg: { samples: Float32Array; factor: number }) {
   for (let i = 0; i < out.length; i++) out[i] = arg.samples[i] * arg.factor;
   return Piscina.move(out);
 }
+
+// ---- Signal-processing steps: each task runs one kernel on a block of whole traces ----
+
+import { filterTraces, type FilterTracesArgs } from "../kernels/filter";
+
+/** Frequency filter on a block `[trace][sample]`; the result buffer moves back to the caller. */
+export function filterTraceBlock(arg: FilterTracesArgs): Float32Array {
+  return Piscina.move(filterTraces(arg)) as unknown as Float32Array;
+}
