@@ -317,6 +317,14 @@ export function readSegy(bytes: Uint8Array, fileName: string): SegyFile {
     offset = at + TRACE_HEADER_BYTES + dataBytes;
   }
   if (traces.length === 0) cur.fail(offset, "the file holds no traces", "at least one 240-byte trace header after the headers");
+  if (revisionMajor >= 2) {
+    // Rev 2.0 bytes 3515–3522 announce the trace count: fewer traces means the file was cut at a
+    // trace boundary.
+    const announced = cur.u64(3514, "number of traces in file");
+    if (announced > 0 && announced !== traces.length) {
+      cur.fail(offset, `the file holds ${traces.length} traces but its binary header announces ${announced}`, `${announced} traces`);
+    }
+  }
   if (!(binary.sampleIntervalUs > 0) && !(traces[0].header.sampleIntervalUs > 0)) {
     cur.fail(3216, "sample interval is 0 in the binary header and the first trace header", "a positive interval in microseconds");
   }
