@@ -1,0 +1,372 @@
+// 2D elastic velocity-stress finite differences on a staggered grid (Virieux 1986),
+// fourth order in space with coefficients 9/8 and -1/24, second order in time (Levander 1988).
+// Hot loops in 128-bit SIMD (f32x4). The TypeScript reference kernel in
+// pipeline/kernels/fd/reference-kernel.ts is the readable specification of the same scheme and
+// performs the same float32 operations in the same order.
+//
+// Memory layout (set by the TypeScript driver, see pipeline/kernels/fd/layout.ts): every field and
+// material array has `rowBytes` bytes per row and holds the computational cell (row j, column i)
+// at byte `org + j*rowBytes + 4*i`; two halo rows above and below and four halo columns on each side
+// stay zero. Columns are processed in groups of four up to `nxv` (a multiple of 4); material
+// coefficients are zero in the padding columns so those cells stay zero.
+//
+// Material coefficients are pre-scaled by dt/h: buoyancy dt/(rho h), moduli dt*M/h.
+// Staggered positions (array element (j, i)):
+//   P-SV: sxx, szz at (i, j); vx at (i+1/2, j); vz at (i, j+1/2); sxz at (i+1/2, j+1/2)
+//   SH:   vy at (i, j); sxy at (i+1/2, j); syz at (i, j+1/2)
+// Free surface (row 0 = z 0) by stress imaging (Levander 1988): szz = 0 on row 0, where the lambda
+// array holds the surface modulus M - lambda^2/M for sxx instead; szz and sxz
+// (P-SV) or syz (SH) mirrored with opposite sign above it; velocities above stay zero.
+// Convolutional PML (Komatitsch & Martin 2007, kappa = 1): for each spatial derivative d in the
+// absorbing strips, psi <- b psi + a d and the field gets coef * psi in addition to coef * d.
+
+const C1: f32 = 9.0 / 8.0;
+const C2: f32 = -1.0 / 24.0;
+
+// Layout.
+let nx: i32 = 0; // computational columns
+let nxv: i32 = 0; // columns processed per row, multiple of 4
+let nrows: i32 = 0; // computational rows
+let rb: usize = 0; // bytes per row
+let org: usize = 0; // byte offset of cell (0, 0) inside each array
+let wx: i32 = 0; // x absorbing strip width (columns on each side)
+let wzTop: i32 = 0; // top absorbing strip rows (0 with a free surface)
+let wzBot: i32 = 0; // bottom absorbing strip rows
+let freeSurface: bool = false;
+
+// Pointers (byte addresses of array bases).
+let pF0: usize = 0; // P-SV: vx; SH: vy
+let pF1: usize = 0; // P-SV: vz; SH: sxy
+let pF2: usize = 0; // P-SV: sxx; SH: syz
+let pF3: usize = 0; // P-SV: szz
+let pF4: usize = 0; // P-SV: sxz
+let pM0: usize = 0; // P-SV: bx; SH: b
+let pM1: usize = 0; // P-SV: bz; SH: mux
+let pM2: usize = 0; // P-SV: M = lambda+2mu; SH: muz
+let pM3: usize = 0; // P-SV: lambda
+let pM4: usize = 0; // P-SV: mu at sxz
+// PML coefficient arrays: x per column (length nxv), z per row (length nrows); I integer, H half.
+let pAxI: usize = 0;
+let pBxI: usize = 0;
+let pAxH: usize = 0;
+let pBxH: usize = 0;
+let pAzI: usize = 0;
+let pBzI: usize = 0;
+let pAzH: usize = 0;
+let pBzH: usize = 0;
+// Memory variables: x strips [row][2*wx], z strips [wzTop+wzBot][nxv].
+let pPx0: usize = 0;
+let pPx1: usize = 0;
+let pPx2: usize = 0;
+let pPx3: usize = 0;
+let pPz0: usize = 0;
+let pPz1: usize = 0;
+let pPz2: usize = 0;
+let pPz3: usize = 0;
+
+/** First free byte after static data; the driver places its arrays from here. */
+export function heapBase(): usize {
+  return __heap_base;
+}
+
+/** Reads the layout and pointer table written by the driver at `table` (i32 entries). */
+export function configure(table: usize): void {
+  nx = load<i32>(table, 0);
+  nxv = load<i32>(table, 4);
+  nrows = load<i32>(table, 8);
+  rb = <usize>load<i32>(table, 12);
+  org = <usize>load<i32>(table, 16);
+  wx = load<i32>(table, 20);
+  wzTop = load<i32>(table, 24);
+  wzBot = load<i32>(table, 28);
+  freeSurface = load<i32>(table, 32) != 0;
+  pF0 = <usize>load<i32>(table, 36);
+  pF1 = <usize>load<i32>(table, 40);
+  pF2 = <usize>load<i32>(table, 44);
+  pF3 = <usize>load<i32>(table, 48);
+  pF4 = <usize>load<i32>(table, 52);
+  pM0 = <usize>load<i32>(table, 56);
+  pM1 = <usize>load<i32>(table, 60);
+  pM2 = <usize>load<i32>(table, 64);
+  pM3 = <usize>load<i32>(table, 68);
+  pM4 = <usize>load<i32>(table, 72);
+  pAxI = <usize>load<i32>(table, 76);
+  pBxI = <usize>load<i32>(table, 80);
+  pAxH = <usize>load<i32>(table, 84);
+  pBxH = <usize>load<i32>(table, 88);
+  pAzI = <usize>load<i32>(table, 92);
+  pBzI = <usize>load<i32>(table, 96);
+  pAzH = <usize>load<i32>(table, 100);
+  pBzH = <usize>load<i32>(table, 104);
+  pPx0 = <usize>load<i32>(table, 108);
+  pPx1 = <usize>load<i32>(table, 112);
+  pPx2 = <usize>load<i32>(table, 116);
+  pPx3 = <usize>load<i32>(table, 120);
+  pPz0 = <usize>load<i32>(table, 124);
+  pPz1 = <usize>load<i32>(table, 128);
+  pPz2 = <usize>load<i32>(table, 132);
+  pPz3 = <usize>load<i32>(table, 136);
+}
+
+// ---------------------------------------------------------------------------------------------
+// P-SV
+
+/** Velocity update vx, vz from the stresses, then the PML terms. */
+export function psvVelocity(): void {
+  const c1 = f32x4.splat(C1);
+  const c2 = f32x4.splat(C2);
+  const r = rb;
+  const n = (<usize>nxv) << 2;
+  for (let j = 0; j < nrows; j++) {
+    const base = org + <usize>j * r;
+    const end = base + n;
+    for (let o = base; o < end; o += 16) {
+      // vx at (i+1/2, j): d sxx/dx + d sxz/dz
+      const ps = pF2 + o - 4;
+      const xm1 = v128.load(ps);
+      const x0 = v128.load(ps, 4);
+      const x1 = v128.load(ps, 8);
+      const x2 = v128.load(ps, 12);
+      const dxx = f32x4.add(f32x4.mul(c1, f32x4.sub(x1, x0)), f32x4.mul(c2, f32x4.sub(x2, xm1)));
+      const pq = pF4 + o;
+      const q0 = v128.load(pq);
+      const qm1 = v128.load(pq - r);
+      const qm2 = v128.load(pq - 2 * r);
+      const qp1 = v128.load(pq + r);
+      const dzq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, qm1)), f32x4.mul(c2, f32x4.sub(qp1, qm2)));
+      const pvx = pF0 + o;
+      v128.store(pvx, f32x4.add(v128.load(pvx), f32x4.mul(v128.load(pM0 + o), f32x4.add(dxx, dzq))));
+      // vz at (i, j+1/2): d sxz/dx + d szz/dz
+      const pr = pF4 + o - 8;
+      const rm2 = v128.load(pr);
+      const rm1 = v128.load(pr, 4);
+      const r1 = v128.load(pr, 12);
+      const dxq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, rm1)), f32x4.mul(c2, f32x4.sub(r1, rm2)));
+      const pz = pF3 + o;
+      const z0 = v128.load(pz);
+      const zm1 = v128.load(pz - r);
+      const z1 = v128.load(pz + r);
+      const z2 = v128.load(pz + 2 * r);
+      const dzz = f32x4.add(f32x4.mul(c1, f32x4.sub(z1, z0)), f32x4.mul(c2, f32x4.sub(z2, zm1)));
+      const pvz = pF1 + o;
+      v128.store(pvz, f32x4.add(v128.load(pvz), f32x4.mul(v128.load(pM1 + o), f32x4.add(dxq, dzz))));
+    }
+  }
+  // PML: vx gets d sxx/dx (half x) and d sxz/dz (integer z); vz gets d sxz/dx (integer x), d szz/dz (half z).
+  pmlX(1, pF2, pPx0, pAxH, pBxH, pF0, pM0, 0, 0);
+  pmlX(0, pF4, pPx1, pAxI, pBxI, pF1, pM1, 0, 0);
+  pmlZ(0, pF4, pPz0, pAzI, pBzI, pF0, pM0, 0, 0);
+  pmlZ(1, pF3, pPz1, pAzH, pBzH, pF1, pM1, 0, 0);
+}
+
+/** Stress update sxx, szz, sxz from the velocities, then the PML terms, then the free surface. */
+export function psvStress(): void {
+  const c1 = f32x4.splat(C1);
+  const c2 = f32x4.splat(C2);
+  const r = rb;
+  const n = (<usize>nxv) << 2;
+  for (let j = 0; j < nrows; j++) {
+    const base = org + <usize>j * r;
+    const end = base + n;
+    const surfaceRow = freeSurface && j == 0;
+    for (let o = base; o < end; o += 16) {
+      // d vx/dx at i: vx(i)-vx(i-1), vx(i+1)-vx(i-2)
+      const pv = pF0 + o - 8;
+      const vm2 = v128.load(pv);
+      const vm1 = v128.load(pv, 4);
+      const v0 = v128.load(pv, 8);
+      const v1 = v128.load(pv, 12);
+      const dxvx = f32x4.add(f32x4.mul(c1, f32x4.sub(v0, vm1)), f32x4.mul(c2, f32x4.sub(v1, vm2)));
+      // d vz/dz at j: vz(j)-vz(j-1), vz(j+1)-vz(j-2)
+      const pw = pF1 + o;
+      const w0 = v128.load(pw);
+      const wm1 = v128.load(pw - r);
+      const wm2 = v128.load(pw - 2 * r);
+      const wp1 = v128.load(pw + r);
+      const dzvz = f32x4.add(f32x4.mul(c1, f32x4.sub(w0, wm1)), f32x4.mul(c2, f32x4.sub(wp1, wm2)));
+      const mm = v128.load(pM2 + o);
+      const ll = v128.load(pM3 + o);
+      const psx = pF2 + o;
+      const psz = pF3 + o;
+      if (surfaceRow) {
+        // szz = 0 at the surface, so d vz/dz = -(lambda/M) d vx/dx and sxx grows with M - lambda^2/M,
+        // which the driver stores in the lambda array on this row.
+        v128.store(psx, f32x4.add(v128.load(psx), f32x4.mul(ll, dxvx)));
+        v128.store(psz, f32x4.splat(0));
+      } else {
+        v128.store(psx, f32x4.add(v128.load(psx), f32x4.add(f32x4.mul(mm, dxvx), f32x4.mul(ll, dzvz))));
+        v128.store(psz, f32x4.add(v128.load(psz), f32x4.add(f32x4.mul(ll, dxvx), f32x4.mul(mm, dzvz))));
+      }
+      // sxz at (i+1/2, j+1/2): d vx/dz = vx(j+1)-vx(j), vx(j+2)-vx(j-1); d vz/dx = vz(i+1)-vz(i), vz(i+2)-vz(i-1)
+      const px = pF0 + o;
+      const xp1 = v128.load(px + r);
+      const xp2 = v128.load(px + 2 * r);
+      const xm1 = v128.load(px - r);
+      const dzvx = f32x4.add(f32x4.mul(c1, f32x4.sub(xp1, v0)), f32x4.mul(c2, f32x4.sub(xp2, xm1)));
+      const pu = pF1 + o - 4;
+      const um1 = v128.load(pu);
+      const u1 = v128.load(pu, 8);
+      const u2 = v128.load(pu, 12);
+      const dxvz = f32x4.add(f32x4.mul(c1, f32x4.sub(u1, w0)), f32x4.mul(c2, f32x4.sub(u2, um1)));
+      const pq = pF4 + o;
+      v128.store(pq, f32x4.add(v128.load(pq), f32x4.mul(v128.load(pM4 + o), f32x4.add(dzvx, dxvz))));
+    }
+  }
+  // PML: sxx, szz get d vx/dx (integer x) and d vz/dz (integer z); sxz gets d vx/dz (half z), d vz/dx (half x).
+  pmlX(0, pF0, pPx2, pAxI, pBxI, pF2, pM2, pF3, pM3);
+  pmlZ(0, pF1, pPz2, pAzI, pBzI, pF2, pM3, pF3, pM2);
+  pmlZ(1, pF0, pPz3, pAzH, pBzH, pF4, pM4, 0, 0);
+  pmlX(1, pF1, pPx3, pAxH, pBxH, pF4, pM4, 0, 0);
+  if (freeSurface) {
+    const n4 = <usize>nx << 2;
+    for (let o: usize = 0; o < n4; o += 4) {
+      const a = org + o;
+      store<f32>(pF3 + a, 0);
+      store<f32>(pF3 + a - r, -load<f32>(pF3 + a + r));
+      store<f32>(pF3 + a - 2 * r, -load<f32>(pF3 + a + 2 * r));
+      store<f32>(pF4 + a - r, -load<f32>(pF4 + a));
+      store<f32>(pF4 + a - 2 * r, -load<f32>(pF4 + a + r));
+    }
+  }
+}
+
+// ---------------------------------------------------------------------------------------------
+// SH
+
+/** Velocity update vy from sxy, syz, then the PML terms. */
+export function shVelocity(): void {
+  const c1 = f32x4.splat(C1);
+  const c2 = f32x4.splat(C2);
+  const r = rb;
+  const n = (<usize>nxv) << 2;
+  for (let j = 0; j < nrows; j++) {
+    const base = org + <usize>j * r;
+    const end = base + n;
+    for (let o = base; o < end; o += 16) {
+      // d sxy/dx at i: sxy(i)-sxy(i-1), sxy(i+1)-sxy(i-2)
+      const ps = pF1 + o - 8;
+      const sm2 = v128.load(ps);
+      const sm1 = v128.load(ps, 4);
+      const s0 = v128.load(ps, 8);
+      const s1 = v128.load(ps, 12);
+      const dx = f32x4.add(f32x4.mul(c1, f32x4.sub(s0, sm1)), f32x4.mul(c2, f32x4.sub(s1, sm2)));
+      // d syz/dz at j: syz(j)-syz(j-1), syz(j+1)-syz(j-2)
+      const pq = pF2 + o;
+      const q0 = v128.load(pq);
+      const qm1 = v128.load(pq - r);
+      const qm2 = v128.load(pq - 2 * r);
+      const qp1 = v128.load(pq + r);
+      const dz = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, qm1)), f32x4.mul(c2, f32x4.sub(qp1, qm2)));
+      const pv = pF0 + o;
+      v128.store(pv, f32x4.add(v128.load(pv), f32x4.mul(v128.load(pM0 + o), f32x4.add(dx, dz))));
+    }
+  }
+  pmlX(0, pF1, pPx0, pAxI, pBxI, pF0, pM0, 0, 0);
+  pmlZ(0, pF2, pPz0, pAzI, pBzI, pF0, pM0, 0, 0);
+}
+
+/** Stress update sxy, syz from vy, then the PML terms, then the free surface. */
+export function shStress(): void {
+  const c1 = f32x4.splat(C1);
+  const c2 = f32x4.splat(C2);
+  const r = rb;
+  const n = (<usize>nxv) << 2;
+  for (let j = 0; j < nrows; j++) {
+    const base = org + <usize>j * r;
+    const end = base + n;
+    for (let o = base; o < end; o += 16) {
+      // d vy/dx at i+1/2: vy(i+1)-vy(i), vy(i+2)-vy(i-1)
+      const pv = pF0 + o - 4;
+      const vm1 = v128.load(pv);
+      const v0 = v128.load(pv, 4);
+      const v1 = v128.load(pv, 8);
+      const v2 = v128.load(pv, 12);
+      const dx = f32x4.add(f32x4.mul(c1, f32x4.sub(v1, v0)), f32x4.mul(c2, f32x4.sub(v2, vm1)));
+      const p1 = pF1 + o;
+      v128.store(p1, f32x4.add(v128.load(p1), f32x4.mul(v128.load(pM1 + o), dx)));
+      // d vy/dz at j+1/2: vy(j+1)-vy(j), vy(j+2)-vy(j-1)
+      const pw = pF0 + o;
+      const wp1 = v128.load(pw + r);
+      const wp2 = v128.load(pw + 2 * r);
+      const wm1 = v128.load(pw - r);
+      const dz = f32x4.add(f32x4.mul(c1, f32x4.sub(wp1, v0)), f32x4.mul(c2, f32x4.sub(wp2, wm1)));
+      const p2 = pF2 + o;
+      v128.store(p2, f32x4.add(v128.load(p2), f32x4.mul(v128.load(pM2 + o), dz)));
+    }
+  }
+  pmlX(1, pF0, pPx1, pAxH, pBxH, pF1, pM1, 0, 0);
+  pmlZ(1, pF0, pPz1, pAzH, pBzH, pF2, pM2, 0, 0);
+  if (freeSurface) {
+    // syz = 0 at z = 0 (the vy row): syz(-1/2) = -syz(1/2), syz(-3/2) = -syz(3/2).
+    const n4 = <usize>nx << 2;
+    for (let o: usize = 0; o < n4; o += 4) {
+      const a = pF2 + org + o;
+      store<f32>(a - r, -load<f32>(a));
+      store<f32>(a - 2 * r, -load<f32>(a + r));
+    }
+  }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Convolutional PML terms on the absorbing strips (scalar; the strips are a small share of cells).
+// The derivative of `src` at the position shifted by `sh` (0: backward, element i between i-1 and i;
+// 1: forward, between i and i+1): c1 (s[k]-s[k-1]) + c2 (s[k+1]-s[k-2]) with k = i + sh.
+
+@inline
+function pmlXCell(sh: i32, src: usize, psi: usize, a: usize, b: usize,
+  f1: usize, m1: usize, f2: usize, m2: usize, j: i32, i: i32, si: i32, surface: bool): void {
+  const o = org + <usize>j * rb + (<usize>i << 2);
+  const s = src + o + (<usize>sh << 2);
+  const d = C1 * (load<f32>(s) - load<f32>(s - 4)) + C2 * (load<f32>(s + 4) - load<f32>(s - 8));
+  const pp = psi + ((<usize>(j * 2 * wx + si)) << 2);
+  const ci = <usize>i << 2;
+  const v = load<f32>(b + ci) * load<f32>(pp) + load<f32>(a + ci) * d;
+  store<f32>(pp, v);
+  if (surface) {
+    // Free-surface row of the normal stresses: sxx with the surface modulus (held in m2), szz stays 0.
+    store<f32>(f1 + o, load<f32>(f1 + o) + load<f32>(m2 + o) * v);
+    return;
+  }
+  store<f32>(f1 + o, load<f32>(f1 + o) + load<f32>(m1 + o) * v);
+  if (f2 != 0) store<f32>(f2 + o, load<f32>(f2 + o) + load<f32>(m2 + o) * v);
+}
+
+function pmlX(sh: i32, src: usize, psi: usize, a: usize, b: usize,
+  f1: usize, m1: usize, f2: usize, m2: usize): void {
+  if (wx == 0) return;
+  const right = nx - wx;
+  for (let j = 0; j < nrows; j++) {
+    const surface = freeSurface && j == 0 && f2 != 0;
+    for (let i = 0; i < wx; i++) pmlXCell(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i, surface);
+    for (let i = right; i < nx; i++) pmlXCell(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i - right + wx, surface);
+  }
+}
+
+@inline
+function pmlZRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
+  f1: usize, m1: usize, f2: usize, m2: usize, j: i32, sj: i32): void {
+  const r = rb;
+  const row = org + <usize>j * r;
+  const sr = src + row + <usize>sh * r;
+  const pr = psi + ((<usize>(sj * nxv)) << 2);
+  const av = load<f32>(a + (<usize>j << 2));
+  const bv = load<f32>(b + (<usize>j << 2));
+  const n4 = <usize>nx << 2;
+  for (let o: usize = 0; o < n4; o += 4) {
+    const s = sr + o;
+    const d = C1 * (load<f32>(s) - load<f32>(s - r)) + C2 * (load<f32>(s + r) - load<f32>(s - 2 * r));
+    const pp = pr + o;
+    const v = bv * load<f32>(pp) + av * d;
+    store<f32>(pp, v);
+    const q = row + o;
+    store<f32>(f1 + q, load<f32>(f1 + q) + load<f32>(m1 + q) * v);
+    if (f2 != 0) store<f32>(f2 + q, load<f32>(f2 + q) + load<f32>(m2 + q) * v);
+  }
+}
+
+function pmlZ(sh: i32, src: usize, psi: usize, a: usize, b: usize,
+  f1: usize, m1: usize, f2: usize, m2: usize): void {
+  for (let j = 0; j < wzTop; j++) pmlZRow(sh, src, psi, a, b, f1, m1, f2, m2, j, j);
+  const bottom = nrows - wzBot;
+  for (let j = bottom; j < nrows; j++) pmlZRow(sh, src, psi, a, b, f1, m1, f2, m2, j, j - bottom + wzTop);
+}
