@@ -68,6 +68,10 @@ export interface StepDefinition<S extends z.ZodType = z.ZodType> {
   run: (input: StepInput, params: z.output<S>, ctx: StepContext) => Promise<StepResult>;
 }
 
+/** A step of any parameter type, as the registry holds them. */
+// eslint-disable-next-line @typescript-eslint/no-explicit-any
+export type AnyStepDefinition = StepDefinition<any>;
+
 /** Identity helper that keeps the params type attached to run(). */
 export function defineStep<S extends z.ZodType>(def: StepDefinition<S>): StepDefinition<S> {
   return def;

@@ -1,0 +1,59 @@
+/** Audit trail: append-only records of who did what, through which door, with before and after. */
+import { and, desc, eq, gte, lte, type SQL } from "drizzle-orm";
+import type { Db } from "../client";
+import { auditEvents, type Door } from "../schema";
+
+/** Who acts: a known user, or a label (OS user on the CLI, "watcher"), and the door. */
+export interface Actor {
+  userId: number | null;
+  label: string;
+  door: Door;
+}
+
+export function recordAudit(
+  db: Db,
+  e: { actor: Actor; action: string; entityType: string; entityId: string | number; before?: unknown; after?: unknown },
+): void {
+  db.insert(auditEvents)
+    .values({
+      at: new Date(),
+      actorUserId: e.actor.userId,
+      actorLabel: e.actor.label,
+      door: e.actor.door,
+      action: e.action,
+      entityType: e.entityType,
+      entityId: String(e.entityId),
+      beforeJson: e.before === undefined ? null : JSON.stringify(e.before),
+      afterJson: e.after === undefined ? null : JSON.stringify(e.after),
+    })
+    .run();
+}
+
+export interface AuditFilter {
+  entityType?: string;
+  entityId?: string;
+  action?: string;
+  actorLabel?: string;
+  from?: Date;
+  to?: Date;
+  limit?: number;
+  offset?: number;
+}
+
+export function listAudit(db: Db, f: AuditFilter = {}) {
+  const where: SQL[] = [];
+  if (f.entityType) where.push(eq(auditEvents.entityType, f.entityType));
+  if (f.entityId) where.push(eq(auditEvents.entityId, f.entityId));
+  if (f.action) where.push(eq(auditEvents.action, f.action));
+  if (f.actorLabel) where.push(eq(auditEvents.actorLabel, f.actorLabel));
+  if (f.from) where.push(gte(auditEvents.at, f.from));
+  if (f.to) where.push(lte(auditEvents.at, f.to));
+  return db
+    .select()
+    .from(auditEvents)
+    .where(where.length ? and(...where) : undefined)
+    .orderBy(desc(auditEvents.id))
+    .limit(f.limit ?? 200)
+    .offset(f.offset ?? 0)
+    .all();
+}

@@ -1,0 +1,251 @@
+/**
+ * Pipeline files: YAML naming the field data, the geometry table and the ordered steps with
+ * their settings. Parsing keeps line positions so every error names the file, the line and
+ * the field, and says what was expected.
+ */
+import fs from "node:fs";
+import path from "node:path";
+import { z } from "zod";
+import { LineCounter, parseDocument, isMap, isSeq, type Document, type Node } from "yaml";
+import { AppError } from "./errors";
+import { getStep, listSteps, paramsJsonSchema } from "./registry";
+import { RUNNER_SLOTS, type SlotName } from "./types";
+
+const LABEL = /^[a-z][a-z0-9-]{0,47}$/;
+
+const stepEntrySchema = z
+  .object({
+    step: z.string().min(1).describe("step id from `tracewright steps`"),
+    label: z
+      .string()
+      .regex(LABEL, "a label of lower-case letters, digits and dashes, starting with a letter")
+      .optional(),
+    settings: z.record(z.string(), z.unknown()).optional(),
+  })
+  .strict();
+
+/** The pipeline file as written. */
+export const pipelineFileSchema = z
+  .object({
+    name: z.string().regex(LABEL, "a name of lower-case letters, digits and dashes, starting with a letter"),
+    description: z.string().optional(),
+    survey: z.string().regex(LABEL, "a survey slug of lower-case letters, digits and dashes"),
+    profile: z.string().min(1).optional(),
+    fieldData: z.string().min(1).optional(),
+    geometryTable: z.string().min(1).optional(),
+    onBadFile: z.enum(["stop", "skip"]).default("stop"),
+    steps: z.array(stepEntrySchema).min(1, "at least one step"),
+  })
+  .strict();
+
+export type PipelineFile = z.output<typeof pipelineFileSchema>;
+
+/** A step of a validated pipeline: parameters complete with defaults. */
+export interface ResolvedStep {
+  label: string;
+  stepId: string;
+  version: number;
+  params: Record<string, unknown>;
+}
+
+/** A validated pipeline, paths made absolute. */
+export interface ResolvedPipeline {
+  name: string;
+  description: string;
+  survey: string;
+  profile: string | null;
+  /** Absolute folder of field files, or null for pure modelling. */
+  fieldDataPath: string | null;
+  geometryTablePath: string | null;
+  onBadFile: "stop" | "skip";
+  steps: ResolvedStep[];
+}
+
+function lineOf(doc: Document, counter: LineCounter, pathParts: ReadonlyArray<PropertyKey>): number | undefined {
+  // Walk down as far as the path exists; report the deepest node found.
+  for (let n = pathParts.length; n >= 0; n--) {
+    const node = doc.getIn(pathParts.slice(0, n) as unknown[], true) as Node | undefined;
+    if (node && typeof node === "object" && "range" in node && node.range) {
+      return counter.linePos(node.range[0]).line;
+    }
+    if (n === 0) break;
+  }
+  return undefined;
+}
+
+function keyLine(doc: Document, counter: LineCounter, parent: ReadonlyArray<PropertyKey>, key: string): number | undefined {
+  const node = parent.length === 0 ? doc.contents : (doc.getIn(parent as unknown[], true) as unknown);
+  if (isMap(node)) {
+    for (const item of node.items) {
+      const k = item.key as Node | null;
+      if (k && typeof k === "object" && "value" in k && (k as { value: unknown }).value === key && k.range) {
+        return counter.linePos(k.range[0]).line;
+      }
+    }
+  }
+  return lineOf(doc, counter, parent);
+}
+
+function fieldName(parts: ReadonlyArray<PropertyKey>): string {
+  return parts.reduce<string>((acc, p) => (typeof p === "number" ? `${acc}[${p}]` : acc ? `${acc}.${String(p)}` : String(p)), "");
+}
+
+function expectedFromIssue(issue: z.core.$ZodIssue): string {
+  return issue.message;
+}
+
+/**
+ * Parses and validates pipeline text. `fileLabel` names the file in errors; `baseDir` resolves
+ * relative paths. Throws AppError("bad-input") naming file, line and field.
+ */
+export function parsePipelineText(text: string, fileLabel: string, baseDir: string): ResolvedPipeline {
+  const counter = new LineCounter();
+  const doc = parseDocument(text, { lineCounter: counter, prettyErrors: false, uniqueKeys: true });
+  if (doc.errors.length > 0) {
+    const e = doc.errors[0];
+    const line = e.linePos?.[0]?.line ?? counter.linePos(e.pos[0]).line;
+    throw new AppError("bad-input", `${fileLabel} line ${line}: not valid YAML: ${e.message.split("\n")[0]}`, {
+      file: fileLabel,
+      line,
+      expected: "valid YAML",
+    });
+  }
+  const raw = doc.toJS();
+  if (!raw || typeof raw !== "object" || Array.isArray(raw)) {
+    throw new AppError("bad-input", `${fileLabel}: expected a mapping with name, survey and steps at the top level`, {
+      file: fileLabel,
+      line: 1,
+    });
+  }
+  const fail = (parts: ReadonlyArray<PropertyKey>, message: string, expected?: string, choices?: string[], useKeyLine = false): never => {
+    const parent = parts.slice(0, -1);
+    const last = parts[parts.length - 1];
+    const line =
+      useKeyLine && typeof last === "string" ? keyLine(doc, counter, parent, last) : lineOf(doc, counter, parts);
+    const field = fieldName(parts);
+    throw new AppError("bad-input", `${fileLabel}${line ? ` line ${line}` : ""}, ${field || "top level"}: ${message}`, {
+      file: fileLabel,
+      line,
+      field,
+      expected,
+      choices,
+    });
+  };
+
+  const top = pipelineFileSchema.safeParse(raw);
+  if (!top.success) {
+    const issue = top.error.issues[0];
+    if (issue.code === "unrecognized_keys") {
+      const valid = Object.keys(pipelineFileSchema.shape);
+      const stepKeys = Object.keys(stepEntrySchema.shape);
+      const inStep = issue.path.length >= 2 && issue.path[0] === "steps";
+      fail(
+        [...issue.path, issue.keys[0]],
+        `unknown key "${issue.keys[0]}"; valid keys: ${(inStep ? stepKeys : valid).join(", ")}`,
+        undefined,
+        inStep ? stepKeys : valid,
+        true,
+      );
+    }
+    fail(issue.path, expectedFromIssue(issue), issue.message);
+  }
+  const file = top.data!;
+
+  const known = new Set<SlotName>(RUNNER_SLOTS.filter((s) => (s === "geometryTable" ? !!file.geometryTable : !!file.fieldData)));
+  const labels = new Set<string>();
+  const steps: ResolvedStep[] = file.steps.map((entry, i) => {
+    let step;
+    try {
+      step = getStep(entry.step);
+    } catch {
+      const ids = listSteps().map((s) => s.id);
+      return fail(["steps", i, "step"], `unknown step "${entry.step}"; valid steps: ${ids.join(", ")}`, "a step id", ids);
+    }
+    const label = entry.label ?? entry.step;
+    if (labels.has(label)) {
+      fail(["steps", i, entry.label ? "label" : "step"], `label "${label}" is used twice; give one of the steps a distinct label`);
+    }
+    labels.add(label);
+    const settings: Record<string, unknown> = { ...(entry.settings ?? {}) };
+    if (entry.step === "import-records" && settings.onBadFile === undefined) settings.onBadFile = file.onBadFile;
+    const props = paramsJsonSchema(step).properties ?? {};
+    const validNames = Object.keys(props);
+    for (const key of Object.keys(entry.settings ?? {})) {
+      if (!validNames.includes(key)) {
+        fail(
+          ["steps", i, "settings", key],
+          `unknown setting "${key}" for step ${step.id}; valid settings: ${validNames.join(", ") || "(none)"}`,
+          undefined,
+          validNames,
+          true,
+        );
+      }
+    }
+    const parsed = step.params.safeParse(settings);
+    if (!parsed.success) {
+      const issue = parsed.error.issues[0];
+      fail(["steps", i, "settings", ...issue.path], expectedFromIssue(issue), issue.message);
+    }
+    for (const slot of step.reads) {
+      if (!known.has(slot)) {
+        const hint =
+          slot === "geometryTable"
+            ? "add geometryTable: <csv file> at the top of the pipeline file"
+            : slot === "fieldFiles"
+              ? "add fieldData: <folder> at the top of the pipeline file"
+              : `put a step that writes ${slot} earlier`;
+        fail(["steps", i, "step"], `step ${step.id} needs "${slot}", which nothing before it provides (${hint})`);
+      }
+    }
+    for (const slot of step.writes) known.add(slot);
+    return { label, stepId: step.id, version: step.version, params: parsed.data as Record<string, unknown> };
+  });
+
+  return {
+    name: file.name,
+    description: file.description ?? "",
+    survey: file.survey,
+    profile: file.profile ?? null,
+    fieldDataPath: file.fieldData ? path.resolve(baseDir, file.fieldData) : null,
+    geometryTablePath: file.geometryTable ? path.resolve(baseDir, file.geometryTable) : null,
+    onBadFile: file.onBadFile,
+    steps,
+  };
+}
+
+/** Reads and validates a pipeline file from disk. */
+export function loadPipelineFile(file: string): { resolved: ResolvedPipeline; text: string; absolutePath: string } {
+  const absolutePath = path.resolve(file);
+  let text: string;
+  try {
+    text = fs.readFileSync(absolutePath, "utf8");
+  } catch {
+    throw new AppError("not-found", `Pipeline file ${file} cannot be read (does it exist?)`, { file });
+  }
+  const resolved = parsePipelineText(text, path.basename(absolutePath), path.dirname(absolutePath));
+  return { resolved, text, absolutePath };
+}
+
+/**
+ * Re-validates a step's parameters with overrides applied (reruns). Returns complete params.
+ * Throws AppError naming `<label>.<param>`.
+ */
+export function applyOverrides(step: ResolvedStep, overrides: Record<string, unknown>): Record<string, unknown> {
+  const def = getStep(step.stepId);
+  const valid = Object.keys(paramsJsonSchema(def).properties ?? {});
+  for (const key of Object.keys(overrides)) {
+    if (!valid.includes(key)) {
+      throw new AppError("bad-input", `${step.label}.${key}: unknown setting; valid settings of ${def.id}: ${valid.join(", ")}`, {
+        field: `${step.label}.${key}`,
+        choices: valid,
+      });
+    }
+  }
+  const parsed = def.params.safeParse({ ...step.params, ...overrides });
+  if (!parsed.success) {
+    const issue = parsed.error.issues[0];
+    const field = [step.label, ...issue.path.map(String)].join(".");
+    throw new AppError("bad-input", `${field}: ${issue.message}`, { field, expected: issue.message });
+  }
+  return parsed.data as Record<string, unknown>;
+}

@@ -1,0 +1,126 @@
+/**
+ * Small steps for testing the engine itself (caching, reruns, cancel, crash recovery) without
+ * depending on the numerics of the real steps. Registered only by the tests that import this.
+ */
+import fs from "node:fs";
+import { z } from "zod";
+import { defineStep, StepInputError, throwIfAborted } from "../../pipeline/step";
+import { registerStep, listSteps } from "../../pipeline/registry";
+import type { GatherSet } from "../../pipeline/types";
+
+/** How often each step's run() was called in this process. */
+export const calls: Record<string, number> = {};
+const count = (id: string) => (calls[id] = (calls[id] ?? 0) + 1);
+
+export const makeTraces = defineStep({
+  id: "test-make-traces",
+  version: 1,
+  title: "make constant traces",
+  description: "test step",
+  reads: [],
+  writes: ["gathers"],
+  params: z.object({
+    traces: z.number().int().positive().default(3).describe("trace count"),
+    samples: z.number().int().positive().default(8).describe("samples per trace"),
+    value: z.number().default(1).describe("sample value"),
+  }),
+  async run(_input, p) {
+    count("test-make-traces");
+    const data = new Float32Array(p.traces * p.samples).fill(p.value);
+    const set: GatherSet = {
+      kind: "gathers",
+      gathers: [
+        {
+          id: "g1",
+          sampleIntervalS: 0.001,
+          sampleCount: p.samples,
+          startTimeS: 0,
+          traces: Array.from({ length: p.traces }, (_, i) => ({
+            sourceFile: "test",
+            channel: i + 1,
+            sourcePoint: 1,
+            blow: 1,
+            sourceX: 0,
+            sourceZ: 0,
+            receiverX: i,
+            receiverZ: 0,
+            offset: i,
+            stackCount: 1,
+            component: "z" as const,
+            dead: false,
+          })),
+          data,
+        },
+      ],
+    };
+    return { outputs: { gathers: set }, summary: { traces: p.traces } };
+  },
+});
+
+export const scaleTraces = defineStep({
+  id: "test-scale",
+  version: 1,
+  title: "scale traces",
+  description: "test step",
+  reads: ["gathers"],
+  writes: ["gathers"],
+  params: z.object({ factor: z.number().default(2).describe("scale factor") }),
+  async run(input, p, ctx) {
+    count("test-scale");
+    ctx.log.info({ factor: p.factor }, "scaling");
+    const set = input.gathers!;
+    return {
+      outputs: {
+        gathers: { kind: "gathers", gathers: set.gathers.map((g) => ({ ...g, data: g.data.map((v) => v * p.factor) })) },
+      },
+      series: [{ name: "scale", xLabel: "x", yLabel: "y", points: [{ x: 0, y: p.factor }] }],
+    };
+  },
+});
+
+export const waitStep = defineStep({
+  id: "test-wait",
+  version: 1,
+  title: "wait",
+  description: "test step: waits in small slices, checking for cancel; can touch a file when it starts",
+  reads: ["gathers"],
+  writes: ["gathers"],
+  params: z.object({
+    ms: z.number().int().nonnegative().default(0).describe("how long to wait, ms"),
+    startedFlagFile: z.string().default("").describe("file to create when the step starts"),
+    releaseFile: z.string().default("").describe("stop waiting as soon as this file exists"),
+  }),
+  async run(input, p, ctx) {
+    count("test-wait");
+    if (p.startedFlagFile) fs.writeFileSync(p.startedFlagFile, String(process.pid));
+    const end = Date.now() + p.ms;
+    while (Date.now() < end && !(p.releaseFile && fs.existsSync(p.releaseFile))) {
+      throwIfAborted(ctx.signal);
+      ctx.progress(1 - (end - Date.now()) / Math.max(p.ms, 1));
+      await new Promise((r) => setTimeout(r, 20));
+    }
+    return { outputs: { gathers: input.gathers } };
+  },
+});
+
+export const failStep = defineStep({
+  id: "test-fail",
+  version: 1,
+  title: "fail",
+  description: "test step that refuses its input",
+  reads: ["gathers"],
+  writes: ["gathers"],
+  params: z.object({ when: z.enum(["always", "never"]).default("always").describe("whether to fail") }),
+  async run(input, p) {
+    count("test-fail");
+    if (p.when === "always") throw new StepInputError("the traces are not what this step expects (test)", "when");
+    return { outputs: { gathers: input.gathers } };
+  },
+});
+
+/** Registers the test steps once per process. */
+export function registerEngineTestSteps(): void {
+  for (const s of [makeTraces, scaleTraces, waitStep, failStep]) {
+    if (!listSteps().some((x) => x.id === s.id)) registerStep(s);
+  }
+}
