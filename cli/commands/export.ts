@@ -1,0 +1,57 @@
+/** `tracewright export`: write an artifact as SEG-Y (gathers), CSV (models) or JSON. */
+import fs from "node:fs";
+import path from "node:path";
+import type { Command } from "commander";
+import { getRun } from "../../db/queries/runs";
+import { readArtifact } from "../../pipeline/artifact-store";
+import { AppError } from "../../pipeline/errors";
+import { exportArtifact, exportFormatOf, type ExportFormat } from "../../pipeline/export";
+import { action, openCliDb, parseId } from "../shared";
+
+export function registerExport(program: Command): void {
+  program
+    .command("export")
+    .description("write a result as a file: gathers as SEG-Y rev 2.0, models as CSV, anything else as JSON")
+    .argument("<run>", "run number")
+    .requiredOption("--step <label>", "the step whose output to write")
+    .option("--slot <slot>", "which output of the step (default: gathers, synthetic or model, whichever it wrote)")
+    .requiredOption("--out <file>", "file to write")
+    .option("--format <format>", "segy, csv or json (default: by the kind of result)")
+    .option("--force", "replace the file if it exists")
+    .action(
+      action(async (run: string, opts: { step: string; slot?: string; out: string; format?: string; force?: boolean }) => {
+        const db = openCliDb();
+        const id = parseId(run, "run");
+        const detail = getRun(db, id);
+        if (!detail) throw new AppError("not-found", `Run ${id} does not exist`);
+        const step = detail.steps.find((s) => s.label === opts.step);
+        if (!step) {
+          throw new AppError("bad-input", `--step ${opts.step}: run ${id} has no such step; its steps: ${detail.steps.map((s) => s.label).join(", ")}`, {
+            field: "--step",
+          });
+        }
+        const slots = Object.keys(step.outputs);
+        if (slots.length === 0) throw new AppError("conflict", `Step ${opts.step} of run ${id} has no results (${step.status})`);
+        const slot = opts.slot ?? ["gathers", "synthetic", "model"].find((s) => slots.includes(s)) ?? slots[0];
+        const hash = step.outputs[slot];
+        if (!hash) throw new AppError("bad-input", `--slot ${slot}: step ${opts.step} wrote ${slots.join(", ")}`, { field: "--slot", choices: slots });
+        if (opts.format && !["segy", "csv", "json"].includes(opts.format)) {
+          throw new AppError("bad-input", `--format ${opts.format}: expected segy, csv or json`, { field: "--format" });
+        }
+        const value = await readArtifact(hash);
+        const format = (opts.format as ExportFormat | undefined) ?? exportFormatOf(value);
+        let bytes: Uint8Array;
+        try {
+          bytes = exportArtifact(value, format, `Tracewright run ${id} step ${opts.step} (${slot})`);
+        } catch (err) {
+          throw new AppError("bad-input", `--format ${format}: ${(err as Error).message}`, { field: "--format" });
+        }
+        const out = path.resolve(opts.out);
+        if (fs.existsSync(out) && !opts.force) throw new AppError("conflict", `${out} exists; pass --force to replace it`);
+        const tmp = `${out}.${process.pid}.tmp`;
+        fs.writeFileSync(tmp, bytes);
+        fs.renameSync(tmp, out);
+        process.stdout.write(`wrote ${slot} of run ${id} step ${opts.step} to ${out} (${format}, ${bytes.length} bytes)\n`);
+      }),
+    );
+}

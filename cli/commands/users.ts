@@ -1,0 +1,97 @@
+/** `tracewright users`: add, list, change role, deactivate (so an admin exists without the web). */
+import type { Command } from "commander";
+import { z } from "zod";
+import { recordAudit } from "../../db/queries/audit";
+import { createUser, getUserByEmail, listUsers, setUserActive, setUserRole } from "../../db/queries/users";
+import { ROLES } from "../../db/schema";
+import { AppError } from "../../pipeline/errors";
+import { action, openCliDb, printJson, resolveActor } from "../shared";
+
+const addSchema = z.object({
+  email: z.email("an e-mail address"),
+  name: z.string().min(1, "a name"),
+  role: z.enum(ROLES, `one of ${ROLES.join(", ")}`),
+  password: z.string().min(8, "a password of at least 8 characters"),
+});
+
+function zodToAppError(err: z.ZodError): AppError {
+  const i = err.issues[0];
+  return new AppError("bad-input", `--${String(i.path[0])}: expected ${i.message}`, { field: `--${String(i.path[0])}`, expected: i.message });
+}
+
+export function registerUsers(program: Command): void {
+  const users = program.command("users").description("manage the people who can sign in to the control room");
+  users
+    .command("add")
+    .description("add a user")
+    .requiredOption("--email <email>", "sign-in e-mail")
+    .requiredOption("--name <name>", "full name")
+    .requiredOption("--role <role>", `one of ${ROLES.join(", ")}`)
+    .option("--password <password>", "initial password (default: TRACEWRIGHT_NEW_PASSWORD)")
+    .option("--as <email>", "who is adding (for the audit trail)")
+    .action(
+      action(async (opts: { email: string; name: string; role: string; password?: string; as?: string }) => {
+        const parsed = addSchema.safeParse({ ...opts, password: opts.password ?? process.env.TRACEWRIGHT_NEW_PASSWORD });
+        if (!parsed.success) throw zodToAppError(parsed.error);
+        const db = openCliDb();
+        if (getUserByEmail(db, parsed.data.email)) throw new AppError("conflict", `A user with e-mail ${parsed.data.email} exists already`);
+        const user = createUser(db, parsed.data);
+        recordAudit(db, {
+          actor: resolveActor(db, opts.as),
+          action: "user.add",
+          entityType: "user",
+          entityId: user.id,
+          after: { email: user.email, name: user.name, role: user.role },
+        });
+        process.stdout.write(`added ${user.email} (${user.role})\n`);
+      }),
+    );
+  users
+    .command("list")
+    .description("list users")
+    .option("--json", "print JSON with stable keys")
+    .action(
+      action(async (opts: { json?: boolean }) => {
+        const db = openCliDb();
+        const rows = listUsers(db);
+        if (opts.json) {
+          printJson(rows.map((u) => ({ id: u.id, email: u.email, name: u.name, role: u.role, active: u.active })));
+          return;
+        }
+        for (const u of rows) process.stdout.write(`${u.email.padEnd(36)} ${u.role.padEnd(10)} ${u.active ? "active     " : "deactivated"} ${u.name}\n`);
+      }),
+    );
+  users
+    .command("set-role")
+    .description("change a user's role")
+    .argument("<email>")
+    .argument("<role>", `one of ${ROLES.join(", ")}`)
+    .option("--as <email>", "who is changing it")
+    .action(
+      action(async (email: string, role: string, opts: { as?: string }) => {
+        const r = z.enum(ROLES).safeParse(role);
+        if (!r.success) throw new AppError("bad-input", `role "${role}": expected one of ${ROLES.join(", ")}`, { choices: [...ROLES] });
+        const db = openCliDb();
+        const user = getUserByEmail(db, email);
+        if (!user) throw new AppError("not-found", `No user with e-mail ${email}`);
+        const { before, after } = setUserRole(db, user.id, r.data);
+        recordAudit(db, { actor: resolveActor(db, opts.as), action: "user.role", entityType: "user", entityId: user.id, before: { role: before.role }, after: { role: after.role } });
+        process.stdout.write(`${email} is now ${r.data}\n`);
+      }),
+    );
+  users
+    .command("deactivate")
+    .description("stop a user signing in (users are never deleted: the audit trail keeps their name)")
+    .argument("<email>")
+    .option("--as <email>", "who is deactivating")
+    .action(
+      action(async (email: string, opts: { as?: string }) => {
+        const db = openCliDb();
+        const user = getUserByEmail(db, email);
+        if (!user) throw new AppError("not-found", `No user with e-mail ${email}`);
+        setUserActive(db, user.id, false);
+        recordAudit(db, { actor: resolveActor(db, opts.as), action: "user.deactivate", entityType: "user", entityId: user.id, before: { active: true }, after: { active: false } });
+        process.stdout.write(`${email} deactivated\n`);
+      }),
+    );
+}

@@ -1,0 +1,71 @@
+/** What every command shares: opening the database, naming the actor, printing errors. */
+import { getDb, type Db } from "../db/client";
+import { getUserByEmail } from "../db/queries/users";
+import type { Actor } from "../db/queries/audit";
+import { AppError, toAppError } from "../pipeline/errors";
+import { markInterruptedRuns } from "../pipeline/runner";
+import type { Door } from "../db/schema";
+
+/** Opens the database (migrating it) and marks runs left by dead processes as interrupted. */
+export function openCliDb(): Db {
+  const db = getDb();
+  const marked = markInterruptedRuns(db);
+  if (marked.length > 0) {
+    process.stderr.write(
+      `Marked ${marked.length === 1 ? "run" : "runs"} ${marked.join(", ")} as interrupted (the process running ${marked.length === 1 ? "it" : "them"} stopped). Resume with: tracewright resume <run>\n`,
+    );
+  }
+  return db;
+}
+
+/** The person acting: --as <email> (or TRACEWRIGHT_USER) when it names a user, else the OS user. */
+export function resolveActor(db: Db, as: string | undefined, door: Door = "cli"): Actor {
+  const who = as ?? process.env.TRACEWRIGHT_USER;
+  if (who && who.includes("@")) {
+    const user = getUserByEmail(db, who);
+    if (!user) throw new AppError("bad-input", `--as ${who}: no such user (see tracewright users list)`, { field: "--as" });
+    if (!user.active) throw new AppError("forbidden", `--as ${who}: this user is deactivated`, { field: "--as" });
+    if (user.role === "auditor") throw new AppError("forbidden", `--as ${who}: an auditor reads but does not start runs`, { field: "--as" });
+    return { userId: user.id, label: user.email, door };
+  }
+  return { userId: null, label: who ?? process.env.USER ?? "cli", door };
+}
+
+/** Prints an error as a person-readable message and sets the exit code. Never a stack trace. */
+export function reportError(err: unknown): void {
+  const e = toAppError(err);
+  process.stderr.write(`tracewright: ${e.message}\n`);
+  if (e.details.expected && !e.message.includes(e.details.expected)) process.stderr.write(`  expected: ${e.details.expected}\n`);
+  if (e.code === "internal" && process.env.TRACEWRIGHT_DEBUG) process.stderr.write(`${(err as Error)?.stack}\n`);
+  process.exitCode = e.exitCode;
+}
+
+/** Wraps a command action so every error goes through reportError. */
+export function action<A extends unknown[]>(fn: (...args: A) => Promise<void> | void): (...args: A) => Promise<void> {
+  return async (...args: A) => {
+    try {
+      await fn(...args);
+    } catch (err) {
+      reportError(err);
+    }
+  };
+}
+
+/** Prints JSON with stable keys for scripts. */
+export function printJson(value: unknown): void {
+  process.stdout.write(`${JSON.stringify(value, null, 2)}\n`);
+}
+
+/** Parses a positive integer argument or throws a bad-input error naming it. */
+export function parseId(value: string, what: string): number {
+  const n = Number(value);
+  if (!Number.isInteger(n) || n <= 0) throw new AppError("bad-input", `${what} must be a positive whole number, got "${value}"`, { field: what });
+  return n;
+}
+
+export function formatDuration(ms: number | null | undefined): string {
+  if (ms === null || ms === undefined) return "-";
+  if (ms < 1000) return `${ms} ms`;
+  if (ms < 60_000) return `${(ms / 1000).toFixed(1)} s`;
+  return `${Math.floor(ms / 60_000)} min ${Math.round((ms % 60_000) / 1000)} s`;
+}
