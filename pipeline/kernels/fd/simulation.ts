@@ -9,7 +9,7 @@ import { checkGridAccuracy, checkModelCells, chooseTimeStep } from "./checks";
 import { planLayout, type FdLayout, type WaveMode } from "./layout";
 import { createReferenceKernel, type FdKernel } from "./reference-kernel";
 import { resampleBandLimited } from "./resample";
-import { sampleWavelet, waveletBand, type SourceWavelet } from "./wavelet";
+import { ricker, sampleWavelet, waveletBand, type SourceWavelet } from "./wavelet";
 import { createWasmKernel } from "./wasm-kernel";
 
 /**
@@ -374,4 +374,46 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
     steps,
     pointsPerWavelength: points,
   };
+}
+
+/**
+ * Times `steps` time steps of the kernel on a homogeneous model of `nx` × `nz` cells (Vp 1500,
+ * Vs 500 m/s, density 2000 kg/m³, 1 m spacing) with a Ricker force source injected every step,
+ * after `warmupSteps` untimed steps (the WebAssembly engine optimises a function on a later call).
+ * Returns the elapsed seconds of the timed steps.
+ */
+export function timeKernelSteps(opts: {
+  mode: WaveMode;
+  nx: number;
+  nz: number;
+  steps: number;
+  pmlCells?: number;
+  freeSurface?: boolean;
+  warmupSteps?: number;
+  kernel?: "wasm" | "reference";
+}): { seconds: number; computationalCells: number } {
+  const { mode, nx, nz, steps } = opts;
+  if (!Number.isInteger(steps) || steps < 1) throw new RangeError(`steps must be an integer ≥ 1, got ${steps}`);
+  const pmlCells = opts.pmlCells ?? 20;
+  const freeSurface = opts.freeSurface ?? true;
+  const model: ElasticModel = {
+    kind: "model", nx, nz, spacingM: 1, originX: 0, originZ: 0,
+    vp: new Float32Array(nx * nz).fill(1500), vs: new Float32Array(nx * nz).fill(500), rho: new Float32Array(nx * nz).fill(2000),
+  };
+  const { kernel, layout, mem } = createKernel(opts.kernel ?? "wasm", { mode, modelNx: nx, modelNz: nz, pmlCells, freeSurface });
+  const vmax = mode === "psv" ? 1500 : 500;
+  const dt = chooseTimeStep(1, vmax);
+  const peak = 500 / (5 * 2.4);
+  fillCoefficients(layout, mem, model, dt, vmax, peak, 1e-3);
+  const field = mode === "psv" ? layout.offsets.f1 : layout.offsets.f0;
+  const at = field + layout.org + (layout.rowOffset + 2) * layout.rowFloats + layout.colOffset + (nx >> 1);
+  const warm = opts.warmupSteps ?? 20;
+  let t0 = 0;
+  for (let n = 0; n < warm + steps; n++) {
+    if (n === warm) t0 = performance.now();
+    kernel.velocity();
+    mem[at] += 1e-3 * ricker(n * dt, peak, 1.2 / peak);
+    kernel.stress();
+  }
+  return { seconds: (performance.now() - t0) / 1000, computationalCells: layout.nx * layout.nrows };
 }
