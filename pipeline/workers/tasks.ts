@@ -29,3 +29,18 @@ import { filterTraces, type FilterTracesArgs } from "../kernels/filter";
 export function filterTraceBlock(arg: FilterTracesArgs): Float32Array {
   return Piscina.move(filterTraces(arg)) as unknown as Float32Array;
 }
+
+// ---- Elastic finite-difference solver: one shot per task, and the solver bench ----
+
+import { simulateShot, timeKernelSteps, type ShotPositions, type SimulationOptions } from "../kernels/fd/simulation";
+import type { ElasticModel } from "../types";
+
+/** Models one shot (pipeline/kernels/fd/simulation.ts); traces `[receiver][sample]` come back. */
+export function modelShotTask(arg: { model: ElasticModel; shot: ShotPositions; options: SimulationOptions }) {
+  return simulateShot(arg.model, arg.shot, arg.options);
+}
+
+/** Times solver steps on a homogeneous model in this worker (the solver bench). */
+export function solverBenchTask(arg: Parameters<typeof timeKernelSteps>[0]) {
+  return timeKernelSteps(arg);
+}
