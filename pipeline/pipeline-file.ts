@@ -6,7 +6,7 @@
 import fs from "node:fs";
 import path from "node:path";
 import { z } from "zod";
-import { LineCounter, parseDocument, isMap, isSeq, type Document, type Node } from "yaml";
+import { LineCounter, parseDocument, isMap, type Document, type Node } from "yaml";
 import { AppError } from "./errors";
 import { getStep, listSteps, paramsJsonSchema } from "./registry";
 import { RUNNER_SLOTS, type SlotName } from "./types";
