@@ -165,7 +165,7 @@ export const geometryStep = defineStep({
       }
       if (usedRows.has(entry)) {
         throw new StepInputError(
-          `${tableName} line ${entry.line}: the row for ${entry.file} matches more than one gather (the second is "${gather.id}")`,
+          `${tableName} line ${entry.line}: the row for ${entry.file} matches more than one gather (the second is "${gather.id}"); the table describes one shot per field file, so a file holding several records needs splitting into one file per record`,
           "gathers",
         );
       }
