@@ -6,9 +6,13 @@ import { z } from "zod";
 import type { AnyStepDefinition, StepDefinition } from "./step";
 import { AppError } from "./errors";
 import { importRecordsStep } from "./steps/import-records";
+import { geometryStep } from "./steps/geometry";
+import { verticalStackStep } from "./steps/vertical-stack";
 
 const STEPS: AnyStepDefinition[] = [
   importRecordsStep,
+  geometryStep,
+  verticalStackStep,
 ];
 
 /** All steps in pipeline order. */
