@@ -102,6 +102,8 @@ export interface GeometryCheckReport {
     }>;
     /** Source points whose blows lie further apart than the tolerance. */
     sourcePointsWithSpread: number[];
+    /** Source point and blow numbers given to more than one file (a slip in the field log). */
+    repeatedBlows: Array<{ sourcePoint: number; blow: number; files: string[] }>;
   };
 }
 
@@ -290,6 +292,17 @@ export const geometryStep = defineStep({
     for (const sp of sourcePointsWithSpread) {
       ctx.log.warn({ sourcePoint: sp }, `blows of source point ${sp} lie more than ${tol} m apart`);
     }
+    const blowFiles = new Map<string, { sourcePoint: number; blow: number; files: string[] }>();
+    for (const f of files) {
+      const key = `${f.sourcePoint}/${f.blow}`;
+      const e = blowFiles.get(key) ?? { sourcePoint: f.sourcePoint, blow: f.blow, files: [] };
+      e.files.push(f.file);
+      blowFiles.set(key, e);
+    }
+    const repeatedBlows = [...blowFiles.values()].filter((e) => e.files.length > 1);
+    for (const r of repeatedBlows) {
+      ctx.log.warn(r, `source point ${r.sourcePoint}, blow ${r.blow} is given to ${r.files.length} files`);
+    }
     const filesWithDisagreement = files.filter((f) => f.sourceDisagreement || f.receiverDisagreements.length > 0).map((f) => f.file);
 
     const data: GeometryCheckReport = {
@@ -307,6 +320,7 @@ export const geometryStep = defineStep({
         channelsPerRecord: distinctSorted(files.map((f) => f.channelCount)),
         sourcePoints,
         sourcePointsWithSpread,
+        repeatedBlows,
       },
     };
     const traceCount = out.reduce((n, g) => n + g.traces.length, 0);
@@ -330,6 +344,7 @@ export const geometryStep = defineStep({
         unusedRows: unusedRows.length,
         filesWithDisagreement: filesWithDisagreement.length,
         sourcePointsWithSpread: sourcePointsWithSpread.length,
+        repeatedBlows: repeatedBlows.length,
         positionsFrom: params.positionsFrom,
       },
       series: [series],

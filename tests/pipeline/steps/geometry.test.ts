@@ -148,6 +148,13 @@ describe("geometry step", () => {
     expect(out[0].traces[0].blow).toBe(2);
   });
 
+  it("lists a source point and blow given to two files (a slip in the field log)", async () => {
+    const csv = table([SPREAD_HEADER, "k1.sg2,4,1,6,0,1,2", "k2.sg2,4,2,6,0,1,2", "k3.sg2,4,1,6,0,1,2"]);
+    const { report, result } = await run([record("k1.sg2", 2), record("k2.sg2", 2), record("k3.sg2", 2)], csv);
+    expect(report.layout.repeatedBlows).toEqual([{ sourcePoint: 4, blow: 1, files: ["k1.sg2", "k3.sg2"] }]);
+    expect(result.summary).toMatchObject({ repeatedBlows: 1 });
+  });
+
   it("reads the channel form", async () => {
     const csv = table([
       "file,channel,source_point,blow,source_x_m,receiver_x_m",
@@ -170,6 +177,7 @@ describe("geometry step", () => {
     expect(out.map((g) => g.id)).toEqual(["a"]);
     expect(report.dropped).toEqual([{ gatherId: "b", file: "b.sg2", reason: "no row in line-a-geometry.csv" }]);
     expect(report.unusedRows).toEqual([{ file: "z.sg2", line: 3 }]);
+    expect(report.layout.repeatedBlows).toEqual([]);
     expect(result.summary).toMatchObject({ files: 1, dropped: 1, unusedRows: 1 });
   });
 
