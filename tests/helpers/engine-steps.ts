@@ -118,9 +118,24 @@ export const failStep = defineStep({
   },
 });
 
+export const listFiles = defineStep({
+  id: "test-list-files",
+  version: 1,
+  title: "list field files",
+  description: "test step: reports the names and sizes of the field files it was given",
+  reads: ["fieldFiles"],
+  writes: ["report"],
+  params: z.object({}),
+  async run(input) {
+    count("test-list-files");
+    const files = input.fieldFiles!.files.map((f) => ({ name: f.name, size: f.bytes.length }));
+    return { outputs: { report: { kind: "json", role: "files", data: files } } };
+  },
+});
+
 /** Registers the test steps once per process. */
 export function registerEngineTestSteps(): void {
-  for (const s of [makeTraces, scaleTraces, waitStep, failStep]) {
+  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles]) {
     if (!listSteps().some((x) => x.id === s.id)) registerStep(s);
   }
 }
