@@ -8,11 +8,15 @@ import { AppError } from "./errors";
 import { importRecordsStep } from "./steps/import-records";
 import { geometryStep } from "./steps/geometry";
 import { verticalStackStep } from "./steps/vertical-stack";
+import { buildModelStep } from "./steps/build-model";
+import { forwardModelStep } from "./steps/forward-model";
 
 const STEPS: AnyStepDefinition[] = [
   importRecordsStep,
   geometryStep,
   verticalStackStep,
+  buildModelStep,
+  forwardModelStep,
 ];
 
 /** All steps in pipeline order. */

@@ -126,6 +126,14 @@ export function buildModel(grid: GridDescription, layers: LayerDescription[], sh
     vs.fill(b, j * nx, (j + 1) * nx);
     rho.fill(c, j * nx, (j + 1) * nx);
   }
+  const model: ElasticModel = { kind: "model", nx, nz, spacingM: h, originX, originZ, vp, vs, rho };
+  paintShapes(model, shapes);
+  return model;
+}
+
+/** Draws shapes over `model` in place (later shapes on top); properties a shape leaves out stay. */
+export function paintShapes(model: ElasticModel, shapes: ShapeDescription[]): ElasticModel {
+  const { nx, nz, spacingM: h, originX, originZ, vp, vs, rho } = model;
   for (const s of shapes) {
     for (let j = 0; j < nz; j++) {
       for (let i = 0; i < nx; i++) {
@@ -137,7 +145,7 @@ export function buildModel(grid: GridDescription, layers: LayerDescription[], sh
       }
     }
   }
-  return { kind: "model", nx, nz, spacingM: h, originX, originZ, vp, vs, rho };
+  return model;
 }
 
 /** The model as CSV text: header `x,z,vp,vs,rho`, one row per node, rows by depth then x. */

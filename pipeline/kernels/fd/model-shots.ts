@@ -6,6 +6,7 @@
 import type { ElasticModel, Gather, SnapshotSet, TraceHeader } from "../../types";
 import type { WorkerPool } from "../../workers/pool";
 import { StepInputError } from "../../step";
+import type { SourceWavelet } from "./wavelet";
 import { simulateShot, type ShotPositions, type SimulationOptions, type SimulationResult } from "./simulation";
 
 /** A gather without samples: the geometry and sampling a synthetic gather is made for. */
@@ -23,6 +24,8 @@ export interface ModelShotsControl {
   onShot?: (done: number, total: number, gatherId: string) => void;
   /** Gather id whose snapshots are kept (default: the first template). */
   snapshotGatherId?: string;
+  /** Source wavelets by gather id, replacing `options.wavelet` for those shots. */
+  wavelets?: Record<string, SourceWavelet>;
 }
 
 /** Result of {@link modelShots}. */
@@ -85,6 +88,7 @@ export async function modelShots(
       aborted();
       const opts: SimulationOptions = {
         ...options,
+        wavelet: control.wavelets?.[t.id] ?? options.wavelet,
         snapshotTimesS: t.id === snapId ? options.snapshotTimesS : undefined,
         output: { intervalS: t.sampleIntervalS, count: t.sampleCount, startTimeS: t.startTimeS },
         cancelFlag: cancel,
