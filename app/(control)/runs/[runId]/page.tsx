@@ -1,0 +1,29 @@
+import type { Metadata } from "next";
+import { notFound } from "next/navigation";
+import { idSchema } from "@/app/lib/api";
+import { pageUserWith } from "@/app/lib/page-user";
+import { can } from "@/app/lib/permissions";
+import { readRun } from "@/app/lib/reads";
+import { RunLive } from "@/app/ui/run/run-live";
+
+export const dynamic = "force-dynamic";
+
+export async function generateMetadata({ params }: { params: Promise<{ runId: string }> }): Promise<Metadata> {
+  return { title: `Run ${(await params).runId}` };
+}
+
+export default async function RunPage({ params, searchParams }: { params: Promise<{ runId: string }>; searchParams: Promise<{ step?: string }> }) {
+  const user = await pageUserWith("runs.read");
+  const id = idSchema.safeParse((await params).runId);
+  if (!id.success) notFound();
+  const run = readRun(id.data);
+  if (!run) notFound();
+  const { step } = await searchParams;
+  return (
+    <RunLive
+      initial={run}
+      initialStep={step}
+      can={{ rerun: can(user.role, "runs.rerun"), cancel: can(user.role, "runs.cancel"), review: can(user.role, "runs.review") }}
+    />
+  );
+}

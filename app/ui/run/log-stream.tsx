@@ -1,0 +1,62 @@
+"use client";
+
+import { useEffect, useRef, useState } from "react";
+import { getJson, LIVE_POLL_MS } from "@/app/lib/queries";
+import type { LogLine } from "@/app/lib/view-types";
+
+const LEVEL_STYLE: Record<string, string> = { debug: "text-ink-faint", info: "text-ink", warn: "text-warn", error: "text-bad font-medium" };
+
+/** A step's (or a run's) log lines; new lines stream in while the run is live. */
+export function LogStream({ runId, runStepId, live }: { runId: number; runStepId?: number; live: boolean }) {
+  const [lines, setLines] = useState<LogLine[]>([]);
+  const [error, setError] = useState<string | null>(null);
+  const lastId = useRef(0);
+  const box = useRef<HTMLDivElement>(null);
+
+  useEffect(() => {
+    let stopped = false;
+    lastId.current = 0;
+    setLines([]);
+    async function pull() {
+      try {
+        const q = new URLSearchParams();
+        if (runStepId) q.set("step", String(runStepId));
+        if (lastId.current) q.set("after", String(lastId.current));
+        const res = await getJson<{ lines: LogLine[]; lastId: number }>(`/api/runs/${runId}/logs?${q}`);
+        if (stopped) return;
+        if (res.lines.length) {
+          lastId.current = res.lastId;
+          setLines((prev) => [...prev, ...res.lines].slice(-3000));
+        }
+        setError(null);
+      } catch (err) {
+        if (!stopped) setError(err instanceof Error ? err.message : String(err));
+      }
+    }
+    void pull();
+    const id = live ? window.setInterval(pull, LIVE_POLL_MS) : undefined;
+    return () => {
+      stopped = true;
+      if (id) window.clearInterval(id);
+    };
+  }, [runId, runStepId, live]);
+
+  useEffect(() => {
+    const el = box.current;
+    if (el && live) el.scrollTop = el.scrollHeight;
+  }, [lines, live]);
+
+  return (
+    <div>
+      {error ? <p className="text-xs text-bad">{error}</p> : null}
+      <div ref={box} className="max-h-72 overflow-auto rounded-md border border-line bg-ground/60 p-2 font-mono text-[12px] leading-5" data-testid="log-lines" aria-live={live ? "polite" : undefined}>
+        {lines.length === 0 ? <p className="muted">{live ? "Waiting for log lines…" : "No log lines."}</p> : null}
+        {lines.map((l) => (
+          <div key={l.id} className={LEVEL_STYLE[l.level]}>
+            <span className="text-ink-faint">{new Date(l.at).toLocaleTimeString("en-GB")}</span> <span className="uppercase">{l.level.padEnd(5)}</span> {l.message}
+          </div>
+        ))}
+      </div>
+    </div>
+  );
+}

@@ -1,0 +1,82 @@
+"use client";
+
+import Link from "next/link";
+import { useState } from "react";
+import { useQuery, useQueryClient } from "@tanstack/react-query";
+import { ApiError, postJson, runQueries } from "@/app/lib/queries";
+import type { RunView } from "@/app/lib/view-types";
+import { DOOR_LABELS, formatDuration, formatTime } from "@/app/ui/format";
+import { StatusBadge } from "@/app/ui/status-badge";
+import { Provenance } from "./provenance";
+import { ReviewPanel } from "./review-panel";
+import { RunResults } from "./run-results";
+import { StepPanel } from "./step-panel";
+import { StepTimeline } from "./step-timeline";
+
+/** The run page's live part: header, step timeline, the chosen step, provenance, review and results. */
+export function RunLive({
+  initial,
+  initialStep,
+  can,
+}: {
+  initial: RunView;
+  initialStep?: string;
+  can: { rerun: boolean; cancel: boolean; review: boolean };
+}) {
+  const client = useQueryClient();
+  const { data } = useQuery(runQueries.detail(initial.id, initial));
+  const run = data ?? initial;
+  const live = run.status === "queued" || run.status === "running";
+  const defaultStep = run.steps.find((s) => s.status === "running")?.label ?? run.steps.at(-1)?.label ?? null;
+  const [selected, setSelected] = useState<string | null>(initialStep ?? null);
+  const step = run.steps.find((s) => s.label === (selected ?? defaultStep)) ?? null;
+  const [cancelError, setCancelError] = useState<string | null>(null);
+
+  async function cancel() {
+    try {
+      await postJson(`/api/runs/${run.id}/cancel`, {});
+      await client.invalidateQueries({ queryKey: ["run", run.id] });
+    } catch (err) {
+      setCancelError(err instanceof ApiError ? err.message : String(err));
+    }
+  }
+
+  return (
+    <div className="space-y-6">
+      <header className="flex flex-wrap items-start justify-between gap-4">
+        <div>
+          <p className="text-xs muted"><Link href="/runs" className="hover:underline">Runs</Link> /</p>
+          <h1 className="flex items-center gap-3">Run {run.id} <StatusBadge status={run.status} /></h1>
+          <p className="text-ink-soft">
+            {run.pipelineName} v{run.pipelineVersion} on {run.datasetName} · started by {run.startedBy} via the {DOOR_LABELS[run.door]} · {formatTime(run.startedAt ?? run.createdAt)} · {formatDuration(run.durationMs)}
+          </p>
+          <p className="text-xs muted" data-testid="run-step-counts">
+            {run.stepsDone} of {run.stepsTotal} steps done{run.cacheHits ? `, ${run.cacheHits} reused from earlier runs` : ""}
+          </p>
+          {run.error ? <p role="alert" className="mt-2 rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{run.error}</p> : null}
+        </div>
+        <div className="flex gap-2">
+          {run.parentRunId ? <Link className="btn" href={`/compare?a=${run.parentRunId}&b=${run.id}`}>Compare with run {run.parentRunId}</Link> : null}
+          {can.cancel && live ? <button type="button" className="btn" onClick={cancel} disabled={run.cancelRequested}>{run.cancelRequested ? "Stopping…" : "Stop run"}</button> : null}
+        </div>
+      </header>
+      {cancelError ? <p role="alert" className="text-sm text-bad">{cancelError}</p> : null}
+
+      <div className="grid gap-6 xl:grid-cols-[300px_1fr_320px] lg:grid-cols-[280px_1fr]">
+        <aside>
+          <h2 className="mb-2 text-sm">Steps</h2>
+          <StepTimeline steps={run.steps} selected={step?.label ?? null} onSelect={setSelected} />
+        </aside>
+        <div className="min-w-0">
+          {step ? <StepPanel run={run} step={step} canRerun={can.rerun} live={live} /> : <p className="muted">This run has no steps.</p>}
+        </div>
+        <div className="space-y-4 lg:col-span-2 xl:col-span-1">
+          <ReviewPanel run={run} canReview={can.review} />
+          <Provenance run={run} />
+        </div>
+      </div>
+
+      <RunResults run={run} />
+    </div>
+  );
+}

@@ -1,0 +1,82 @@
+"use client";
+
+import Link from "next/link";
+import type { RunView, StepView } from "@/app/lib/view-types";
+import { formatDuration, formatTime, formatValue, shortHash } from "@/app/ui/format";
+import { StepSeriesChart } from "@/app/ui/charts/run-charts";
+import { StatusBadge } from "@/app/ui/status-badge";
+import { LogStream } from "./log-stream";
+
+/** One step of a run: its validated settings, inputs and outputs, summary, curves and log. */
+export function StepPanel({ run, step, canRerun, live }: { run: RunView; step: StepView; canRerun: boolean; live: boolean }) {
+  const changed = run.overrides[step.label] ?? {};
+  return (
+    <section className="card space-y-5 p-4" aria-label={`Step ${step.label}`} data-testid="step-panel">
+      <header className="flex flex-wrap items-start justify-between gap-3">
+        <div>
+          <h2 className="flex items-center gap-2">{step.label} <StatusBadge status={step.status} /></h2>
+          <p className="text-xs muted">
+            {step.stepId} version {step.stepVersion} · {formatDuration(step.durationMs)} · started {formatTime(step.startedAt)}
+            {step.cacheHit ? ` · result reused${step.cacheSourceRunId ? ` from run ${step.cacheSourceRunId}` : ""} (same step, settings and inputs)` : ""}
+          </p>
+        </div>
+        {canRerun && !live ? (
+          <Link href={`/runs/${run.id}/rerun?from=${encodeURIComponent(step.label)}`} className="btn-primary" data-testid="rerun-button">
+            Rerun from this step…
+          </Link>
+        ) : null}
+      </header>
+      {step.error ? <p role="alert" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{step.error}</p> : null}
+
+      <div className="grid gap-5 lg:grid-cols-2">
+        <div>
+          <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Settings used</h3>
+          <table className="w-full text-sm" data-testid="step-params">
+            <tbody>
+              {Object.entries(step.params).map(([k, v]) => (
+                <tr key={k} className={`border-t border-line ${k in changed ? "bg-warn-soft" : ""}`}>
+                  <td className="py-1 pr-3 font-mono text-xs">{k}</td>
+                  <td className="py-1 font-mono text-xs">{formatValue(v)}{k in changed ? <span className="ml-2 rounded bg-warn px-1 text-[10px] text-white">changed in this rerun</span> : null}</td>
+                </tr>
+              ))}
+              {Object.keys(step.params).length === 0 ? <tr><td className="py-1 text-xs muted">No settings.</td></tr> : null}
+            </tbody>
+          </table>
+        </div>
+        <div className="space-y-4">
+          <div>
+            <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Inputs and outputs</h3>
+            <dl className="grid grid-cols-[auto_1fr] gap-x-3 gap-y-0.5 text-xs">
+              {Object.entries(step.inputs).map(([slot, hash]) => (
+                <div key={`in-${slot}`} className="contents"><dt className="muted">in · {slot}</dt><dd className="font-mono" title={hash}>{shortHash(hash)}</dd></div>
+              ))}
+              {Object.entries(step.outputs).map(([slot, hash]) => (
+                <div key={`out-${slot}`} className="contents"><dt className="muted">out · {slot}</dt><dd className="font-mono" title={hash}>{shortHash(hash)}</dd></div>
+              ))}
+              <dt className="muted">cache key</dt><dd className="font-mono" title={step.cacheKey ?? ""}>{shortHash(step.cacheKey)}</dd>
+            </dl>
+          </div>
+          {step.summary ? (
+            <div>
+              <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Summary</h3>
+              <dl className="grid grid-cols-[auto_1fr] gap-x-3 gap-y-0.5 text-xs">
+                {Object.entries(step.summary).map(([k, v]) => (
+                  <div key={k} className="contents"><dt className="muted">{k}</dt><dd className="font-mono break-all">{formatValue(v)}</dd></div>
+                ))}
+              </dl>
+            </div>
+          ) : null}
+        </div>
+      </div>
+
+      {step.series.length ? (
+        <div className="grid gap-3 lg:grid-cols-2">{step.series.map((s) => <StepSeriesChart key={s.name} series={s} />)}</div>
+      ) : null}
+
+      <div>
+        <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Log</h3>
+        <LogStream runId={run.id} runStepId={step.id} live={live && (step.status === "running" || step.status === "waiting")} />
+      </div>
+    </section>
+  );
+}

@@ -1,0 +1,200 @@
+"use client";
+
+import { useEffect, useMemo, useState } from "react";
+import { useQuery } from "@tanstack/react-query";
+import { artifactQueries } from "@/app/lib/queries";
+import type { TraceHeaderWire } from "@/app/lib/view-types";
+import { fullWindow, peaks, type DisplaySettings, type GatherView, type Overlays, type ViewWindow } from "./draw-traces";
+import { TraceCanvas } from "./trace-canvas";
+
+/** A gathers artifact the viewer can show, e.g. the output of one step. */
+export interface GatherSource {
+  key: string;
+  label: string;
+  hash: string;
+}
+
+type CompareMode = "single" | "side-by-side" | "flip" | "difference" | "overlay";
+
+const MODE_LABELS: Record<CompareMode, string> = {
+  single: "One gather",
+  "side-by-side": "Side by side",
+  flip: "Flip in place",
+  difference: "With difference",
+  overlay: "Overlaid (two colours)",
+};
+
+function toView(h: TraceHeaderWire, payload: Float32Array): GatherView {
+  return { data: payload, traces: h.traceCount, samples: h.sampleCount, dtS: h.sampleIntervalS, t0S: h.startTimeS, offsetsM: h.offsetsM, dead: h.dead };
+}
+
+/**
+ * The gather viewer: one gather, or the same gather from two sources (before/after, two runs,
+ * observed against synthetic) side by side, flipping in place, with their difference, or
+ * overlaid. Display controls and the zoom are shared by all panels.
+ */
+export function GatherViewer({
+  sources,
+  initialA,
+  initialB,
+  initialMode,
+  lineSources = [],
+}: {
+  sources: GatherSource[];
+  initialA?: string;
+  initialB?: string;
+  initialMode?: CompareMode;
+  /** Picks and mutes artifacts that can be drawn over the traces. */
+  lineSources?: GatherSource[];
+}) {
+  const [aKey, setAKey] = useState(initialA ?? sources.at(-1)?.key ?? "");
+  const [bKey, setBKey] = useState(initialB ?? "");
+  const [mode, setMode] = useState<CompareMode>(initialMode ?? (initialB ? "side-by-side" : "single"));
+  const [gatherId, setGatherId] = useState<string>("");
+  const [settings, setSettings] = useState<DisplaySettings>({ mode: "both", gain: 1.5, clip: 1.5, scaling: "trace", spacing: "even" });
+  const [lineKeys, setLineKeys] = useState<string[]>(() => lineSources.map((l) => l.key));
+  const [flipShowsB, setFlipShowsB] = useState(false);
+  const [view, setView] = useState<ViewWindow | null>(null);
+
+  const a = sources.find((s) => s.key === aKey);
+  const b = mode === "single" ? undefined : sources.find((s) => s.key === bKey);
+  const outline = useQuery({ ...artifactQueries.outline(a?.hash ?? ""), enabled: Boolean(a) });
+  const gatherList = outline.data && outline.data.kind === "gathers" && "gathers" in outline.data ? outline.data.gathers : [];
+  const gid = gatherId || gatherList[0]?.id || "";
+
+  const ta = useQuery({ ...artifactQueries.traces(a?.hash ?? "", gid), enabled: Boolean(a && gid) });
+  const tb = useQuery({ ...artifactQueries.traces(b?.hash ?? "", gid), enabled: Boolean(b && gid) });
+  const ga = useMemo(() => (ta.data ? toView(ta.data.header, ta.data.payload) : null), [ta.data]);
+  const gb = useMemo(() => (tb.data ? toView(tb.data.header, tb.data.payload) : null), [tb.data]);
+  const mismatch = ga && gb && (ga.traces !== gb.traces || ga.samples !== gb.samples);
+  const diff = useMemo(() => {
+    if (!ga || !gb || mismatch) return null;
+    const d = new Float32Array(ga.data.length);
+    for (let i = 0; i < d.length; i++) d[i] = ga.data[i] - gb.data[i];
+    return { ...ga, data: d };
+  }, [ga, gb, mismatch]);
+
+  // Reset the zoom when the gather or the spacing changes.
+  useEffect(() => {
+    if (ga) setView(fullWindow(ga, settings));
+    // eslint-disable-next-line react-hooks/exhaustive-deps
+  }, [ga?.traces, ga?.samples, ga?.dtS, gid, settings.spacing]);
+
+  const activeLines = lineSources.filter((l) => lineKeys.includes(l.key));
+  const l0 = useQuery({ ...artifactQueries.lines(activeLines[0]?.hash ?? "", gid), enabled: Boolean(activeLines[0] && gid) });
+  const l1 = useQuery({ ...artifactQueries.lines(activeLines[1]?.hash ?? "", gid), enabled: Boolean(activeLines[1] && gid) });
+  const overlays = useMemo<Overlays>(() => {
+    const o: Overlays = {};
+    for (const q of [l0.data, l1.data]) {
+      if (!q) continue;
+      if (q.kind === "picks") o.picks = q.picks;
+      else o.mutes = q.lines;
+    }
+    return o;
+  }, [l0.data, l1.data]);
+
+  const set = <K extends keyof DisplaySettings>(k: K, v: DisplaySettings[K]) => setSettings((s) => ({ ...s, [k]: v }));
+  const error = outline.error ?? ta.error ?? tb.error;
+
+  return (
+    <div className="space-y-3" data-testid="gather-viewer">
+      <div className="flex flex-wrap items-end gap-3 text-sm">
+        <label className="label">Gathers from
+          <select className="field mt-1 w-auto" value={aKey} onChange={(e) => setAKey(e.target.value)} data-testid="source-a">
+            {sources.map((s) => <option key={s.key} value={s.key}>{s.label}</option>)}
+          </select>
+        </label>
+        <label className="label">Compare
+          <select className="field mt-1 w-auto" value={mode} onChange={(e) => setMode(e.target.value as CompareMode)} data-testid="compare-mode">
+            {(Object.keys(MODE_LABELS) as CompareMode[]).map((m) => <option key={m} value={m}>{MODE_LABELS[m]}</option>)}
+          </select>
+        </label>
+        {mode !== "single" ? (
+          <label className="label">against
+            <select className="field mt-1 w-auto" value={bKey} onChange={(e) => setBKey(e.target.value)} data-testid="source-b">
+              <option value="">choose…</option>
+              {sources.filter((s) => s.key !== aKey).map((s) => <option key={s.key} value={s.key}>{s.label}</option>)}
+            </select>
+          </label>
+        ) : null}
+        <label className="label">Gather
+          <select className="field mt-1 w-auto" value={gid} onChange={(e) => setGatherId(e.target.value)} data-testid="gather-id">
+            {gatherList.map((g) => <option key={g.id} value={g.id}>{g.id} ({g.traceCount} traces)</option>)}
+          </select>
+        </label>
+      </div>
+
+      <fieldset className="flex flex-wrap items-end gap-x-5 gap-y-2 rounded-md border border-line bg-ground/50 px-3 py-2 text-xs">
+        <legend className="sr-only">Display</legend>
+        <label className="label">Draw as
+          <select className="field mt-1 w-auto py-1 text-xs" value={settings.mode} onChange={(e) => set("mode", e.target.value as DisplaySettings["mode"])} data-testid="draw-as">
+            <option value="both">Wiggles on density</option>
+            <option value="wiggle">Wiggles, positive filled</option>
+            <option value="density">Density image</option>
+          </select>
+        </label>
+        <label className="label">Gain ×{settings.gain.toFixed(1)}
+          <input type="range" min={0.2} max={10} step={0.1} value={settings.gain} onChange={(e) => set("gain", Number(e.target.value))} className="mt-1 block w-32" aria-label="Gain" />
+        </label>
+        <label className="label">Clip at {settings.clip.toFixed(1)} trace spacings
+          <input type="range" min={0.5} max={5} step={0.1} value={settings.clip} onChange={(e) => set("clip", Number(e.target.value))} className="mt-1 block w-32" aria-label="Clip" />
+        </label>
+        <label className="label">Scale to
+          <select className="field mt-1 w-auto py-1 text-xs" value={settings.scaling} onChange={(e) => set("scaling", e.target.value as DisplaySettings["scaling"])}>
+            <option value="trace">each trace&apos;s peak</option>
+            <option value="gather">the gather&apos;s peak</option>
+          </select>
+        </label>
+        <label className="label">Trace spacing
+          <select className="field mt-1 w-auto py-1 text-xs" value={settings.spacing} onChange={(e) => set("spacing", e.target.value as DisplaySettings["spacing"])}>
+            <option value="even">even</option>
+            <option value="offset">true offset</option>
+          </select>
+        </label>
+        {lineSources.length ? (
+          <div className="flex items-center gap-3">
+            {lineSources.map((l) => (
+              <label key={l.key} className="flex items-center gap-1 text-ink-soft">
+                <input type="checkbox" checked={lineKeys.includes(l.key)} onChange={(e) => setLineKeys((ks) => (e.target.checked ? [...ks, l.key] : ks.filter((k) => k !== l.key)))} />
+                {l.label}
+              </label>
+            ))}
+          </div>
+        ) : null}
+        <button type="button" className="btn py-1 text-xs" onClick={() => ga && setView(fullWindow(ga, settings))}>Show whole gather</button>
+        <span className="muted">Wheel: zoom time · Shift+wheel: zoom offset · drag: pan</span>
+      </fieldset>
+
+      {error ? <p role="alert" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{error.message}</p> : null}
+      {mismatch ? <p role="alert" className="rounded-md bg-warn-soft px-3 py-2 text-sm text-warn">The two gathers differ in size ({ga.traces}×{ga.samples} against {gb.traces}×{gb.samples}); the difference cannot be drawn.</p> : null}
+      {mode !== "single" && !b ? <p className="text-sm muted">Choose a second source to compare against.</p> : null}
+      {!ga || !view ? (
+        <div className="flex h-64 items-center justify-center rounded-md border border-dashed border-line text-sm muted">{ta.isLoading || outline.isLoading ? "Loading traces…" : "No gather to show."}</div>
+      ) : mode === "single" || !gb ? (
+        <TraceCanvas gather={ga} settings={settings} view={view} onViewChange={setView} overlays={overlays} title={`${a?.label} · ${gid}`} testId="trace-canvas-a" />
+      ) : mode === "flip" ? (
+        <div>
+          <div className="mb-2 flex items-center gap-2">
+            <button type="button" className="btn-primary" onClick={() => setFlipShowsB((v) => !v)} data-testid="flip-button">Flip (showing {flipShowsB ? "second" : "first"})</button>
+            <span className="text-xs muted">{flipShowsB ? b?.label : a?.label}</span>
+          </div>
+          <TraceCanvas gather={flipShowsB ? gb : ga} settings={settings} view={view} onViewChange={setView} overlays={overlays} title={`${flipShowsB ? b?.label : a?.label} · ${gid}`} testId="trace-canvas-flip" />
+        </div>
+      ) : mode === "overlay" ? (
+        <div>
+          <p className="mb-1 text-xs"><span className="font-medium text-ink">■ {a?.label}</span> · <span className="font-medium" style={{ color: "#d0611b" }}>■ {b?.label}</span></p>
+          <TraceCanvas gather={ga} second={gb} settings={{ ...settings, mode: "wiggle" }} view={view} onViewChange={setView} overlays={overlays} title={`${gid} overlaid`} testId="trace-canvas-overlay" />
+        </div>
+      ) : (
+        <div className={`grid gap-3 ${mode === "difference" && diff ? "xl:grid-cols-3 lg:grid-cols-2" : "lg:grid-cols-2"}`}>
+          <TraceCanvas gather={ga} settings={settings} view={view} onViewChange={setView} overlays={overlays} title={a?.label} height={480} testId="trace-canvas-a" />
+          <TraceCanvas gather={gb} settings={settings} view={view} onViewChange={setView} overlays={overlays} title={b?.label} height={480} testId="trace-canvas-b" />
+          {mode === "difference" && diff ? (
+            <TraceCanvas gather={diff} settings={{ ...settings, referenceAmplitude: peaks(ga).gather || 1 }} view={view} onViewChange={setView} title="first − second (on the first's scale)" height={480} testId="trace-canvas-diff" />
+          ) : null}
+        </div>
+      )}
+      {ta.data && ta.data.header.decimation > 1 ? <p className="text-xs muted">Shown decimated ×{ta.data.header.decimation} in time (peaks kept).</p> : null}
+    </div>
+  );
+}
