@@ -21,7 +21,11 @@ export class ByteCursor {
     this.length = bytes.byteLength;
   }
 
-  /** Throws a FileFormatError unless `size` bytes from `offset` lie inside the file. */
+  /**
+   * Throws a FileFormatError unless `size` bytes from `offset` lie inside the file. The error is
+   * reported at the start of the missing structure, or at the end of the file when the structure
+   * would start beyond it.
+   */
   need(offset: number, size: number, what: string): void {
     if (!Number.isInteger(offset) || offset < 0 || size < 0 || offset + size > this.length) {
       const at = Math.min(Math.max(0, offset), this.length);
