@@ -53,6 +53,13 @@ export const verticalStackParams = z.object({
     .describe(
       'How blows are combined, per channel and sample: "mean"; "median" (resists a wild blow, noise falls by about sqrt(2N/pi) instead of sqrt(N)); "weighted" (inverse-variance weights from each blow\'s residual against the median trace: a noisy or spiky blow gets little weight)',
     ),
+  /** @default "source-point" */
+  groupBy: z
+    .enum(["source-point", "source-position"])
+    .default("source-point")
+    .describe(
+      'Which blows belong together: "source-point" (the source point number the geometry step assigned) or "source-position" (blows whose source x lie within positionToleranceM of each other, whatever number the log gave them; use with geometry positionsFrom: file-headers when the field log mislabelled blows)',
+    ),
   /** @default 0.25 */
   positionToleranceM: z
     .number()
@@ -229,9 +236,42 @@ export const verticalStackStep = defineStep({
           "gathers",
         );
       }
-      const list = groups.get(sp) ?? [];
-      list.push(g);
-      groups.set(sp, list);
+      if (params.groupBy === "source-point") {
+        const list = groups.get(sp) ?? [];
+        list.push(g);
+        groups.set(sp, list);
+      }
+    }
+    if (params.groupBy === "source-position") {
+      // Cluster by source x: sorted positions split where the gap exceeds the tolerance. Each
+      // cluster takes the source point number most of its blows carry.
+      const byX = [...gathers].sort((a, b) => a.traces[0].sourceX - b.traces[0].sourceX);
+      if (byX.some((g) => !Number.isFinite(g.traces[0].sourceX))) {
+        throw new StepInputError("some gathers have no source position; run the geometry step first", "groupBy");
+      }
+      let cluster: Gather[] = [];
+      const flush = () => {
+        if (cluster.length === 0) return;
+        const counts = new Map<number, number>();
+        for (const g of cluster) counts.set(g.traces[0].sourcePoint, (counts.get(g.traces[0].sourcePoint) ?? 0) + 1);
+        const sp = [...counts.entries()].sort((a, b) => b[1] - a[1] || a[0] - b[0])[0][0];
+        const relabelled = cluster.filter((g) => g.traces[0].sourcePoint !== sp);
+        if (relabelled.length > 0) {
+          ctx.log.warn(
+            { sourcePoint: sp, gathers: relabelled.map((g) => g.id) },
+            `${relabelled.map((g) => g.id).join(", ")} stacked with source point ${sp} by position (the log gave another number)`,
+          );
+        }
+        const list = groups.get(sp) ?? [];
+        list.push(...cluster.map((g) => (g.traces[0].sourcePoint === sp ? g : { ...g, traces: g.traces.map((t) => ({ ...t, sourcePoint: sp })) })));
+        groups.set(sp, list);
+        cluster = [];
+      };
+      for (const g of byX) {
+        if (cluster.length > 0 && g.traces[0].sourceX - cluster[cluster.length - 1].traces[0].sourceX > Math.max(tol, 1e-9)) flush();
+        cluster.push(g);
+      }
+      flush();
     }
     const ordered = [...groups.entries()].sort((a, b) => a[0] - b[0]);
 

@@ -87,7 +87,7 @@ const blowsAt = (sourcePoint: number, sourceX: number, sigmas: number[]): BlowSp
 
 describe("vertical-stack step", () => {
   it("has documented defaults", () => {
-    expect(verticalStackParams.parse({})).toEqual({ method: "weighted", positionToleranceM: 0.25, downWeightedBelow: 0.5, noiseWindowMinSamples: 16 });
+    expect(verticalStackParams.parse({})).toEqual({ method: "weighted", groupBy: "source-point", positionToleranceM: 0.25, downWeightedBelow: 0.5, noiseWindowMinSamples: 16 });
     expect(stackGatherId(7)).toBe("sp07");
     expect(stackGatherId(123)).toBe("sp123");
   });
@@ -230,5 +230,38 @@ describe("vertical-stack step", () => {
       await expect(run(g)).rejects.toThrow(StepInputError);
       await expect(run(g)).rejects.toThrow(message);
     }
+  });
+});
+
+describe("grouping by source position", () => {
+  // Two blows of the source point at x = 4 m were logged as source point 3 (x = 6 m): grouped
+  // by number they land in the wrong stack; grouped by position they join their true source
+  // point (the step's documented grouping rule).
+  const specs: BlowSpec[] = [
+    { sourcePoint: 2, blow: 1, sourceX: 4, sigma: 0.05 },
+    { sourcePoint: 2, blow: 2, sourceX: 4, sigma: 0.05 },
+    { sourcePoint: 3, blow: 3, sourceX: 4, sigma: 0.05 },
+    { sourcePoint: 3, blow: 4, sourceX: 4, sigma: 0.05 },
+    { sourcePoint: 3, blow: 1, sourceX: 6, sigma: 0.05 },
+    { sourcePoint: 3, blow: 2, sourceX: 6, sigma: 0.05 },
+  ];
+  const opts = { traces: 6, samples: 200, startTimeS: -0.02, seed: 77 };
+
+  it("by source point, the mislabelled blows are stacked at the wrong place", async () => {
+    const { gathers } = await run(makeGathers(specs, opts), { method: "mean", groupBy: "source-point" });
+    expect(gathers.map((g) => [g.id, g.traces[0].stackCount])).toEqual([
+      ["sp02", 2],
+      ["sp03", 4],
+    ]);
+  });
+
+  it("by source position, every blow joins the stack at its true position", async () => {
+    const { gathers } = await run(makeGathers(specs, opts), { method: "mean", groupBy: "source-position" });
+    expect(gathers.map((g) => [g.id, g.traces[0].stackCount, g.traces[0].sourceX])).toEqual([
+      ["sp02", 4, 4],
+      ["sp03", 2, 6],
+    ]);
+    // Four blows of noise sigma 0.05 stacked: the error is about 0.05/2 (sqrt(N), common practice).
+    expect(rmsError(gathers[0], 4)).toBeLessThan((0.05 / 2) * 1.3);
   });
 });
