@@ -1,20 +1,53 @@
-/** `tracewright bench`: speed figures of the readers, signal steps and solver. */
+/** `tracewright bench`: speed figures of the readers, the signal steps and the solver. */
 import type { Command } from "commander";
+import { AppError } from "../../pipeline/errors";
 import { action, printJson } from "../shared";
+
+const PARTS = ["readers", "solver"] as const;
+type Part = (typeof PARTS)[number];
+
+function parseGrid(text: string): { nx: number; nz: number } {
+  const m = /^(\d+)x(\d+)$/.exec(text);
+  if (!m) throw new AppError("bad-input", `--grid ${text}: expected <nx>x<nz> cells, e.g. 1000x400`, { field: "--grid" });
+  return { nx: Number(m[1]), nz: Number(m[2]) };
+}
 
 export function registerBench(program: Command): void {
   program
     .command("bench")
-    .description("measure and print speed figures (readers, signal steps, solver)")
-    .option("--only <part>", "readers, signal or solver")
+    .description("measure and print speed figures: field-file readers, signal steps, finite-difference solver")
+    .option("--only <part>", `measure one part: ${PARTS.join(", ")}`)
+    .option("--grid <nx>x<nz>", "solver grid in cells", "1000x400")
+    .option("--steps <n>", "solver time steps per shot", "300")
     .option("--json", "print JSON")
     .action(
-      action(async (opts: { only?: string; json?: boolean }) => {
+      action(async (opts: { only?: string; grid: string; steps: string; json?: boolean }) => {
+        if (opts.only && !PARTS.includes(opts.only as Part)) {
+          throw new AppError("bad-input", `--only ${opts.only}: expected one of ${PARTS.join(", ")}`, { field: "--only", choices: [...PARTS] });
+        }
+        const want = (p: Part) => !opts.only || opts.only === p;
+        const steps = Number(opts.steps);
+        if (!Number.isInteger(steps) || steps < 10) throw new AppError("bad-input", `--steps ${opts.steps}: expected a whole number of at least 10`, { field: "--steps" });
+        const grid = parseGrid(opts.grid);
+        const out = (s: string) => {
+          if (!opts.json) process.stdout.write(`${s}\n`);
+        };
         const results: Record<string, unknown> = {};
-        if (!opts.only || opts.only === "readers") {
+        if (want("readers")) {
           const { benchReaders } = await import("../../pipeline/bench/io");
-          results.readers = await benchReaders();
-          if (!opts.json) process.stdout.write(`readers: ${JSON.stringify(results.readers)}\n`);
+          const r = await benchReaders();
+          results.readers = r;
+          out("readers (MB/s of file read and decoded):");
+          out(`  SEG-2 float32 little-endian  ${r.seg2MBps.toFixed(0)}`);
+          out(`  SEG-2 int16 big-endian       ${r.seg2Int16BigEndianMBps.toFixed(0)}`);
+          out(`  SEG-Y IEEE float             ${r.segyMBps.toFixed(0)}`);
+          out(`  SEG-Y IBM float              ${r.segyIbmMBps.toFixed(0)}`);
+        }
+        if (want("solver")) {
+          const { benchSolver, formatSolverBench } = await import("../../pipeline/bench/solver");
+          const r = await benchSolver({ ...grid, steps });
+          results.solver = r;
+          for (const line of formatSolverBench(r)) out(line);
         }
         if (opts.json) printJson(results);
       }),
