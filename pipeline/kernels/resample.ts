@@ -1,0 +1,120 @@
+/**
+ * Time windows and resampling of trace blocks (`[trace][sample]`).
+ *
+ * Resampling evaluates each trace at the new sample times by band-limited (sinc) interpolation
+ * with a Hann-tapered sinc of ±16 input samples (Whittaker–Shannon interpolation, windowed:
+ * common practice). Before going to a longer interval the traces pass a zero-phase Butterworth
+ * low-pass (anti-alias filter) below the new Nyquist frequency, so content above it is removed
+ * rather than folded back.
+ */
+import { filterTraces, planFrequencyFilter } from "./filter";
+import { assertCount, assertFinite, assertTraceBlock } from "./taper";
+
+/** Half-width of the interpolation kernel, input samples. */
+export const SINC_HALF_WIDTH = 16;
+
+/** Output time axis. */
+export interface TimeGrid {
+  /** Time of the first output sample after the source instant, s. */
+  startTimeS: number;
+  sampleIntervalS: number;
+  sampleCount: number;
+}
+
+/**
+ * Copies the samples of an output grid that shares the input's sample interval and is offset by
+ * a whole number of samples (`shift` = index of output sample 0 in the input); samples outside
+ * the input are zero.
+ */
+export function shiftTraces(data: Float32Array, traceCount: number, sampleCount: number, shift: number, outCount: number): Float32Array {
+  assertTraceBlock(data, traceCount, sampleCount);
+  if (!Number.isInteger(shift)) throw new RangeError(`shift must be an integer, got ${shift}`);
+  assertCount("outCount", outCount);
+  const out = new Float32Array(traceCount * outCount);
+  const lo = Math.max(0, -shift);
+  const hi = Math.min(outCount, sampleCount - shift);
+  for (let t = 0; t < traceCount; t++) {
+    if (hi > lo) out.set(data.subarray(t * sampleCount + lo + shift, t * sampleCount + hi + shift), t * outCount + lo);
+  }
+  return out;
+}
+
+/**
+ * Evaluates each trace on `grid` by windowed-sinc interpolation (no anti-alias filtering here:
+ * see {@link resampleTraces}). Output samples farther than the kernel from the input are zero.
+ */
+export function interpolateTraces(
+  data: Float32Array,
+  traceCount: number,
+  sampleCount: number,
+  startTimeS: number,
+  sampleIntervalS: number,
+  grid: TimeGrid,
+): Float32Array {
+  assertTraceBlock(data, traceCount, sampleCount);
+  assertFinite("startTimeS", startTimeS);
+  if (!(sampleIntervalS > 0)) throw new RangeError(`sampleIntervalS must be positive, got ${sampleIntervalS}`);
+  if (!(grid.sampleIntervalS > 0)) throw new RangeError(`grid.sampleIntervalS must be positive, got ${grid.sampleIntervalS}`);
+  assertFinite("grid.startTimeS", grid.startTimeS);
+  assertCount("grid.sampleCount", grid.sampleCount);
+  const m = grid.sampleCount;
+  const width = 2 * SINC_HALF_WIDTH;
+  // Kernel weights depend only on the output sample, not the trace: compute them once.
+  const first = new Int32Array(m);
+  const weights = new Float64Array(m * width);
+  for (let j = 0; j < m; j++) {
+    const x = (grid.startTimeS + j * grid.sampleIntervalS - startTimeS) / sampleIntervalS; // fractional input index
+    const i0 = Math.floor(x) - SINC_HALF_WIDTH + 1;
+    first[j] = i0;
+    for (let k = 0; k < width; k++) {
+      const d = x - (i0 + k);
+      const sinc = d === 0 ? 1 : Math.sin(Math.PI * d) / (Math.PI * d);
+      const hann = Math.abs(d) >= SINC_HALF_WIDTH ? 0 : 0.5 * (1 + Math.cos((Math.PI * d) / SINC_HALF_WIDTH));
+      weights[j * width + k] = sinc * hann;
+    }
+  }
+  const out = new Float32Array(traceCount * m);
+  for (let t = 0; t < traceCount; t++) {
+    const base = t * sampleCount;
+    for (let j = 0; j < m; j++) {
+      let s = 0;
+      const i0 = first[j];
+      for (let k = 0; k < width; k++) {
+        const i = i0 + k;
+        if (i >= 0 && i < sampleCount) s += weights[j * width + k] * data[base + i];
+      }
+      out[t * m + j] = s;
+    }
+  }
+  return out;
+}
+
+/**
+ * Resamples traces onto `grid`. When the new interval is longer, a zero-phase Butterworth
+ * low-pass of `antiAliasOrder` at `antiAliasFraction` × the new Nyquist frequency runs first.
+ */
+export function resampleTraces(
+  data: Float32Array,
+  traceCount: number,
+  sampleCount: number,
+  startTimeS: number,
+  sampleIntervalS: number,
+  grid: TimeGrid,
+  antiAliasFraction = 0.8,
+  antiAliasOrder = 6,
+): Float32Array {
+  assertTraceBlock(data, traceCount, sampleCount);
+  assertFinite("antiAliasFraction", antiAliasFraction);
+  if (!(antiAliasFraction > 0 && antiAliasFraction < 1)) throw new RangeError(`antiAliasFraction must lie in (0, 1), got ${antiAliasFraction}`);
+  let source = data;
+  if (grid.sampleIntervalS > sampleIntervalS * (1 + 1e-9)) {
+    const corner = (antiAliasFraction * 0.5) / grid.sampleIntervalS;
+    const plan = planFrequencyFilter(
+      { passBand: "low-pass", lowCutHz: 0, highCutHz: corner, order: antiAliasOrder, zeroPhase: true, notchesHz: [], notchWidthHz: 1 },
+      sampleIntervalS,
+      sampleCount,
+    );
+    source = filterTraces({ data, traceCount, sampleCount, plan, taperSamples: 0 });
+  }
+  return interpolateTraces(source, traceCount, sampleCount, startTimeS, sampleIntervalS, grid);
+}
