@@ -24,10 +24,106 @@ export function scaleSamples(arg: { samples: Float32Array; factor: number }) {
 // ---- Signal-processing steps: each task runs one kernel on a block of whole traces ----
 
 import { filterTraces, type FilterTracesArgs } from "../kernels/filter";
+import { agcTraces, normaliseTraces, timePowerTraces } from "../kernels/gain";
+import { applyMutes, type MuteLines } from "../kernels/mute";
+import { aicPicks, staLtaPicks, type PickWindow } from "../kernels/pickers";
+import { lineSourceTraces, type LineSourceArgs } from "../kernels/line-source";
+import { resampleTraces, type TimeGrid } from "../kernels/resample";
+import { amplitudeSpectra } from "../kernels/spectrum";
 
 /** Frequency filter on a block `[trace][sample]`; the result buffer moves back to the caller. */
 export function filterTraceBlock(arg: FilterTracesArgs): Float32Array {
   return Piscina.move(filterTraces(arg)) as unknown as Float32Array;
+}
+
+/** Gain of one kind on a block; returns the samples (moved) and, for normalisation, the per-trace factors. */
+export function gainTraceBlock(arg: {
+  data: Float32Array;
+  traceCount: number;
+  sampleCount: number;
+  kind: "trace-max" | "trace-rms" | "agc" | "time-power";
+  agcWindowSamples: number;
+  startTimeS: number;
+  sampleIntervalS: number;
+  timePower: number;
+}): { data: Float32Array; scales: Float64Array | null } {
+  const { data, traceCount: tc, sampleCount: ns } = arg;
+  if (arg.kind === "trace-max" || arg.kind === "trace-rms") {
+    const r = normaliseTraces(data, tc, ns, arg.kind === "trace-max" ? "max" : "rms");
+    // piscina moves only a top-level Piscina.move() result; inside an object the arrays are copied.
+    return { data: r.data, scales: r.scales };
+  }
+  const out =
+    arg.kind === "agc"
+      ? agcTraces(data, tc, ns, arg.agcWindowSamples)
+      : timePowerTraces(data, tc, ns, arg.startTimeS, arg.sampleIntervalS, arg.timePower);
+  return { data: out, scales: null };
+}
+
+/** Mutes on a block (line arrays cover the block's traces). */
+export function muteTraceBlock(arg: {
+  data: Float32Array;
+  traceCount: number;
+  sampleCount: number;
+  startTimeS: number;
+  sampleIntervalS: number;
+  lines: MuteLines;
+  taperS: number;
+}): { data: Float32Array; mutedTraces: number } {
+  const r = applyMutes(arg.data, arg.traceCount, arg.sampleCount, arg.startTimeS, arg.sampleIntervalS, arg.lines, arg.taperS);
+  return { data: r.data, mutedTraces: r.mutedTraces };
+}
+
+/** First-arrival picks on a block: STA/LTA, optionally refined by AIC around each pick, or AIC alone. */
+export function pickTraceBlock(arg: {
+  data: Float32Array;
+  traceCount: number;
+  sampleCount: number;
+  method: "energy-ratio" | "information-criterion";
+  window: PickWindow;
+  triggerRatio: number;
+  /** AIC half window around the energy-ratio pick, samples; 0 = AIC over the whole search window. */
+  aicHalfWidth: number;
+}): { index: Float64Array; quality: Float64Array } {
+  const { data, traceCount: tc, sampleCount: ns, window } = arg;
+  if (arg.method === "energy-ratio") return staLtaPicks(data, tc, ns, window, arg.triggerRatio);
+  if (arg.aicHalfWidth > 0) {
+    const first = staLtaPicks(data, tc, ns, window, arg.triggerRatio);
+    return aicPicks(data, tc, ns, window, { centres: first.index, halfWidth: arg.aicHalfWidth });
+  }
+  return aicPicks(data, tc, ns, window);
+}
+
+/** Point-to-line-source conversion on a block. */
+export function lineSourceTraceBlock(arg: LineSourceArgs): Float32Array {
+  return Piscina.move(lineSourceTraces(arg)) as unknown as Float32Array;
+}
+
+/** Resampling of a block onto a new time grid (anti-alias filter included). */
+export function resampleTraceBlock(arg: {
+  data: Float32Array;
+  traceCount: number;
+  sampleCount: number;
+  startTimeS: number;
+  sampleIntervalS: number;
+  grid: TimeGrid;
+  antiAliasFraction: number;
+}): Float32Array {
+  const out = resampleTraces(arg.data, arg.traceCount, arg.sampleCount, arg.startTimeS, arg.sampleIntervalS, arg.grid, arg.antiAliasFraction);
+  return Piscina.move(out) as unknown as Float32Array;
+}
+
+/** Amplitude spectra of a block, `[trace][frequency]`. */
+export function spectraTraceBlock(arg: {
+  data: Float32Array;
+  traceCount: number;
+  sampleCount: number;
+  sampleIntervalS: number;
+  taperFraction: number;
+  maxFrequencyHz: number;
+}): Float32Array {
+  const r = amplitudeSpectra(arg.data, arg.traceCount, arg.sampleCount, arg.sampleIntervalS, arg.taperFraction, arg.maxFrequencyHz);
+  return Piscina.move(r.perTrace) as unknown as Float32Array;
 }
 
 // ---- Elastic finite-difference solver: one shot per task, and the solver bench ----

@@ -1,0 +1,160 @@
+/**
+ * Step "first-arrivals": first-arrival picks per trace by an energy ratio (STA/LTA, Allen 1978)
+ * or an information criterion (AIC, Maeda 1985), with a quality per pick and a consistency check
+ * against offset (picks off the smooth offset-time trend are flagged). The picks feed the mute;
+ * the offset-time table lets the processor check the geometry.
+ */
+import { z } from "zod";
+import { defineStep, StepInputError, throwIfAborted } from "../step";
+import type { GatherSet, PickSet } from "../types";
+import { aicPicks, flagOffsetOutliers, staLtaPicks, type PickWindow } from "../kernels/pickers";
+import { runTraceBlocks } from "./trace-blocks";
+
+export const firstArrivalsParams = z
+  .object({
+    /** @default "information-criterion" */
+    method: z
+      .enum(["energy-ratio", "information-criterion"])
+      .default("information-criterion")
+      .describe('"energy-ratio": STA/LTA (Allen 1978), pick at the ratio maximum after the first trigger; "information-criterion": AIC (Maeda 1985) around the energy-ratio pick (or over the whole search window when aicWindowMs is 0)'),
+    /** @default 5 */
+    shortWindowMs: z.number().positive().default(5).describe("Short (signal) window of the energy ratio, ms: about one period of the first arrival"),
+    /** @default 50 */
+    longWindowMs: z.number().positive().default(50).describe("Long (noise) window of the energy ratio, ms"),
+    /** @default 4 */
+    triggerRatio: z.number().gt(1).default(4).describe("Energy ratio (STA/LTA) that declares an arrival; traces that never reach it get no pick"),
+    /** @default 20 */
+    aicWindowMs: z.number().min(0).default(20).describe("Information criterion: half width of the window around the energy-ratio pick, ms; 0 evaluates it over the whole search window"),
+    /** @default 0 */
+    searchStartMs: z.number().default(0).describe("Earliest pick time, ms after the source"),
+    /** @default null */
+    searchEndMs: z.number().nullable().default(null).describe("Latest pick time, ms after the source (null: end of trace)"),
+    /** @default 0.1 */
+    minQuality: z.number().min(0).max(1).default(0.1).describe("Picks of lower quality (0 … 1: log10 of the energy ratio across the pick over 2) are dropped"),
+    /** @default 3 */
+    trendNeighbours: z.number().int().min(1).max(20).default(3).describe("Picked traces on each side used to fit the local offset-time trend"),
+    /** @default 4 */
+    trendToleranceMs: z.number().positive().default(4).describe("A pick farther than this from the local offset-time trend is flagged, ms"),
+  })
+  .superRefine((p, ctx) => {
+    if (p.longWindowMs < p.shortWindowMs) {
+      ctx.addIssue({ code: "custom", path: ["longWindowMs"], message: `longWindowMs (${p.longWindowMs}) must not be shorter than shortWindowMs (${p.shortWindowMs})` });
+    }
+    if (p.searchEndMs !== null && p.searchEndMs <= p.searchStartMs) {
+      ctx.addIssue({ code: "custom", path: ["searchEndMs"], message: `searchEndMs (${p.searchEndMs}) must be after searchStartMs (${p.searchStartMs})` });
+    }
+  });
+
+export type FirstArrivalsParams = z.output<typeof firstArrivalsParams>;
+
+export const firstArrivalsStep = defineStep({
+  id: "first-arrivals",
+  version: 1,
+  title: "First-arrival picking (STA/LTA, AIC)",
+  description:
+    "Picks first arrivals per trace by an energy ratio (STA/LTA on Allen's 1978 characteristic function) or by an information criterion " +
+    "(AIC, Maeda 1985) refined around it. Each pick has a quality in [0, 1]; picks off the local offset-time trend (Theil–Sen line through " +
+    "neighbouring picks) are flagged. Writes the picks and a report with the offset-time table for a geometry check.",
+  reads: ["gathers"],
+  writes: ["picks", "report"],
+  params: firstArrivalsParams,
+  async run(input, params, ctx) {
+    const set = input.gathers as GatherSet;
+    // Data-dependent checks for every gather before any work.
+    const windows = set.gathers.map((g) => {
+      const dt = g.sampleIntervalS;
+      const toIndex = (ms: number) => Math.round((ms / 1000 - g.startTimeS) / dt);
+      const endTimeMs = (g.startTimeS + (g.sampleCount - 1) * dt) * 1000;
+      const searchStart = Math.max(0, toIndex(params.searchStartMs));
+      const searchEnd = params.searchEndMs === null ? g.sampleCount : Math.min(g.sampleCount, toIndex(params.searchEndMs) + 1);
+      if (searchStart >= searchEnd) {
+        throw new StepInputError(`the search window ${params.searchStartMs} … ${params.searchEndMs ?? "end"} ms lies outside gather "${g.id}" (${(g.startTimeS * 1000).toFixed(3)} … ${endTimeMs.toFixed(3)} ms)`, "searchStartMs");
+      }
+      const shortSamples = Math.max(1, Math.round(params.shortWindowMs / 1000 / dt));
+      const longSamples = Math.max(shortSamples, Math.round(params.longWindowMs / 1000 / dt));
+      if (shortSamples + 2 > g.sampleCount) {
+        throw new StepInputError(`shortWindowMs ${params.shortWindowMs} ms is longer than the traces of gather "${g.id}" (${g.sampleCount} samples of ${dt * 1000} ms)`, "shortWindowMs");
+      }
+      const w: PickWindow = { searchStart, searchEnd, shortSamples, longSamples };
+      return w;
+    });
+    const result: PickSet = { kind: "picks", method: params.method, picks: [] };
+    const table: Array<{ gatherId: string; traceIndex: number; channel: number; offsetM: number; timeS: number; quality: number; flagged: boolean }> = [];
+    const perGather: Array<{ gatherId: string; traces: number; picked: number; flagged: number; dropped: number }> = [];
+    for (let gi = 0; gi < set.gathers.length; gi++) {
+      throwIfAborted(ctx.signal);
+      const g = set.gathers[gi];
+      const n = g.traces.length;
+      const window = windows[gi];
+      const aicHalfWidth = params.method === "information-criterion" ? Math.round(params.aicWindowMs / 1000 / g.sampleIntervalS) : 0;
+      const local = (block: Float32Array, tc: number) => {
+        if (params.method === "energy-ratio") return staLtaPicks(block, tc, g.sampleCount, window, params.triggerRatio);
+        if (aicHalfWidth > 0) {
+          const first = staLtaPicks(block, tc, g.sampleCount, window, params.triggerRatio);
+          return aicPicks(block, tc, g.sampleCount, window, { centres: first.index, halfWidth: aicHalfWidth });
+        }
+        return aicPicks(block, tc, g.sampleCount, window);
+      };
+      const parts = await runTraceBlocks(ctx, g.data, n, g.sampleCount, {
+        local,
+        remote: (pool, block, tc) =>
+          pool.run(
+            "pickTraceBlock",
+            { data: block, traceCount: tc, sampleCount: g.sampleCount, method: params.method, window, triggerRatio: params.triggerRatio, aicHalfWidth },
+            { transfer: [block.buffer as ArrayBuffer], signal: ctx.signal },
+          ),
+      });
+      const timesS = new Float64Array(n).fill(NaN);
+      const quality = new Float64Array(n);
+      let dropped = 0;
+      for (const p of parts) {
+        for (let k = 0; k < p.traceCount; k++) {
+          const t = p.firstTrace + k;
+          const idx = p.result.index[k];
+          if (g.traces[t].dead || !(idx === idx)) continue;
+          if (p.result.quality[k] < params.minQuality) {
+            dropped++;
+            continue;
+          }
+          timesS[t] = g.startTimeS + idx * g.sampleIntervalS;
+          quality[t] = p.result.quality[k];
+        }
+      }
+      const offsets = g.traces.map((h) => h.offset);
+      const flags = flagOffsetOutliers(offsets, timesS, params.trendNeighbours, params.trendToleranceMs / 1000);
+      let picked = 0;
+      let flagged = 0;
+      for (let t = 0; t < n; t++) {
+        if (!(timesS[t] === timesS[t])) continue;
+        picked++;
+        if (flags[t]) flagged++;
+        result.picks.push({ gatherId: g.id, traceIndex: t, timeS: timesS[t], quality: quality[t], flagged: flags[t] === 1 });
+        table.push({ gatherId: g.id, traceIndex: t, channel: g.traces[t].channel, offsetM: offsets[t], timeS: timesS[t], quality: quality[t], flagged: flags[t] === 1 });
+      }
+      perGather.push({ gatherId: g.id, traces: n, picked, flagged, dropped });
+      ctx.progress((gi + 1) / set.gathers.length, g.id);
+    }
+    const traces = perGather.reduce((s, p) => s + p.traces, 0);
+    const picked = result.picks.length;
+    const flagged = result.picks.filter((p) => p.flagged).length;
+    const dropped = perGather.reduce((s, p) => s + p.dropped, 0);
+    ctx.log.info({ traces, picked, flagged, dropped }, `picked ${picked} of ${traces} traces (${params.method}); ${flagged} picks flagged off the offset trend, ${dropped} dropped below quality ${params.minQuality}`);
+    return {
+      outputs: {
+        picks: result,
+        report: { kind: "json", role: "first-arrivals", data: { method: params.method, perGather, offsetTime: table } },
+      },
+      summary: { method: params.method, traces, picked, flagged, dropped },
+      series: [
+        {
+          name: "first-arrivals",
+          xLabel: "offset (m)",
+          yLabel: "first-arrival time (ms)",
+          points: table.map((r) => ({ x: r.offsetM, y: r.timeS * 1000, group: r.flagged ? `${r.gatherId} (flagged)` : r.gatherId })),
+        },
+      ],
+    };
+  },
+});
+
+export default firstArrivalsStep;
