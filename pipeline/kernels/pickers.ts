@@ -113,10 +113,10 @@ export function staLtaPicks(
     if (!(total > 0)) continue;
     const floor = 1e-12 * (total / sampleCount);
     // Ratio at sample i: mean over [i, i + ns) / mean over [i − nl, i). Near the trace start the
-    // long window is cut to the samples there are (but at least three short windows, below
+    // long window is cut to the samples there are (but at least two short windows, below
     // which the noise estimate fluctuates enough to trigger on noise), so early arrivals on near
     // traces can still be picked.
-    const first = Math.max(window.searchStart, Math.min(nl, 3 * ns));
+    const first = Math.max(window.searchStart, Math.min(nl, 2 * ns));
     const last = Math.min(window.searchEnd, sampleCount - ns + 1);
     const ratioAt = (i: number) => {
       const len = Math.min(nl, i);
@@ -148,8 +148,8 @@ export function staLtaPicks(
 
 /**
  * Information-criterion (AIC) picks after Maeda (1985), evaluated on [searchStart, searchEnd)
- * of each trace (or, when `centres` is given, on ±`halfWidth` samples around centres[t]; NaN
- * centres give no pick). Variances come from running sums in Float64.
+ * of each trace (or, when `centres` is given, on ±`halfWidth` samples around centres[t], keeping
+ * only picks inside the search window; NaN centres give no pick). Variances come from running sums in Float64.
  */
 export function aicPicks(
   data: Float32Array,
@@ -173,10 +173,12 @@ export function aicPicks(
     let a = window.searchStart;
     let b = window.searchEnd;
     if (around) {
+      // The window around a preliminary pick may reach before the search start: AIC needs
+      // noise before the onset to see the change. Only the pick itself must lie in the search window.
       const c = around.centres[t];
       if (!(c === c)) continue;
-      a = Math.max(a, Math.round(c) - around.halfWidth);
-      b = Math.min(b, Math.round(c) + around.halfWidth + 1);
+      a = Math.max(0, Math.round(c) - around.halfWidth);
+      b = Math.min(sampleCount, Math.round(c) + around.halfWidth + 1);
     }
     const n = b - a;
     if (n < 6) continue;
@@ -205,6 +207,7 @@ export function aicPicks(
     }
     if (bestK < 0) continue;
     const pick = a + bestK;
+    if (pick < window.searchStart || pick >= window.searchEnd) continue;
     index[t] = pick;
     quality[t] = pickQuality(data, base, pick, window, sampleCount);
   }
