@@ -8,6 +8,14 @@ import { AppError } from "./errors";
 import { importRecordsStep } from "./steps/import-records";
 import { geometryStep } from "./steps/geometry";
 import { verticalStackStep } from "./steps/vertical-stack";
+import { traceEditStep } from "./steps/trace-edit";
+import { timeWindowStep } from "./steps/time-window";
+import { frequencyFilterStep } from "./steps/frequency-filter";
+import { firstArrivalsStep } from "./steps/first-arrivals";
+import { muteStep } from "./steps/mute";
+import { gainStep } from "./steps/gain";
+import { lineSourceStep } from "./steps/line-source";
+import { spectraStep } from "./steps/spectra";
 import { buildModelStep } from "./steps/build-model";
 import { forwardModelStep } from "./steps/forward-model";
 
@@ -15,6 +23,14 @@ const STEPS: AnyStepDefinition[] = [
   importRecordsStep,
   geometryStep,
   verticalStackStep,
+  traceEditStep,
+  timeWindowStep,
+  frequencyFilterStep,
+  firstArrivalsStep,
+  muteStep,
+  gainStep,
+  lineSourceStep,
+  spectraStep,
   buildModelStep,
   forwardModelStep,
 ];
