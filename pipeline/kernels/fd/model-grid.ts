@@ -166,7 +166,8 @@ function num(x: number): string {
 }
 
 /**
- * Reads a CSV grid (header naming x, z, vp, vs, rho in any order; `#` comment lines and blank
+ * Reads a CSV grid (header naming x, z, vp, vs, rho in any order, or x_m, z_m, vp_m_per_s,
+ * vs_m_per_s, rho_kg_per_m3 as the artifact export writes them; `#` comment lines and blank
  * lines ignored) into a model. The nodes must form a complete regular grid with equal spacing in
  * x and z. Errors name `name` and the line.
  */
@@ -194,8 +195,16 @@ export function modelFromCsv(text: string, name = "model CSV"): ElasticModel {
   }
   if (!header) throw bad(1, "no header row", "x,z,vp,vs,rho");
   const col: Record<string, number> = {};
-  for (const c of ["x", "z", "vp", "vs", "rho"]) {
-    col[c] = header.indexOf(c);
+  // Plain names, or the unit-suffixed names of the artifact export (x_m, vp_m_per_s, rho_kg_per_m3, ...).
+  const aliases: Record<string, string[]> = {
+    x: ["x", "x_m"],
+    z: ["z", "z_m"],
+    vp: ["vp", "vp_m_per_s"],
+    vs: ["vs", "vs_m_per_s"],
+    rho: ["rho", "rho_kg_per_m3"],
+  };
+  for (const [c, names] of Object.entries(aliases)) {
+    col[c] = header.findIndex((h) => names.includes(h));
     if (col[c] < 0) throw bad(headerLine, `header lacks column "${c}"`, "x,z,vp,vs,rho");
   }
   if (data.length < 16) throw bad(headerLine, `only ${data.length} nodes`, "a grid of at least 4 × 4 nodes");

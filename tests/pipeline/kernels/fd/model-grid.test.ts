@@ -2,6 +2,7 @@
 import { describe, expect, it } from "vitest";
 import { buildModel, countShapeCells, modelFromCsv, modelToCsv, shapeContains } from "../../../../pipeline/kernels/fd/model-grid";
 import { mulberry32 } from "../../../helpers/random";
+import { exportArtifact } from "../../../../pipeline/export";
 
 const grid = { originX: -2, originZ: 0, spacingM: 0.5, nx: 41, nz: 21 };
 
@@ -71,6 +72,13 @@ describe("CSV grids", () => {
     expect(back.spacingM).toBeCloseTo(0.5, 12);
     expect(Array.from(back.vs)).toEqual(Array.from(m.vs));
     expect(Array.from(back.rho)).toEqual(Array.from(m.rho));
+  });
+
+  it("reads the model CSV that the artifact export writes", () => {
+    const m = buildModel(grid, [{ topM: 0, vp: 400.5, vs: 140.25, rho: 1700 }]);
+    const back = modelFromCsv(new TextDecoder().decode(exportArtifact(m, "csv")));
+    expect([back.nx, back.nz, back.originX, back.originZ]).toEqual([m.nx, m.nz, m.originX, m.originZ]);
+    expect(back.vs[5]).toBe(140.25);
   });
 
   it("accepts any column order and row order, comments and blank lines", () => {
