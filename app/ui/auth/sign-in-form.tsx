@@ -37,7 +37,7 @@ export function SignInForm({ next, initialError }: { next: string; initialError?
         <input id="password" name="password" type="password" autoComplete="current-password" required className="field mt-1" />
       </div>
       {error ? (
-        <p role="alert" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{error}</p>
+        <p role="alert" data-testid="sign-in-error" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{error}</p>
       ) : null}
       <button type="submit" className="btn-primary w-full justify-center" disabled={busy}>
         {busy ? "Signing in…" : "Sign in"}

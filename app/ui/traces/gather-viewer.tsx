@@ -62,8 +62,15 @@ export function GatherViewer({
   const gatherList = outline.data && outline.data.kind === "gathers" && "gathers" in outline.data ? outline.data.gathers : [];
   const gid = gatherId || gatherList[0]?.id || "";
 
+  // The second source may name its gathers differently (e.g. one per blow before the stack):
+  // take the gather with the same id, else the one at the same position.
+  const outlineB = useQuery({ ...artifactQueries.outline(b?.hash ?? ""), enabled: Boolean(b) });
+  const listB = outlineB.data && outlineB.data.kind === "gathers" && "gathers" in outlineB.data ? outlineB.data.gathers : [];
+  const indexA = gatherList.findIndex((g) => g.id === gid);
+  const gidB = listB.find((g) => g.id === gid)?.id ?? listB[Math.max(0, indexA)]?.id ?? listB[0]?.id ?? "";
+
   const ta = useQuery({ ...artifactQueries.traces(a?.hash ?? "", gid), enabled: Boolean(a && gid) });
-  const tb = useQuery({ ...artifactQueries.traces(b?.hash ?? "", gid), enabled: Boolean(b && gid) });
+  const tb = useQuery({ ...artifactQueries.traces(b?.hash ?? "", gidB), enabled: Boolean(b && gidB) });
   const ga = useMemo(() => (ta.data ? toView(ta.data.header, ta.data.payload) : null), [ta.data]);
   const gb = useMemo(() => (tb.data ? toView(tb.data.header, tb.data.payload) : null), [tb.data]);
   const mismatch = ga && gb && (ga.traces !== gb.traces || ga.samples !== gb.samples);
@@ -94,7 +101,7 @@ export function GatherViewer({
   }, [l0.data, l1.data]);
 
   const set = <K extends keyof DisplaySettings>(k: K, v: DisplaySettings[K]) => setSettings((s) => ({ ...s, [k]: v }));
-  const error = outline.error ?? ta.error ?? tb.error;
+  const error = outline.error ?? outlineB.error ?? ta.error ?? tb.error;
 
   return (
     <div className="space-y-3" data-testid="gather-viewer">
@@ -168,6 +175,7 @@ export function GatherViewer({
       {error ? <p role="alert" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{error.message}</p> : null}
       {mismatch ? <p role="alert" className="rounded-md bg-warn-soft px-3 py-2 text-sm text-warn">The two gathers differ in size ({ga.traces}×{ga.samples} against {gb.traces}×{gb.samples}); the difference cannot be drawn.</p> : null}
       {mode !== "single" && !b ? <p className="text-sm muted">Choose a second source to compare against.</p> : null}
+      {b && gidB && gidB !== gid ? <p className="text-xs muted">The second source has no gather {gid}; showing its gather {gidB} (same position in its list).</p> : null}
       {!ga || !view ? (
         <div className="flex h-64 items-center justify-center rounded-md border border-dashed border-line text-sm muted">{ta.isLoading || outline.isLoading ? "Loading traces…" : "No gather to show."}</div>
       ) : mode === "single" || !gb ? (
@@ -187,8 +195,8 @@ export function GatherViewer({
         </div>
       ) : (
         <div className={`grid gap-3 ${mode === "difference" && diff ? "xl:grid-cols-3 lg:grid-cols-2" : "lg:grid-cols-2"}`}>
-          <TraceCanvas gather={ga} settings={settings} view={view} onViewChange={setView} overlays={overlays} title={a?.label} height={480} testId="trace-canvas-a" />
-          <TraceCanvas gather={gb} settings={settings} view={view} onViewChange={setView} overlays={overlays} title={b?.label} height={480} testId="trace-canvas-b" />
+          <TraceCanvas gather={ga} settings={settings} view={view} onViewChange={setView} overlays={overlays} title={`${a?.label} · ${gid}`} height={480} testId="trace-canvas-a" />
+          <TraceCanvas gather={gb} settings={settings} view={view} onViewChange={setView} overlays={overlays} title={`${b?.label} · ${gidB}`} height={480} testId="trace-canvas-b" />
           {mode === "difference" && diff ? (
             <TraceCanvas gather={diff} settings={{ ...settings, referenceAmplitude: peaks(ga).gather || 1 }} view={view} onViewChange={setView} title="first − second (on the first's scale)" height={480} testId="trace-canvas-diff" />
           ) : null}

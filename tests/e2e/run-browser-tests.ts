@@ -1,0 +1,362 @@
+/**
+ * Browser tests of the control room (`npm run test:browser`): prepares a temporary data folder
+ * with the demo script, starts `next start` and a mail catcher, signs in as each role with
+ * Debian's chromium and walks the main paths. Also takes the screenshots under docs/screenshots/
+ * and prints what it measured (page load, trace panel draw time).
+ *
+ * Options: --keep (leave the temp folder), --data DIR (reuse a prepared data folder),
+ * --no-screenshots.
+ */
+import fs from "node:fs";
+import os from "node:os";
+import path from "node:path";
+import { build } from "esbuild";
+import type { Page } from "playwright-core";
+import { DEMO_ACCOUNTS } from "../../db/seed";
+import { ensureBuild, pageLoadMs, prepareData, projectRoot, signIn, startBrowser, startMailCatcher, startServer } from "./harness";
+
+const argv = process.argv.slice(2);
+const keep = argv.includes("--keep");
+const reuse = argv.includes("--data") ? argv[argv.indexOf("--data") + 1] : undefined;
+const screenshots = !argv.includes("--no-screenshots");
+const shotsDir = path.join(projectRoot, "docs", "screenshots");
+
+const account = (role: string) => {
+  const a = DEMO_ACCOUNTS.find((x) => x.role === role);
+  if (!a) throw new Error(`no demo account for ${role}`);
+  return a;
+};
+
+type Outcome = { name: string; status: "pass" | "fail" | "skip"; ms: number; note?: string };
+const outcomes: Outcome[] = [];
+const measured: Record<string, number | string> = {};
+
+class Skip extends Error {}
+
+/**
+ * Draw-time measurement in the page, as plain JavaScript text (so the test runner's transpiler
+ * adds no helpers): a seeded (mulberry32) 96-trace, 4000-sample gather, each display mode drawn
+ * five times on a 1300×600 canvas; the median per mode, ms.
+ */
+const DRAW_BENCH_SCRIPT = `(() => {
+  const traces = 96, samples = 4000;
+  let a = 12345;
+  const rand = function () {
+    a |= 0; a = (a + 0x6d2b79f5) | 0;
+    let t = Math.imul(a ^ (a >>> 15), 1 | a);
+    t = (t + Math.imul(t ^ (t >>> 7), 61 | t)) ^ t;
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+  const data = new Float32Array(traces * samples);
+  for (let i = 0; i < traces; i++) for (let s = 0; s < samples; s++) {
+    const t = s * 0.00025 - 0.002 * i;
+    data[i * samples + s] = (t > 0 ? Math.sin(2 * Math.PI * 40 * t) * Math.exp(-t * 8) : 0) + 0.05 * (rand() - 0.5);
+  }
+  const offsets = []; for (let i = 0; i < traces; i++) offsets.push(i * 0.5);
+  const g = { data: data, traces: traces, samples: samples, dtS: 0.00025, t0S: 0, offsetsM: offsets };
+  const canvas = document.createElement("canvas");
+  canvas.width = 1300; canvas.height = 600;
+  document.body.appendChild(canvas);
+  const ctx = canvas.getContext("2d");
+  const T = window.TraceDraw;
+  const out = {};
+  for (const mode of ["wiggle", "density", "both"]) {
+    const settings = { mode: mode, gain: 1.5, clip: 1.5, scaling: "trace", spacing: "even" };
+    const view = T.fullWindow(g, settings);
+    T.drawGather(ctx, { width: 1300, height: 600, dpr: 1 }, g, settings, view);
+    const times = [];
+    for (let k = 0; k < 5; k++) times.push(T.drawGather(ctx, { width: 1300, height: 600, dpr: 1 }, g, settings, view));
+    times.sort(function (x, y) { return x - y; });
+    out[mode] = times[2];
+  }
+  canvas.remove();
+  return out;
+})()`;
+
+function check(condition: unknown, message: string): asserts condition {
+  if (!condition) throw new Error(message);
+}
+
+async function test(name: string, fn: () => Promise<void>) {
+  const t0 = Date.now();
+  try {
+    await fn();
+    outcomes.push({ name, status: "pass", ms: Date.now() - t0 });
+    process.stdout.write(`  ✓ ${name}\n`);
+  } catch (err) {
+    const skip = err instanceof Skip;
+    outcomes.push({ name, status: skip ? "skip" : "fail", ms: Date.now() - t0, note: (err as Error).message });
+    process.stdout.write(`  ${skip ? "-" : "✗"} ${name}\n      ${(err as Error).message.split("\n").join("\n      ")}\n`);
+  }
+}
+
+async function shoot(page: Page, name: string) {
+  if (!screenshots) return;
+  for (const width of [1440, 1024]) {
+    await page.setViewportSize({ width, height: 900 });
+    await page.waitForTimeout(400);
+    await page.screenshot({ path: path.join(shotsDir, `${name}-${width}.png`), fullPage: true });
+  }
+  await page.setViewportSize({ width: 1440, height: 900 });
+}
+
+async function goto(page: Page, url: string, key?: string) {
+  await page.goto(url, { waitUntil: "load" });
+  if (key) measured[`page load ${key} (ms)`] = Math.round(await pageLoadMs(page));
+}
+
+/** Runs listed by the API, as the signed-in page sees them. */
+async function apiRuns(page: Page, origin: string) {
+  const res = await page.request.get(`${origin}/api/runs?pageSize=200&sort=created&dir=asc`);
+  check(res.ok(), `GET /api/runs answered ${res.status()}`);
+  return (await res.json()) as { rows: Array<{ id: number; status: string; parentRunId: number | null }> };
+}
+
+async function apiRun(page: Page, origin: string, id: number) {
+  const res = await page.request.get(`${origin}/api/runs/${id}`);
+  check(res.ok(), `GET /api/runs/${id} answered ${res.status()}`);
+  return (await res.json()) as {
+    id: number;
+    status: string;
+    steps: Array<{ label: string; stepId: string; cacheHit: boolean; params: Record<string, unknown>; outputs: Record<string, string> }>;
+  };
+}
+
+async function main() {
+  const dataDir = reuse ?? fs.mkdtempSync(path.join(os.tmpdir(), "tw-e2e-"));
+  process.stdout.write(`Browser tests (data in ${dataDir})\n`);
+  if (!reuse) {
+    process.stdout.write("  preparing demo data…\n");
+    await prepareData(dataDir);
+  }
+  await ensureBuild();
+  const mail = await startMailCatcher();
+  const server = await startServer(dataDir, { TRACEWRIGHT_SMTP_HOST: "127.0.0.1", TRACEWRIGHT_SMTP_PORT: String(mail.port) });
+  const browser = await startBrowser();
+  const page = browser.context.pages()[0] ?? (await browser.context.newPage());
+  const origin = server.origin;
+  if (screenshots) fs.mkdirSync(shotsDir, { recursive: true });
+
+  try {
+    await test("sign-in page refuses a wrong password with a message", async () => {
+      await goto(page, `${origin}/sign-in`, "sign-in");
+      await page.fill("#email", account("processor").email);
+      await page.fill("#password", "not-the-password");
+      await page.click("button[type=submit]");
+      await page.waitForSelector("[data-testid=sign-in-error]");
+      check((await page.textContent("[data-testid=sign-in-error]"))?.includes("not recognised"), "no refusal message");
+      await shoot(page, "sign-in");
+    });
+
+    await test("processor: runs table lists the demo runs; navigation matches the role", async () => {
+      await signIn(page, origin, account("processor").email, account("processor").password);
+      await goto(page, `${origin}/runs`, "runs table");
+      const rows = await page.locator("[data-testid^=run-row-]").count();
+      check(rows >= 1, `expected demo runs in the table, found ${rows}`);
+      check(await page.locator("nav >> text=Start a run").count(), "processor should see Start a run");
+      check((await page.locator("nav >> text=People").count()) === 0, "processor must not see People");
+      // Server-side filter: a status nobody has gives an empty table.
+      await goto(page, `${origin}/runs?status=cancelled`);
+      check((await page.locator("[data-testid^=run-row-]").count()) === 0 || (await page.textContent("[data-testid=runs-table]"))!.includes("Stopped"), "status filter not applied");
+      await goto(page, `${origin}/runs`);
+      await shoot(page, "runs");
+    });
+
+    let firstRunId = 0;
+    await test("run page: step timeline, settings and streamed log lines", async () => {
+      const runs = await apiRuns(page, origin);
+      const first = runs.rows.find((r) => r.parentRunId === null && r.status === "succeeded");
+      check(first, "no succeeded run in the demo data");
+      firstRunId = first.id;
+      await goto(page, `${origin}/runs/${first.id}`, "run page");
+      await page.waitForSelector("[data-testid=step-timeline]");
+      const steps = await page.locator("[data-testid=step-timeline] li").count();
+      check(steps >= 2, `expected several steps, found ${steps}`);
+      await page.locator("[data-testid=step-timeline] li button").first().click();
+      await page.waitForSelector("[data-testid=step-params]");
+      await page.waitForFunction(() => (document.querySelector("[data-testid=log-lines]")?.textContent ?? "").match(/\b(info|warn)\b/i));
+      check(await page.locator("[data-testid=provenance]").count(), "no provenance panel");
+      check(await page.locator("[data-testid=rerun-button]").count(), "processor should have a rerun button");
+      await shoot(page, "run");
+    });
+
+    await test("before/after trace panel draws the same gather from two steps", async () => {
+      await goto(page, `${origin}/runs/${firstRunId}`);
+      await page.waitForSelector("[data-testid=gather-viewer]");
+      await page.selectOption("[data-testid=compare-mode]", "difference");
+      const b = page.locator("[data-testid=source-b] option");
+      check((await b.count()) >= 2, "fewer than two gather sources to compare");
+      await page.selectOption("[data-testid=source-b]", { index: 1 });
+      await page.waitForSelector("[data-testid=trace-canvas-a][data-draw-ms]", { timeout: 20_000 });
+      await page.waitForSelector("[data-testid=trace-canvas-b][data-draw-ms]", { timeout: 20_000 });
+      const ms = Number(await page.getAttribute("[data-testid=trace-canvas-a]", "data-draw-ms"));
+      measured["trace panel draw, demo gather (ms)"] = ms;
+      // Flip in place shows one canvas and swaps on click.
+      await page.selectOption("[data-testid=compare-mode]", "flip");
+      await page.click("[data-testid=flip-button]");
+      check((await page.textContent("[data-testid=flip-button]"))?.includes("second"), "flip did not switch");
+      await page.selectOption("[data-testid=compare-mode]", "difference");
+      await page.locator("[data-testid=gather-viewer]").scrollIntoViewIfNeeded();
+      if (screenshots) {
+        for (const width of [1440, 1024]) {
+          await page.setViewportSize({ width, height: 900 });
+          await page.waitForTimeout(400);
+          await page.locator("[data-testid=gather-viewer]").screenshot({ path: path.join(shotsDir, `before-after-${width}.png`) });
+        }
+        await page.setViewportSize({ width: 1440, height: 900 });
+      }
+    });
+
+    await test("trace panel draws a 96-trace, 4000-sample gather (measured in chromium)", async () => {
+      const bundle = await build({
+        entryPoints: [path.join(projectRoot, "app", "ui", "traces", "draw-traces.ts")],
+        bundle: true,
+        format: "iife",
+        globalName: "TraceDraw",
+        write: false,
+      });
+      await page.addScriptTag({ content: bundle.outputFiles[0].text });
+      const result = (await page.evaluate(DRAW_BENCH_SCRIPT)) as Record<string, number>;
+      for (const [mode, ms] of Object.entries(result)) measured[`trace panel draw 96×4000, ${mode}, 1300×600 px (median of 5, ms)`] = Math.round(ms * 10) / 10;
+      check(Object.values(result).every((ms) => Number.isFinite(ms) && ms > 0), "draw time not measured");
+    });
+
+    await test("model section: colour image, colour bar, cautions", async () => {
+      const runs = await apiRuns(page, origin);
+      let modelRun: number | null = null;
+      for (const r of runs.rows) {
+        const detail = await apiRun(page, origin, r.id);
+        if (detail.steps.some((s) => s.outputs.model)) {
+          modelRun = r.id;
+          break;
+        }
+      }
+      if (modelRun === null) throw new Skip("no run in the demo data writes a model yet");
+      await goto(page, `${origin}/runs/${modelRun}`, "run page with model");
+      await page.waitForSelector("[data-testid=model-canvas]");
+      check(await page.locator("[data-testid=model-cautions]").count(), "cautions missing beside the model");
+      const box = await page.locator("[data-testid=model-canvas]").first().boundingBox();
+      check(box, "model canvas not laid out");
+      await page.mouse.click(box.x + box.width * 0.45, box.y + box.height * 0.5);
+      await page.waitForFunction(() => !document.querySelector("[data-testid=model-section]")?.textContent?.includes("No position chosen"));
+      await page.locator("[data-testid=model-section]").first().scrollIntoViewIfNeeded();
+      if (screenshots) {
+        for (const width of [1440, 1024]) {
+          await page.setViewportSize({ width, height: 900 });
+          await page.waitForTimeout(400);
+          await page.locator("[data-testid=model-section]").first().screenshot({ path: path.join(shotsDir, `model-${width}.png`) });
+        }
+        await page.setViewportSize({ width: 1440, height: 900 });
+      }
+    });
+
+    let rerunId = 0;
+    await test("processor reruns with a changed setting; the new run opens and reuses upstream steps", async () => {
+      const run = await apiRun(page, origin, firstRunId);
+      const from = run.steps.find((s) => s.stepId === "frequency-filter") ?? run.steps.at(-1)!;
+      const fromIndex = run.steps.indexOf(from);
+      check(fromIndex >= 1, "need a step with an upstream step to rerun from");
+      await goto(page, `${origin}/runs/${firstRunId}/rerun?from=${encodeURIComponent(from.label)}`, "rerun form");
+      const scope = page.locator(`[data-testid="rerun-step-${from.label}"]`);
+      await scope.waitFor();
+      // Change the high corner of the filter if there is one, else the first number field.
+      const field = from.stepId === "frequency-filter" ? scope.locator(`#f-${from.label}-highCutHz`) : scope.locator("input[type=number]").first();
+      check(await field.count(), `no numeric setting on step ${from.label}`);
+      const before = Number(await field.inputValue());
+      // Bad input first: the form shows the field error and does not submit.
+      await field.fill("-1");
+      await page.click("[data-testid=start-rerun]");
+      await page.waitForSelector(`[data-testid="field-error-${from.label}.${from.stepId === "frequency-filter" ? "highCutHz" : ""}"], [data-testid^="field-error-${from.label}."]`);
+      check(page.url().includes("/rerun"), "a bad value must not start a run");
+      await field.fill(String(before === 90 ? 100 : 90));
+      await shoot(page, "rerun-form");
+      await page.click("[data-testid=start-rerun]");
+      await page.waitForURL(/\/runs\/\d+$/, { timeout: 20_000 });
+      rerunId = Number(page.url().split("/").pop());
+      check(rerunId > firstRunId, "the rerun did not open a new run page");
+      const deadline = Date.now() + 180_000;
+      let detail = await apiRun(page, origin, rerunId);
+      while ((detail.status === "queued" || detail.status === "running") && Date.now() < deadline) {
+        await page.waitForTimeout(1000);
+        detail = await apiRun(page, origin, rerunId);
+      }
+      check(detail.status === "succeeded", `rerun ended ${detail.status}`);
+      const upstream = detail.steps.slice(0, fromIndex);
+      check(upstream.every((s) => s.cacheHit), `upstream steps not reused: ${upstream.filter((s) => !s.cacheHit).map((s) => s.label).join(", ")}`);
+      await page.reload();
+      await page.waitForSelector("[data-testid=cache-hit]");
+      check((await page.locator("[data-cache-hit=yes]").count()) >= fromIndex, "the page does not show the reused steps");
+      await shoot(page, "rerun-result");
+    });
+
+    await test("compare settings: the changed setting is highlighted side by side", async () => {
+      check(rerunId, "needs the rerun from the previous test");
+      await goto(page, `${origin}/compare?a=${firstRunId}&b=${rerunId}`, "compare");
+      await page.waitForSelector("[data-testid=param-diff]");
+      check((await page.locator("[data-differs=yes]").count()) >= 1, "no differing setting shown");
+      await shoot(page, "compare");
+    });
+
+    await test("auditor: no rerun button, and the rerun API answers 403 with a message", async () => {
+      await signIn(page, origin, account("auditor").email, account("auditor").password);
+      check((await page.locator("nav >> text=Start a run").count()) === 0, "auditor must not see Start a run");
+      await goto(page, `${origin}/runs/${firstRunId}`);
+      await page.waitForSelector("[data-testid=step-panel]");
+      check((await page.locator("[data-testid=rerun-button]").count()) === 0, "auditor sees a rerun button");
+      const res = await page.request.post(`${origin}/api/runs/${firstRunId}/rerun`, { data: { fromLabel: "geometry", overrides: {} } });
+      check(res.status() === 403, `expected 403, got ${res.status()}`);
+      const body = (await res.json()) as { error: { message: string } };
+      check(/may not rerun/.test(body.error.message), `unexpected message: ${body.error.message}`);
+      await goto(page, `${origin}/runs/${firstRunId}/rerun?from=geometry`);
+      check((await page.textContent("body"))?.includes("Not allowed for your role"), "rerun page not refused");
+    });
+
+    await test("lead approves a run; the audit trail records it", async () => {
+      await signIn(page, origin, account("lead").email, account("lead").password);
+      await goto(page, `${origin}/runs/${firstRunId}`);
+      await page.fill("#review-comment", "Stack and geometry checked against the field log.");
+      await page.click("[data-testid=review-panel] >> text=Approve");
+      await page.waitForFunction(() => document.querySelector("[data-testid=review-panel]")?.textContent?.includes("Approved by Rosa Okafor-Lind"));
+      await goto(page, `${origin}/audit?action=review.approve`, "audit trail");
+      check((await page.textContent("[data-testid=audit-table]"))?.includes("Rosa Okafor-Lind"), "approval not in the audit trail");
+      await goto(page, `${origin}/audit`);
+      await shoot(page, "audit");
+    });
+
+    await test("admin invites someone by mail and deactivates them", async () => {
+      await signIn(page, origin, account("admin").email, account("admin").password);
+      await goto(page, `${origin}/people`, "people");
+      await page.fill("#new-name", "Piet Anand");
+      const email = `piet.anand.${Date.now().toString(36)}@corvell.example`;
+      await page.fill("#new-email", email);
+      await page.selectOption("#new-role", "processor");
+      await page.click("text=Add or invite");
+      await page.waitForSelector("[role=status]");
+      check((await page.textContent("[role=status]"))?.includes("mailed"), "invitation not reported as mailed");
+      const msg = mail.messages.find((m) => m.to.includes(email));
+      check(msg && /temporary password/i.test(msg.raw), "no invitation reached the mail catcher");
+      const row = page.locator(`[data-testid="user-${email}"]`);
+      await row.locator("text=Deactivate").click();
+      await row.locator("text=Deactivated").waitFor();
+      await shoot(page, "people");
+    });
+  } finally {
+    await browser.close();
+    await server.stop();
+    await mail.close();
+    if (!reuse && !keep) fs.rmSync(dataDir, { recursive: true, force: true });
+  }
+
+  process.stdout.write("\nMeasured:\n");
+  for (const [k, v] of Object.entries(measured)) process.stdout.write(`  ${k}: ${v}\n`);
+  if (screenshots) fs.writeFileSync(path.join(shotsDir, "measurements.json"), JSON.stringify(measured, null, 2) + "\n");
+  const failed = outcomes.filter((o) => o.status === "fail").length;
+  const skipped = outcomes.filter((o) => o.status === "skip").length;
+  process.stdout.write(`\n${outcomes.length - failed - skipped} passed, ${failed} failed, ${skipped} skipped\n`);
+  process.exit(failed ? 1 : 0);
+}
+
+main().catch((err) => {
+  process.stderr.write(`browser tests: ${(err as Error).stack ?? err}\n`);
+  process.exit(1);
+});
