@@ -53,7 +53,11 @@ export async function runTraceBlocks<R>(
   return Promise.all(pending);
 }
 
-/** Runs a trace-to-trace transform over blocks and assembles the output gather data. */
+/**
+ * Runs a trace-to-trace transform over blocks and assembles the output gather data. The output
+ * may have another number of samples per trace than the input (resampling): it is taken from
+ * the blocks' results.
+ */
 export async function transformTraceBlocks(
   ctx: Pick<StepContext, "pool">,
   data: Float32Array,
@@ -63,7 +67,11 @@ export async function transformTraceBlocks(
 ): Promise<Float32Array> {
   const parts = await runTraceBlocks(ctx, data, traceCount, sampleCount, job);
   if (parts.length === 1) return parts[0].result;
-  const out = new Float32Array(traceCount * sampleCount);
-  for (const p of parts) out.set(p.result, p.firstTrace * sampleCount);
+  const perTrace = parts[0].result.length / parts[0].traceCount;
+  const out = new Float32Array(traceCount * perTrace);
+  for (const p of parts) {
+    if (p.result.length !== p.traceCount * perTrace) throw new RangeError(`block at trace ${p.firstTrace} returned ${p.result.length} samples, expected ${p.traceCount * perTrace}`);
+    out.set(p.result, p.firstTrace * perTrace);
+  }
   return out;
 }
