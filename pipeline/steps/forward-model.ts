@@ -34,6 +34,15 @@ export const forwardModelParams = z
       .optional()
       .describe("Delay of the source-time function, s; default 1.2/rickerPeakHz for the Ricker wavelet (it then starts near zero), 0 for a wavelet from the slot"),
     pmlCells: z.number().int().min(0).max(200).default(20).describe("Thickness of the absorbing boundary (convolutional PML) on the sides and bottom, grid cells"),
+    pmlSmoothingCells: z
+      .number()
+      .int()
+      .min(0)
+      .max(20)
+      .default(0)
+      .describe(
+        "Average the medium along the boundary inside the absorbing strips over ± this many cells; 2 to 4 keeps long runs stable in models rough cell by cell at their edges, at the price of returns from sharp layer boundaries",
+      ),
     freeSurface: z.boolean().default(true).describe("Stress-free top surface; off = absorbing on all four sides"),
     dtS: z.number().positive().optional().describe("Solver time step, s; default 0.9 of the stability limit 0.606·dx/vmax, fitted to the output sample interval"),
     minPointsPerWavelength: z
@@ -125,7 +134,7 @@ export const forwardModelStep = defineStep({
     // One wavelet for all shots unless the slot has one per gather.
     const perShotWavelet = p.waveletFrom === "wavelet-slot" && (input.wavelet?.gathers.length ?? 0) > 1;
     const common = {
-      mode: p.mode, sourceKind, component, pmlCells: p.pmlCells, freeSurface: p.freeSurface, dtS: p.dtS,
+      mode: p.mode, sourceKind, component, pmlCells: p.pmlCells, pmlSmoothingCells: p.pmlSmoothingCells, freeSurface: p.freeSurface, dtS: p.dtS,
       minPointsPerWavelength: p.minPointsPerWavelength, snapshotTimesS: p.snapshotTimesS.length > 0 ? p.snapshotTimesS : undefined,
     };
     const wavelets = perShotWavelet ? Object.fromEntries(templates.map((t) => [t.id, waveletFor(p, t.id, input.wavelet)])) : undefined;

@@ -44,6 +44,12 @@ export interface SimulationOptions {
   kernel?: "wasm" | "reference";
   /** PML theoretical reflection coefficient. Default 1e-3 (Komatitsch & Martin 2007). */
   pmlReflection?: number;
+  /**
+   * Half-width, cells, of an along-boundary average of the medium inside the absorbing strips.
+   * Default 0 (the strips continue the edge cells). Use 2 to 4 for models rough cell by cell at
+   * their edges, which can otherwise grow slowly in long runs; it reflects at sharp layer boundaries.
+   */
+  pmlSmoothingCells?: number;
   /** When this shared flag becomes non-zero the run stops with an AbortError (checked every 64 steps). */
   cancelFlag?: Int32Array;
 }
@@ -70,6 +76,7 @@ export interface SimulationResult {
 }
 
 const f32 = Math.fround;
+
 
 /** Grid offsets (column, row) of each quantity's staggered position. */
 function stagger(component: VelocityComponent | "stress"): [number, number] {
@@ -121,7 +128,16 @@ function pointStencil(layout: FdLayout, col: number, row: number, component: Vel
 }
 
 /** Fills material and PML coefficient arrays for `model` into `mem`. */
-function fillCoefficients(layout: FdLayout, mem: Float32Array, model: ElasticModel, dt: number, vmax: number, f0: number, reflection: number) {
+function fillCoefficients(
+  layout: FdLayout,
+  mem: Float32Array,
+  model: ElasticModel,
+  dt: number,
+  vmax: number,
+  f0: number,
+  reflection: number,
+  smoothingCells = 0,
+) {
   const { nx, nrows, nxv, rowFloats, org, colOffset, rowOffset, modelNx, modelNz } = layout;
   const h = model.spacingM;
   const s = dt / h;
@@ -130,17 +146,57 @@ function fillCoefficients(layout: FdLayout, mem: Float32Array, model: ElasticMod
   const rho = new Float64Array(nc);
   const lam = new Float64Array(nc);
   const mu = new Float64Array(nc);
+  const cell = (mz: number, mx: number, out: Float64Array) => {
+    const k = mz * modelNx + mx;
+    const r = model.rho[k];
+    const vs = model.vs[k];
+    const vp = model.vp[k];
+    out[0] = r;
+    out[1] = r * vs * vs;
+    out[2] = r * (vp * vp - 2 * vs * vs);
+  };
+  const one = new Float64Array(3);
+  const sum = new Float64Array(3);
+  const half = smoothingCells;
   for (let j = 0; j < nrows; j++) {
     const mz = Math.min(modelNz - 1, Math.max(0, j - rowOffset));
+    const zOut = j - rowOffset < 0 || j - rowOffset >= modelNz;
     for (let i = 0; i < nx; i++) {
       const mx = Math.min(modelNx - 1, Math.max(0, i - colOffset));
-      const k = mz * modelNx + mx;
-      const r = model.rho[k];
-      const vs = model.vs[k];
-      const vp = model.vp[k];
-      rho[j * nx + i] = r;
-      mu[j * nx + i] = r * vs * vs;
-      lam[j * nx + i] = r * (vp * vp - 2 * vs * vs);
+      const xOut = i - colOffset < 0 || i - colOffset >= modelNx;
+      if (xOut === zOut) {
+        // Inside the model, or a corner: the (edge) cell itself.
+        cell(mz, mx, sum);
+      } else {
+        // Absorbing strip: the edge cells, averaged along the boundary over ±half cells when asked.
+        // A PML over a medium that is rough cell by cell along the boundary can grow slowly after
+        // many steps (observed with independent random Vp and Vs per cell and a free surface);
+        // the average keeps such runs stable but reflects at sharp layer boundaries, so it is off
+        // by default.
+        sum.fill(0);
+        let n = 0;
+        for (let d = -half; d <= half; d++) {
+          if (xOut) {
+            const z = mz + d;
+            if (z < 0 || z >= modelNz) continue;
+            cell(z, mx, one);
+          } else {
+            const x = mx + d;
+            if (x < 0 || x >= modelNx) continue;
+            cell(mz, x, one);
+          }
+          sum[0] += one[0];
+          sum[1] += one[1];
+          sum[2] += one[2];
+          n++;
+        }
+        sum[0] /= n;
+        sum[1] /= n;
+        sum[2] /= n;
+      }
+      rho[j * nx + i] = sum[0];
+      mu[j * nx + i] = sum[1];
+      lam[j * nx + i] = sum[2];
     }
   }
   const at = (a: Float64Array, j: number, i: number) => a[Math.min(nrows - 1, j) * nx + Math.min(nx - 1, i)];
@@ -269,7 +325,9 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
   const { kernel, layout, mem } = createKernel(opts.kernel ?? "wasm", {
     mode, modelNx: model.nx, modelNz: model.nz, pmlCells, freeSurface,
   });
-  fillCoefficients(layout, mem, model, dt, vmax, band.peakHz > 0 ? band.peakHz : 1 / (10 * dt), opts.pmlReflection ?? 1e-3);
+  const smoothing = opts.pmlSmoothingCells ?? 0;
+  if (!Number.isInteger(smoothing) || smoothing < 0) throw new RangeError(`pmlSmoothingCells must be an integer ≥ 0, got ${smoothing}`);
+  fillCoefficients(layout, mem, model, dt, vmax, band.peakHz > 0 ? band.peakHz : 1 / (10 * dt), opts.pmlReflection ?? 1e-3, smoothing);
 
   const toCol = (x: number) => layout.colOffset + (x - model.originX) / h;
   const toRow = (z: number) => layout.rowOffset + (z - model.originZ) / h;
