@@ -3,7 +3,7 @@ import type { Command } from "commander";
 import { AppError } from "../../pipeline/errors";
 import { action, printJson } from "../shared";
 
-const PARTS = ["readers", "solver"] as const;
+const PARTS = ["readers", "signal", "solver"] as const;
 type Part = (typeof PARTS)[number];
 
 function parseGrid(text: string): { nx: number; nz: number } {
@@ -42,6 +42,13 @@ export function registerBench(program: Command): void {
           out(`  SEG-2 int16 big-endian       ${r.seg2Int16BigEndianMBps.toFixed(0)}`);
           out(`  SEG-Y IEEE float             ${r.segyMBps.toFixed(0)}`);
           out(`  SEG-Y IBM float              ${r.segyIbmMBps.toFixed(0)}`);
+        }
+        if (want("signal")) {
+          const { benchSignalSteps } = await import("../../pipeline/bench/signal");
+          const rows = await benchSignalSteps();
+          results.signal = rows;
+          out("signal steps (96 traces × 4,000 samples, one core, ms):");
+          for (const r of rows) out(`  ${r.step.padEnd(66)} ${r.ms.toFixed(1)}`);
         }
         if (want("solver")) {
           const { benchSolver, formatSolverBench } = await import("../../pipeline/bench/solver");
