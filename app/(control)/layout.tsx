@@ -1,3 +1,4 @@
+import Link from "next/link";
 import { pageUser } from "@/app/lib/page-user";
 import { can, ROLE_LABELS } from "@/app/lib/permissions";
 import { MainNav } from "@/app/ui/shell/main-nav";
@@ -18,11 +19,11 @@ export default async function ControlLayout({ children }: { children: React.Reac
     <div className="min-h-screen">
       <header className="border-b border-line bg-panel">
         <div className="mx-auto flex h-14 max-w-[1400px] items-center gap-6 px-5">
-          <a href="/runs" className="flex items-center gap-2 font-semibold">
+          <Link href="/runs" className="flex items-center gap-2 font-semibold">
             {/* eslint-disable-next-line @next/next/no-img-element */}
             <img src="/icon.svg" alt="" width={24} height={24} />
             Tracewright
-          </a>
+          </Link>
           <MainNav links={links} />
           <div className="ml-auto flex items-center gap-3 text-sm">
             <span data-testid="signed-in-as">

@@ -50,6 +50,16 @@ function fieldSchema(doc: ParamDoc): z.ZodType {
 
 const isJsonKind = (d: ParamDoc) => d.type === "array" || d.type === "object";
 
+/** " Range 0 to 1.", leaving out limits that only say "any safe integer". */
+function rangeText(d: ParamDoc): string {
+  const lo = d.minimum !== undefined && Math.abs(d.minimum) < Number.MAX_SAFE_INTEGER ? d.minimum : undefined;
+  const hi = d.maximum !== undefined && Math.abs(d.maximum) < Number.MAX_SAFE_INTEGER ? d.maximum : undefined;
+  if (lo === undefined && hi === undefined) return "";
+  if (hi === undefined) return ` At least ${lo}.`;
+  if (lo === undefined) return ` At most ${hi}.`;
+  return ` Range ${lo} to ${hi}.`;
+}
+
 /** "lowCutHz" → "low cut (Hz)"-style hint of the unit, read from the name's suffix. */
 function unitOf(name: string): string | null {
   const m = /(Hz|Ms|S|M|Mps|Db|Percent|Kgm3)$/.exec(name);
@@ -156,8 +166,9 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
                   )}
                   <p className="mt-0.5 text-xs muted">
                     {d.description}
+                    {d.description && !/[.!?)]$/.test(d.description) ? "." : ""}
                     {d.default !== undefined ? ` Default ${JSON.stringify(d.default)}.` : ""}
-                    {d.minimum !== undefined || d.maximum !== undefined ? ` Range ${d.minimum ?? "…"} to ${d.maximum ?? "…"}.` : ""}
+                    {rangeText(d)}
                   </p>
                   {err ? <p className="mt-0.5 text-xs text-bad" role="alert" data-testid={`field-error-${name}`}>{err}</p> : null}
                 </div>

@@ -6,7 +6,7 @@ import type { LogLine } from "@/app/lib/view-types";
 
 const LEVEL_STYLE: Record<string, string> = { debug: "text-ink-faint", info: "text-ink", warn: "text-warn", error: "text-bad font-medium" };
 
-/** A step's (or a run's) log lines; new lines stream in while the run is live. */
+/** A step's (or a run's) log lines; new lines stream in while the run is live. Give it a `key` per step so it starts afresh. */
 export function LogStream({ runId, runStepId, live }: { runId: number; runStepId?: number; live: boolean }) {
   const [lines, setLines] = useState<LogLine[]>([]);
   const [error, setError] = useState<string | null>(null);
@@ -16,7 +16,6 @@ export function LogStream({ runId, runStepId, live }: { runId: number; runStepId
   useEffect(() => {
     let stopped = false;
     lastId.current = 0;
-    setLines([]);
     async function pull() {
       try {
         const q = new URLSearchParams();

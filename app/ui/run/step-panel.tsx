@@ -31,12 +31,12 @@ export function StepPanel({ run, step, canRerun, live }: { run: RunView; step: S
       <div className="grid gap-5 lg:grid-cols-2">
         <div>
           <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Settings used</h3>
-          <table className="w-full text-sm" data-testid="step-params">
+          <table className="w-full table-fixed text-sm" data-testid="step-params">
             <tbody>
               {Object.entries(step.params).map(([k, v]) => (
                 <tr key={k} className={`border-t border-line ${k in changed ? "bg-warn-soft" : ""}`}>
-                  <td className="py-1 pr-3 font-mono text-xs">{k}</td>
-                  <td className="py-1 font-mono text-xs">{formatValue(v)}{k in changed ? <span className="ml-2 rounded bg-warn px-1 text-[10px] text-white">changed in this rerun</span> : null}</td>
+                  <td className="w-2/5 py-1 pr-3 align-top font-mono text-xs break-words">{k}</td>
+                  <td className="py-1 align-top font-mono text-xs break-all">{formatValue(v)}{k in changed ? <span className="ml-2 rounded bg-warn px-1 text-[10px] text-white">changed in this rerun</span> : null}</td>
                 </tr>
               ))}
               {Object.keys(step.params).length === 0 ? <tr><td className="py-1 text-xs muted">No settings.</td></tr> : null}
@@ -75,7 +75,7 @@ export function StepPanel({ run, step, canRerun, live }: { run: RunView; step: S
 
       <div>
         <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Log</h3>
-        <LogStream runId={run.id} runStepId={step.id} live={live && (step.status === "running" || step.status === "waiting")} />
+        <LogStream key={step.id} runId={run.id} runStepId={step.id} live={live && (step.status === "running" || step.status === "waiting")} />
       </div>
     </section>
   );

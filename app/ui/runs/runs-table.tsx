@@ -18,6 +18,19 @@ interface Options {
 
 type SortKey = RunFilterParams["sort"];
 
+function SortHeader({ k, filter, go, children }: { k: SortKey; filter: RunFilterParams; go: (next: Partial<RunFilterParams>) => void; children: React.ReactNode }) {
+  const active = filter.sort === k;
+  const nextDir = active && filter.dir === "desc" ? "asc" : "desc";
+  return (
+    <th className="px-3 py-2 font-medium" aria-sort={active ? (filter.dir === "asc" ? "ascending" : "descending") : "none"}>
+      <button type="button" className={`inline-flex items-center gap-1 ${active ? "text-ink" : ""}`} onClick={() => go({ sort: k, dir: nextDir, page: 1 })}>
+        {children}
+        <span aria-hidden className="text-[10px]">{active ? (filter.dir === "asc" ? "▲" : "▼") : "↕"}</span>
+      </button>
+    </th>
+  );
+}
+
 /** The runs table: filters in the URL, sorting and paging on the server, live while runs go. */
 export function RunsTable({ filter, query, initial, options }: { filter: RunFilterParams; query: string; initial: RunListPage; options: Options }) {
   const router = useRouter();
@@ -32,19 +45,6 @@ export function RunsTable({ filter, query, initial, options }: { filter: RunFilt
     const f = new FormData(event.currentTarget);
     const get = (k: string) => (String(f.get(k) ?? "") || undefined) as never;
     go({ survey: get("survey"), pipeline: get("pipeline"), status: get("status"), person: get("person"), from: get("from"), to: get("to"), page: 1 });
-  }
-
-  function SortHeader({ k, children }: { k: SortKey; children: React.ReactNode }) {
-    const active = filter.sort === k;
-    const nextDir = active && filter.dir === "desc" ? "asc" : "desc";
-    return (
-      <th className="px-3 py-2 font-medium" aria-sort={active ? (filter.dir === "asc" ? "ascending" : "descending") : "none"}>
-        <button type="button" className={`inline-flex items-center gap-1 ${active ? "text-ink" : ""}`} onClick={() => go({ sort: k, dir: nextDir, page: 1 })}>
-          {children}
-          <span aria-hidden className="text-[10px]">{active ? (filter.dir === "asc" ? "▲" : "▼") : "↕"}</span>
-        </button>
-      </th>
-    );
   }
 
   return (
@@ -88,13 +88,13 @@ export function RunsTable({ filter, query, initial, options }: { filter: RunFilt
         <table className="w-full min-w-[900px] text-sm" data-testid="runs-table">
           <thead className="bg-ground text-left text-xs text-ink-soft">
             <tr>
-              <SortHeader k="created">Run</SortHeader>
-              <SortHeader k="status">Status</SortHeader>
-              <SortHeader k="pipeline">Pipeline</SortHeader>
+              <SortHeader k="created" filter={filter} go={go}>Run</SortHeader>
+              <SortHeader k="status" filter={filter} go={go}>Status</SortHeader>
+              <SortHeader k="pipeline" filter={filter} go={go}>Pipeline</SortHeader>
               <th className="px-3 py-2 font-medium">Survey · dataset</th>
               <th className="px-3 py-2 font-medium">Started by</th>
               <th className="px-3 py-2 font-medium">Steps</th>
-              <SortHeader k="duration">Duration</SortHeader>
+              <SortHeader k="duration" filter={filter} go={go}>Duration</SortHeader>
             </tr>
           </thead>
           <tbody>

@@ -1,6 +1,6 @@
 "use client";
 
-import { useEffect, useMemo, useState } from "react";
+import { useMemo, useState } from "react";
 import { useQuery } from "@tanstack/react-query";
 import { artifactQueries } from "@/app/lib/queries";
 import type { TraceHeaderWire } from "@/app/lib/view-types";
@@ -54,7 +54,6 @@ export function GatherViewer({
   const [settings, setSettings] = useState<DisplaySettings>({ mode: "both", gain: 1.5, clip: 1.5, scaling: "trace", spacing: "even" });
   const [lineKeys, setLineKeys] = useState<string[]>(() => lineSources.map((l) => l.key));
   const [flipShowsB, setFlipShowsB] = useState(false);
-  const [view, setView] = useState<ViewWindow | null>(null);
 
   const a = sources.find((s) => s.key === aKey);
   const b = mode === "single" ? undefined : sources.find((s) => s.key === bKey);
@@ -81,11 +80,11 @@ export function GatherViewer({
     return { ...ga, data: d };
   }, [ga, gb, mismatch]);
 
-  // Reset the zoom when the gather or the spacing changes.
-  useEffect(() => {
-    if (ga) setView(fullWindow(ga, settings));
-    // eslint-disable-next-line react-hooks/exhaustive-deps
-  }, [ga?.traces, ga?.samples, ga?.dtS, gid, settings.spacing]);
+  // The zoom belongs to one gather and spacing: another gather or spacing starts from the whole gather.
+  const [viewState, setViewState] = useState<{ key: string; view: ViewWindow } | null>(null);
+  const viewKey = `${aKey}|${gid}|${ga?.traces}|${ga?.samples}|${ga?.dtS}|${settings.spacing}`;
+  const view = ga ? (viewState && viewState.key === viewKey ? viewState.view : fullWindow(ga, settings)) : null;
+  const setView = (v: ViewWindow) => setViewState({ key: viewKey, view: v });
 
   const activeLines = lineSources.filter((l) => lineKeys.includes(l.key));
   const l0 = useQuery({ ...artifactQueries.lines(activeLines[0]?.hash ?? "", gid), enabled: Boolean(activeLines[0] && gid) });
