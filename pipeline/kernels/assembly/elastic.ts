@@ -108,18 +108,24 @@ export function configure(table: usize): void {
   pPz3 = <usize>load<i32>(table, 136);
 }
 
+// Each time step runs as one pass over the rows: the velocity update of row j, then the stress
+// update of row j - LAG, whose velocity neighbours (rows j-LAG-2 .. j-LAG+2) are new by then while
+// the stresses that row j reads (rows j-2 .. j+2) are still old. The rows in flight stay in cache,
+// so each array streams from memory once per step instead of twice. Per cell the operations and
+// their order are those of a velocity pass over the whole grid followed by a stress pass.
+const LAG = 3;
+
 // ---------------------------------------------------------------------------------------------
 // P-SV
 
-/** Velocity update vx, vz from the stresses, then the PML terms. */
-export function psvVelocity(): void {
+/** Velocity update of row j: vx, vz from the stresses. */
+@inline
+function psvVelocityRow(j: i32): void {
   const c1 = f32x4.splat(C1);
   const c2 = f32x4.splat(C2);
   const r = rb;
-  const n = (<usize>nxv) << 2;
-  for (let j = 0; j < nrows; j++) {
-    const base = org + <usize>j * r;
-    const end = base + n;
+  const base = org + <usize>j * r;
+  const end = base + ((<usize>nxv) << 2);
     for (let o = base; o < end; o += 16) {
       // vx at (i+1/2, j): d sxx/dx + d sxz/dz
       const ps = pF2 + o - 4;
@@ -151,24 +157,17 @@ export function psvVelocity(): void {
       const pvz = pF1 + o;
       v128.store(pvz, f32x4.add(v128.load(pvz), f32x4.mul(v128.load(pM1 + o), f32x4.add(dxq, dzz))));
     }
-  }
-  // PML: vx gets d sxx/dx (half x) and d sxz/dz (integer z); vz gets d sxz/dx (integer x), d szz/dz (half z).
-  pmlX(1, pF2, pPx0, pAxH, pBxH, pF0, pM0, 0, 0);
-  pmlX(0, pF4, pPx1, pAxI, pBxI, pF1, pM1, 0, 0);
-  pmlZ(0, pF4, pPz0, pAzI, pBzI, pF0, pM0, 0, 0);
-  pmlZ(1, pF3, pPz1, pAzH, pBzH, pF1, pM1, 0, 0);
 }
 
-/** Stress update sxx, szz, sxz from the velocities, then the PML terms, then the free surface. */
-export function psvStress(): void {
+/** Stress update of row j: sxx, szz, sxz from the velocities. */
+@inline
+function psvStressRow(j: i32): void {
   const c1 = f32x4.splat(C1);
   const c2 = f32x4.splat(C2);
   const r = rb;
-  const n = (<usize>nxv) << 2;
-  for (let j = 0; j < nrows; j++) {
-    const base = org + <usize>j * r;
-    const end = base + n;
-    const surfaceRow = freeSurface && j == 0;
+  const base = org + <usize>j * r;
+  const end = base + ((<usize>nxv) << 2);
+  const surfaceRow = freeSurface && j == 0;
     for (let o = base; o < end; o += 16) {
       // d vx/dx at i: vx(i)-vx(i-1), vx(i+1)-vx(i-2)
       const pv = pF0 + o - 8;
@@ -211,37 +210,65 @@ export function psvStress(): void {
       const pq = pF4 + o;
       v128.store(pq, f32x4.add(v128.load(pq), f32x4.mul(v128.load(pM4 + o), f32x4.add(dzvx, dxvz))));
     }
+}
+
+// PML: vx gets d sxx/dx (half x) and d sxz/dz (integer z); vz gets d sxz/dx (integer x), d szz/dz (half z).
+function psvVelocityPml(j: i32): void {
+  pmlXRow(1, pF2, pPx0, pAxH, pBxH, pF0, pM0, 0, 0, j);
+  pmlXRow(0, pF4, pPx1, pAxI, pBxI, pF1, pM1, 0, 0, j);
+  pmlZRowIf(0, pF4, pPz0, pAzI, pBzI, pF0, pM0, 0, 0, j);
+  pmlZRowIf(1, pF3, pPz1, pAzH, pBzH, pF1, pM1, 0, 0, j);
+}
+
+// PML: sxx, szz get d vx/dx (integer x) and d vz/dz (integer z); sxz gets d vx/dz (half z), d vz/dx (half x).
+function psvStressPml(j: i32): void {
+  pmlXRow(0, pF0, pPx2, pAxI, pBxI, pF2, pM2, pF3, pM3, j);
+  pmlZRowIf(0, pF1, pPz2, pAzI, pBzI, pF2, pM3, pF3, pM2, j);
+  pmlZRowIf(1, pF0, pPz3, pAzH, pBzH, pF4, pM4, 0, 0, j);
+  pmlXRow(1, pF1, pPx3, pAxH, pBxH, pF4, pM4, 0, 0, j);
+}
+
+function psvSurface(): void {
+  const r = rb;
+  const n4 = <usize>nx << 2;
+  for (let o: usize = 0; o < n4; o += 4) {
+    const a = org + o;
+    store<f32>(pF3 + a, 0);
+    store<f32>(pF3 + a - r, -load<f32>(pF3 + a + r));
+    store<f32>(pF3 + a - 2 * r, -load<f32>(pF3 + a + 2 * r));
+    store<f32>(pF4 + a - r, -load<f32>(pF4 + a));
+    store<f32>(pF4 + a - 2 * r, -load<f32>(pF4 + a + r));
   }
-  // PML: sxx, szz get d vx/dx (integer x) and d vz/dz (integer z); sxz gets d vx/dz (half z), d vz/dx (half x).
-  pmlX(0, pF0, pPx2, pAxI, pBxI, pF2, pM2, pF3, pM3);
-  pmlZ(0, pF1, pPz2, pAzI, pBzI, pF2, pM3, pF3, pM2);
-  pmlZ(1, pF0, pPz3, pAzH, pBzH, pF4, pM4, 0, 0);
-  pmlX(1, pF1, pPx3, pAxH, pBxH, pF4, pM4, 0, 0);
-  if (freeSurface) {
-    const n4 = <usize>nx << 2;
-    for (let o: usize = 0; o < n4; o += 4) {
-      const a = org + o;
-      store<f32>(pF3 + a, 0);
-      store<f32>(pF3 + a - r, -load<f32>(pF3 + a + r));
-      store<f32>(pF3 + a - 2 * r, -load<f32>(pF3 + a + 2 * r));
-      store<f32>(pF4 + a - r, -load<f32>(pF4 + a));
-      store<f32>(pF4 + a - 2 * r, -load<f32>(pF4 + a + r));
+}
+
+/** One P-SV time step: velocities, then stresses (with PML terms), then the free surface. */
+export function psvStep(): void {
+  const total = nrows + LAG;
+  for (let j = 0; j < total; j++) {
+    if (j < nrows) {
+      psvVelocityRow(j);
+      psvVelocityPml(j);
+    }
+    const k = j - LAG;
+    if (k >= 0) {
+      psvStressRow(k);
+      psvStressPml(k);
     }
   }
+  if (freeSurface) psvSurface();
 }
 
 // ---------------------------------------------------------------------------------------------
 // SH
 
-/** Velocity update vy from sxy, syz, then the PML terms. */
-export function shVelocity(): void {
+/** Velocity update of row j: vy from sxy, syz. */
+@inline
+function shVelocityRow(j: i32): void {
   const c1 = f32x4.splat(C1);
   const c2 = f32x4.splat(C2);
   const r = rb;
-  const n = (<usize>nxv) << 2;
-  for (let j = 0; j < nrows; j++) {
-    const base = org + <usize>j * r;
-    const end = base + n;
+  const base = org + <usize>j * r;
+  const end = base + ((<usize>nxv) << 2);
     for (let o = base; o < end; o += 16) {
       // d sxy/dx at i: sxy(i)-sxy(i-1), sxy(i+1)-sxy(i-2)
       const ps = pF1 + o - 8;
@@ -260,20 +287,16 @@ export function shVelocity(): void {
       const pv = pF0 + o;
       v128.store(pv, f32x4.add(v128.load(pv), f32x4.mul(v128.load(pM0 + o), f32x4.add(dx, dz))));
     }
-  }
-  pmlX(0, pF1, pPx0, pAxI, pBxI, pF0, pM0, 0, 0);
-  pmlZ(0, pF2, pPz0, pAzI, pBzI, pF0, pM0, 0, 0);
 }
 
-/** Stress update sxy, syz from vy, then the PML terms, then the free surface. */
-export function shStress(): void {
+/** Stress update of row j: sxy, syz from vy. */
+@inline
+function shStressRow(j: i32): void {
   const c1 = f32x4.splat(C1);
   const c2 = f32x4.splat(C2);
   const r = rb;
-  const n = (<usize>nxv) << 2;
-  for (let j = 0; j < nrows; j++) {
-    const base = org + <usize>j * r;
-    const end = base + n;
+  const base = org + <usize>j * r;
+  const end = base + ((<usize>nxv) << 2);
     for (let o = base; o < end; o += 16) {
       // d vy/dx at i+1/2: vy(i+1)-vy(i), vy(i+2)-vy(i-1)
       const pv = pF0 + o - 4;
@@ -293,18 +316,36 @@ export function shStress(): void {
       const p2 = pF2 + o;
       v128.store(p2, f32x4.add(v128.load(p2), f32x4.mul(v128.load(pM2 + o), dz)));
     }
+}
+
+function shSurface(): void {
+  // syz = 0 at z = 0 (the vy row): syz(-1/2) = -syz(1/2), syz(-3/2) = -syz(3/2).
+  const r = rb;
+  const n4 = <usize>nx << 2;
+  for (let o: usize = 0; o < n4; o += 4) {
+    const a = pF2 + org + o;
+    store<f32>(a - r, -load<f32>(a));
+    store<f32>(a - 2 * r, -load<f32>(a + r));
   }
-  pmlX(1, pF0, pPx1, pAxH, pBxH, pF1, pM1, 0, 0);
-  pmlZ(1, pF0, pPz1, pAzH, pBzH, pF2, pM2, 0, 0);
-  if (freeSurface) {
-    // syz = 0 at z = 0 (the vy row): syz(-1/2) = -syz(1/2), syz(-3/2) = -syz(3/2).
-    const n4 = <usize>nx << 2;
-    for (let o: usize = 0; o < n4; o += 4) {
-      const a = pF2 + org + o;
-      store<f32>(a - r, -load<f32>(a));
-      store<f32>(a - 2 * r, -load<f32>(a + r));
+}
+
+/** One SH time step: velocity, then stresses (with PML terms), then the free surface. */
+export function shStep(): void {
+  const total = nrows + LAG;
+  for (let j = 0; j < total; j++) {
+    if (j < nrows) {
+      shVelocityRow(j);
+      pmlXRow(0, pF1, pPx0, pAxI, pBxI, pF0, pM0, 0, 0, j);
+      pmlZRowIf(0, pF2, pPz0, pAzI, pBzI, pF0, pM0, 0, 0, j);
+    }
+    const k = j - LAG;
+    if (k >= 0) {
+      shStressRow(k);
+      pmlXRow(1, pF0, pPx1, pAxH, pBxH, pF1, pM1, 0, 0, k);
+      pmlZRowIf(1, pF0, pPz1, pAzH, pBzH, pF2, pM2, 0, 0, k);
     }
   }
+  if (freeSurface) shSurface();
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -331,15 +372,13 @@ function pmlXCell(sh: i32, src: usize, psi: usize, a: usize, b: usize,
   if (f2 != 0) store<f32>(f2 + o, load<f32>(f2 + o) + load<f32>(m2 + o) * v);
 }
 
-function pmlX(sh: i32, src: usize, psi: usize, a: usize, b: usize,
-  f1: usize, m1: usize, f2: usize, m2: usize): void {
+function pmlXRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
+  f1: usize, m1: usize, f2: usize, m2: usize, j: i32): void {
   if (wx == 0) return;
   const right = nx - wx;
-  for (let j = 0; j < nrows; j++) {
-    const surface = freeSurface && j == 0 && f2 != 0;
-    for (let i = 0; i < wx; i++) pmlXCell(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i, surface);
-    for (let i = right; i < nx; i++) pmlXCell(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i - right + wx, surface);
-  }
+  const surface = freeSurface && j == 0 && f2 != 0;
+  for (let i = 0; i < wx; i++) pmlXCell(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i, surface);
+  for (let i = right; i < nx; i++) pmlXCell(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i - right + wx, surface);
 }
 
 @inline
@@ -364,9 +403,9 @@ function pmlZRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
   }
 }
 
-function pmlZ(sh: i32, src: usize, psi: usize, a: usize, b: usize,
-  f1: usize, m1: usize, f2: usize, m2: usize): void {
-  for (let j = 0; j < wzTop; j++) pmlZRow(sh, src, psi, a, b, f1, m1, f2, m2, j, j);
+function pmlZRowIf(sh: i32, src: usize, psi: usize, a: usize, b: usize,
+  f1: usize, m1: usize, f2: usize, m2: usize, j: i32): void {
   const bottom = nrows - wzBot;
-  for (let j = bottom; j < nrows; j++) pmlZRow(sh, src, psi, a, b, f1, m1, f2, m2, j, j - bottom + wzTop);
+  if (j < wzTop) pmlZRow(sh, src, psi, a, b, f1, m1, f2, m2, j, j);
+  else if (j >= bottom) pmlZRow(sh, src, psi, a, b, f1, m1, f2, m2, j, j - bottom + wzTop);
 }

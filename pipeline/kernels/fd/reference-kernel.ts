@@ -18,8 +18,14 @@ const f = Math.fround;
 export const FD_C1 = f(9 / 8);
 export const FD_C2 = f(-1 / 24);
 
-/** A kernel advances the fields held in its buffer by one half step at a time. */
+/** A kernel advances the fields held in its buffer by one time step. */
 export interface FdKernel {
+  /** Velocities from stresses (plus PML terms), then stresses from velocities (plus PML terms and free surface). */
+  step(): void;
+}
+
+/** The reference kernel's two half steps, exposed for reading and testing. */
+export interface ReferenceKernel extends FdKernel {
   /** Velocities from stresses (plus PML terms). */
   velocity(): void;
   /** Stresses from velocities (plus PML terms and free surface). */
@@ -32,7 +38,7 @@ function d4(a: Float32Array, k: number, s: number): number {
 }
 
 /** Creates the reference kernel over `mem` (the whole buffer as float32) with `layout`. */
-export function createReferenceKernel(layout: FdLayout, mem: Float32Array): FdKernel {
+export function createReferenceKernel(layout: FdLayout, mem: Float32Array): ReferenceKernel {
   const L = layout;
   const o = L.offsets;
   const r = L.rowFloats;
@@ -92,6 +98,10 @@ export function createReferenceKernel(layout: FdLayout, mem: Float32Array): FdKe
     const [vx, vz, sxx, szz, sxz] = F;
     const [bx, bz, mm, ll, mu] = M;
     return {
+      step() {
+        this.velocity();
+        this.stress();
+      },
       velocity() {
         for (let j = 0; j < L.nrows; j++) {
           for (let i = 0; i < L.nxv; i++) {
@@ -156,6 +166,10 @@ export function createReferenceKernel(layout: FdLayout, mem: Float32Array): FdKe
   const [vy, sxy, syz] = F;
   const [b, mux, muz] = M;
   return {
+    step() {
+      this.velocity();
+      this.stress();
+    },
     velocity() {
       for (let j = 0; j < L.nrows; j++) {
         for (let i = 0; i < L.nxv; i++) {

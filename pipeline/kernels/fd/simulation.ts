@@ -392,19 +392,20 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
       err.name = "AbortError";
       throw err;
     }
-    kernel.velocity();
+    // Sources enter between steps: a force adds its impulse dt·F(t_n)/(ρh²) to the velocities
+    // before step n updates them; an explosive source adds to the stresses of step n−1, at
+    // (n − ½)·dt, before step n reads them.
     if (!sourceAtStress) {
       const v = stf[n];
       for (const s of src) mem[s.index] = f32(mem[s.index] + f32(s.scale * v));
-    }
-    kernel.stress();
-    if (sourceAtStress) {
-      const v = stf[n];
+    } else if (n > 0) {
+      const v = stf[n - 1];
       for (const s of src) {
         mem[s.index] = f32(mem[s.index] + f32(s.scale * v));
         if (s.mirror >= 0) mem[s.mirror] = -mem[s.index];
       }
     }
+    kernel.step();
     for (let r = 0; r < nrec; r++) {
       let acc = 0;
       for (let k = recStart[r]; k < recStart[r + 1]; k++) acc += mem[recIdx[k]] * recW[k];
@@ -469,9 +470,8 @@ export function timeKernelSteps(opts: {
   let t0 = 0;
   for (let n = 0; n < warm + steps; n++) {
     if (n === warm) t0 = performance.now();
-    kernel.velocity();
     mem[at] += 1e-3 * ricker(n * dt, peak, 1.2 / peak);
-    kernel.stress();
+    kernel.step();
   }
   return { seconds: (performance.now() - t0) / 1000, computationalCells: layout.nx * layout.nrows };
 }

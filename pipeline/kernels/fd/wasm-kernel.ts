@@ -12,10 +12,8 @@ interface ElasticExports {
   memory: WebAssembly.Memory;
   heapBase(): number;
   configure(table: number): void;
-  psvVelocity(): void;
-  psvStress(): void;
-  shVelocity(): void;
-  shStress(): void;
+  psvStep(): void;
+  shStep(): void;
 }
 
 const WASM_URL = new URL("../wasm/elastic.wasm", import.meta.url);
@@ -69,9 +67,8 @@ export function createWasmKernel(opts: {
   // Fresh memory is zero; keep it so (a reused instance would need clearing).
   writeConfigTable(layout, new Int32Array(buf));
   ex.configure(layout.table * 4);
-  const kernel: FdKernel =
-    opts.mode === "psv"
-      ? { velocity: ex.psvVelocity, stress: ex.psvStress }
-      : { velocity: ex.shVelocity, stress: ex.shStress };
+  // One exported call per time step: the engine optimises a WebAssembly function on a later call,
+  // so the time loop stays out here.
+  const kernel: FdKernel = { step: opts.mode === "psv" ? ex.psvStep : ex.shStep };
   return { kernel, layout, mem };
 }
