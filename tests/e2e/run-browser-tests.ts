@@ -5,7 +5,7 @@
  * and prints what it measured (page load, trace panel draw time).
  *
  * Options: --keep (leave the temp folder), --data DIR (reuse a prepared data folder),
- * --no-screenshots.
+ * --screenshots (write docs/screenshots/*.png at 1440 and 1024 px and measurements.json).
  */
 import fs from "node:fs";
 import os from "node:os";
@@ -18,7 +18,7 @@ import { ensureBuild, pageLoadMs, prepareData, projectRoot, signIn, startBrowser
 const argv = process.argv.slice(2);
 const keep = argv.includes("--keep");
 const reuse = argv.includes("--data") ? argv[argv.indexOf("--data") + 1] : undefined;
-const screenshots = !argv.includes("--no-screenshots");
+const screenshots = argv.includes("--screenshots");
 const shotsDir = path.join(projectRoot, "docs", "screenshots");
 
 const account = (role: string) => {
@@ -235,9 +235,11 @@ async function main() {
       await goto(page, `${origin}/runs/${modelRun}`, "run page with model");
       await page.waitForSelector("[data-testid=model-canvas]");
       check(await page.locator("[data-testid=model-cautions]").count(), "cautions missing beside the model");
-      const box = await page.locator("[data-testid=model-canvas]").first().boundingBox();
+      const canvas = page.locator("[data-testid=model-canvas]").first();
+      await canvas.scrollIntoViewIfNeeded();
+      const box = await canvas.boundingBox();
       check(box, "model canvas not laid out");
-      await page.mouse.click(box.x + box.width * 0.45, box.y + box.height * 0.5);
+      await canvas.click({ position: { x: box.width * 0.45, y: box.height * 0.5 } });
       await page.waitForFunction(() => !document.querySelector("[data-testid=model-section]")?.textContent?.includes("No position chosen"));
       await page.locator("[data-testid=model-section]").first().scrollIntoViewIfNeeded();
       if (screenshots) {
