@@ -64,8 +64,8 @@ export const buildModelParams = z
         spacingM: z.number().positive().default(0.25).describe("Grid spacing in x and z, m"),
         widthM: z.number().positive().optional().describe("Width of the grid, m (or give nx)"),
         depthM: z.number().positive().optional().describe("Depth extent of the grid, m (or give nz)"),
-        nx: z.number().int().min(4).optional().describe("Number of grid columns (instead of widthM)"),
-        nz: z.number().int().min(4).optional().describe("Number of grid rows (instead of depthM)"),
+        nx: z.number().int().min(8).optional().describe("Number of grid columns (instead of widthM)"),
+        nz: z.number().int().min(8).optional().describe("Number of grid rows (instead of depthM)"),
         fromSpread: z
           .boolean()
           .default(false)

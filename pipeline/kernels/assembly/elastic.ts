@@ -126,37 +126,37 @@ function psvVelocityRow(j: i32): void {
   const r = rb;
   const base = org + <usize>j * r;
   const end = base + ((<usize>nxv) << 2);
-    for (let o = base; o < end; o += 16) {
-      // vx at (i+1/2, j): d sxx/dx + d sxz/dz
-      const ps = pF2 + o - 4;
-      const xm1 = v128.load(ps);
-      const x0 = v128.load(ps, 4);
-      const x1 = v128.load(ps, 8);
-      const x2 = v128.load(ps, 12);
-      const dxx = f32x4.add(f32x4.mul(c1, f32x4.sub(x1, x0)), f32x4.mul(c2, f32x4.sub(x2, xm1)));
-      const pq = pF4 + o;
-      const q0 = v128.load(pq);
-      const qm1 = v128.load(pq - r);
-      const qm2 = v128.load(pq - 2 * r);
-      const qp1 = v128.load(pq + r);
-      const dzq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, qm1)), f32x4.mul(c2, f32x4.sub(qp1, qm2)));
-      const pvx = pF0 + o;
-      v128.store(pvx, f32x4.add(v128.load(pvx), f32x4.mul(v128.load(pM0 + o), f32x4.add(dxx, dzq))));
-      // vz at (i, j+1/2): d sxz/dx + d szz/dz
-      const pr = pF4 + o - 8;
-      const rm2 = v128.load(pr);
-      const rm1 = v128.load(pr, 4);
-      const r1 = v128.load(pr, 12);
-      const dxq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, rm1)), f32x4.mul(c2, f32x4.sub(r1, rm2)));
-      const pz = pF3 + o;
-      const z0 = v128.load(pz);
-      const zm1 = v128.load(pz - r);
-      const z1 = v128.load(pz + r);
-      const z2 = v128.load(pz + 2 * r);
-      const dzz = f32x4.add(f32x4.mul(c1, f32x4.sub(z1, z0)), f32x4.mul(c2, f32x4.sub(z2, zm1)));
-      const pvz = pF1 + o;
-      v128.store(pvz, f32x4.add(v128.load(pvz), f32x4.mul(v128.load(pM1 + o), f32x4.add(dxq, dzz))));
-    }
+  for (let o = base; o < end; o += 16) {
+    // vx at (i+1/2, j): d sxx/dx + d sxz/dz
+    const ps = pF2 + o - 4;
+    const xm1 = v128.load(ps);
+    const x0 = v128.load(ps, 4);
+    const x1 = v128.load(ps, 8);
+    const x2 = v128.load(ps, 12);
+    const dxx = f32x4.add(f32x4.mul(c1, f32x4.sub(x1, x0)), f32x4.mul(c2, f32x4.sub(x2, xm1)));
+    const pq = pF4 + o;
+    const q0 = v128.load(pq);
+    const qm1 = v128.load(pq - r);
+    const qm2 = v128.load(pq - 2 * r);
+    const qp1 = v128.load(pq + r);
+    const dzq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, qm1)), f32x4.mul(c2, f32x4.sub(qp1, qm2)));
+    const pvx = pF0 + o;
+    v128.store(pvx, f32x4.add(v128.load(pvx), f32x4.mul(v128.load(pM0 + o), f32x4.add(dxx, dzq))));
+    // vz at (i, j+1/2): d sxz/dx + d szz/dz
+    const pr = pF4 + o - 8;
+    const rm2 = v128.load(pr);
+    const rm1 = v128.load(pr, 4);
+    const r1 = v128.load(pr, 12);
+    const dxq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, rm1)), f32x4.mul(c2, f32x4.sub(r1, rm2)));
+    const pz = pF3 + o;
+    const z0 = v128.load(pz);
+    const zm1 = v128.load(pz - r);
+    const z1 = v128.load(pz + r);
+    const z2 = v128.load(pz + 2 * r);
+    const dzz = f32x4.add(f32x4.mul(c1, f32x4.sub(z1, z0)), f32x4.mul(c2, f32x4.sub(z2, zm1)));
+    const pvz = pF1 + o;
+    v128.store(pvz, f32x4.add(v128.load(pvz), f32x4.mul(v128.load(pM1 + o), f32x4.add(dxq, dzz))));
+  }
 }
 
 /** Stress update of row j: sxx, szz, sxz from the velocities. */
@@ -168,48 +168,48 @@ function psvStressRow(j: i32): void {
   const base = org + <usize>j * r;
   const end = base + ((<usize>nxv) << 2);
   const surfaceRow = freeSurface && j == 0;
-    for (let o = base; o < end; o += 16) {
-      // d vx/dx at i: vx(i)-vx(i-1), vx(i+1)-vx(i-2)
-      const pv = pF0 + o - 8;
-      const vm2 = v128.load(pv);
-      const vm1 = v128.load(pv, 4);
-      const v0 = v128.load(pv, 8);
-      const v1 = v128.load(pv, 12);
-      const dxvx = f32x4.add(f32x4.mul(c1, f32x4.sub(v0, vm1)), f32x4.mul(c2, f32x4.sub(v1, vm2)));
-      // d vz/dz at j: vz(j)-vz(j-1), vz(j+1)-vz(j-2)
-      const pw = pF1 + o;
-      const w0 = v128.load(pw);
-      const wm1 = v128.load(pw - r);
-      const wm2 = v128.load(pw - 2 * r);
-      const wp1 = v128.load(pw + r);
-      const dzvz = f32x4.add(f32x4.mul(c1, f32x4.sub(w0, wm1)), f32x4.mul(c2, f32x4.sub(wp1, wm2)));
-      const mm = v128.load(pM2 + o);
-      const ll = v128.load(pM3 + o);
-      const psx = pF2 + o;
-      const psz = pF3 + o;
-      if (surfaceRow) {
-        // szz = 0 at the surface, so d vz/dz = -(lambda/M) d vx/dx and sxx grows with M - lambda^2/M,
-        // which the driver stores in the lambda array on this row.
-        v128.store(psx, f32x4.add(v128.load(psx), f32x4.mul(ll, dxvx)));
-        v128.store(psz, f32x4.splat(0));
-      } else {
-        v128.store(psx, f32x4.add(v128.load(psx), f32x4.add(f32x4.mul(mm, dxvx), f32x4.mul(ll, dzvz))));
-        v128.store(psz, f32x4.add(v128.load(psz), f32x4.add(f32x4.mul(ll, dxvx), f32x4.mul(mm, dzvz))));
-      }
-      // sxz at (i+1/2, j+1/2): d vx/dz = vx(j+1)-vx(j), vx(j+2)-vx(j-1); d vz/dx = vz(i+1)-vz(i), vz(i+2)-vz(i-1)
-      const px = pF0 + o;
-      const xp1 = v128.load(px + r);
-      const xp2 = v128.load(px + 2 * r);
-      const xm1 = v128.load(px - r);
-      const dzvx = f32x4.add(f32x4.mul(c1, f32x4.sub(xp1, v0)), f32x4.mul(c2, f32x4.sub(xp2, xm1)));
-      const pu = pF1 + o - 4;
-      const um1 = v128.load(pu);
-      const u1 = v128.load(pu, 8);
-      const u2 = v128.load(pu, 12);
-      const dxvz = f32x4.add(f32x4.mul(c1, f32x4.sub(u1, w0)), f32x4.mul(c2, f32x4.sub(u2, um1)));
-      const pq = pF4 + o;
-      v128.store(pq, f32x4.add(v128.load(pq), f32x4.mul(v128.load(pM4 + o), f32x4.add(dzvx, dxvz))));
+  for (let o = base; o < end; o += 16) {
+    // d vx/dx at i: vx(i)-vx(i-1), vx(i+1)-vx(i-2)
+    const pv = pF0 + o - 8;
+    const vm2 = v128.load(pv);
+    const vm1 = v128.load(pv, 4);
+    const v0 = v128.load(pv, 8);
+    const v1 = v128.load(pv, 12);
+    const dxvx = f32x4.add(f32x4.mul(c1, f32x4.sub(v0, vm1)), f32x4.mul(c2, f32x4.sub(v1, vm2)));
+    // d vz/dz at j: vz(j)-vz(j-1), vz(j+1)-vz(j-2)
+    const pw = pF1 + o;
+    const w0 = v128.load(pw);
+    const wm1 = v128.load(pw - r);
+    const wm2 = v128.load(pw - 2 * r);
+    const wp1 = v128.load(pw + r);
+    const dzvz = f32x4.add(f32x4.mul(c1, f32x4.sub(w0, wm1)), f32x4.mul(c2, f32x4.sub(wp1, wm2)));
+    const mm = v128.load(pM2 + o);
+    const ll = v128.load(pM3 + o);
+    const psx = pF2 + o;
+    const psz = pF3 + o;
+    if (surfaceRow) {
+      // szz = 0 at the surface, so d vz/dz = -(lambda/M) d vx/dx and sxx grows with M - lambda^2/M,
+      // which the driver stores in the lambda array on this row.
+      v128.store(psx, f32x4.add(v128.load(psx), f32x4.mul(ll, dxvx)));
+      v128.store(psz, f32x4.splat(0));
+    } else {
+      v128.store(psx, f32x4.add(v128.load(psx), f32x4.add(f32x4.mul(mm, dxvx), f32x4.mul(ll, dzvz))));
+      v128.store(psz, f32x4.add(v128.load(psz), f32x4.add(f32x4.mul(ll, dxvx), f32x4.mul(mm, dzvz))));
     }
+    // sxz at (i+1/2, j+1/2): d vx/dz = vx(j+1)-vx(j), vx(j+2)-vx(j-1); d vz/dx = vz(i+1)-vz(i), vz(i+2)-vz(i-1)
+    const px = pF0 + o;
+    const xp1 = v128.load(px + r);
+    const xp2 = v128.load(px + 2 * r);
+    const xm1 = v128.load(px - r);
+    const dzvx = f32x4.add(f32x4.mul(c1, f32x4.sub(xp1, v0)), f32x4.mul(c2, f32x4.sub(xp2, xm1)));
+    const pu = pF1 + o - 4;
+    const um1 = v128.load(pu);
+    const u1 = v128.load(pu, 8);
+    const u2 = v128.load(pu, 12);
+    const dxvz = f32x4.add(f32x4.mul(c1, f32x4.sub(u1, w0)), f32x4.mul(c2, f32x4.sub(u2, um1)));
+    const pq = pF4 + o;
+    v128.store(pq, f32x4.add(v128.load(pq), f32x4.mul(v128.load(pM4 + o), f32x4.add(dzvx, dxvz))));
+  }
 }
 
 // PML: vx gets d sxx/dx (half x) and d sxz/dz (integer z); vz gets d sxz/dx (integer x), d szz/dz (half z).
@@ -269,24 +269,24 @@ function shVelocityRow(j: i32): void {
   const r = rb;
   const base = org + <usize>j * r;
   const end = base + ((<usize>nxv) << 2);
-    for (let o = base; o < end; o += 16) {
-      // d sxy/dx at i: sxy(i)-sxy(i-1), sxy(i+1)-sxy(i-2)
-      const ps = pF1 + o - 8;
-      const sm2 = v128.load(ps);
-      const sm1 = v128.load(ps, 4);
-      const s0 = v128.load(ps, 8);
-      const s1 = v128.load(ps, 12);
-      const dx = f32x4.add(f32x4.mul(c1, f32x4.sub(s0, sm1)), f32x4.mul(c2, f32x4.sub(s1, sm2)));
-      // d syz/dz at j: syz(j)-syz(j-1), syz(j+1)-syz(j-2)
-      const pq = pF2 + o;
-      const q0 = v128.load(pq);
-      const qm1 = v128.load(pq - r);
-      const qm2 = v128.load(pq - 2 * r);
-      const qp1 = v128.load(pq + r);
-      const dz = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, qm1)), f32x4.mul(c2, f32x4.sub(qp1, qm2)));
-      const pv = pF0 + o;
-      v128.store(pv, f32x4.add(v128.load(pv), f32x4.mul(v128.load(pM0 + o), f32x4.add(dx, dz))));
-    }
+  for (let o = base; o < end; o += 16) {
+    // d sxy/dx at i: sxy(i)-sxy(i-1), sxy(i+1)-sxy(i-2)
+    const ps = pF1 + o - 8;
+    const sm2 = v128.load(ps);
+    const sm1 = v128.load(ps, 4);
+    const s0 = v128.load(ps, 8);
+    const s1 = v128.load(ps, 12);
+    const dx = f32x4.add(f32x4.mul(c1, f32x4.sub(s0, sm1)), f32x4.mul(c2, f32x4.sub(s1, sm2)));
+    // d syz/dz at j: syz(j)-syz(j-1), syz(j+1)-syz(j-2)
+    const pq = pF2 + o;
+    const q0 = v128.load(pq);
+    const qm1 = v128.load(pq - r);
+    const qm2 = v128.load(pq - 2 * r);
+    const qp1 = v128.load(pq + r);
+    const dz = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, qm1)), f32x4.mul(c2, f32x4.sub(qp1, qm2)));
+    const pv = pF0 + o;
+    v128.store(pv, f32x4.add(v128.load(pv), f32x4.mul(v128.load(pM0 + o), f32x4.add(dx, dz))));
+  }
 }
 
 /** Stress update of row j: sxy, syz from vy. */
@@ -297,25 +297,25 @@ function shStressRow(j: i32): void {
   const r = rb;
   const base = org + <usize>j * r;
   const end = base + ((<usize>nxv) << 2);
-    for (let o = base; o < end; o += 16) {
-      // d vy/dx at i+1/2: vy(i+1)-vy(i), vy(i+2)-vy(i-1)
-      const pv = pF0 + o - 4;
-      const vm1 = v128.load(pv);
-      const v0 = v128.load(pv, 4);
-      const v1 = v128.load(pv, 8);
-      const v2 = v128.load(pv, 12);
-      const dx = f32x4.add(f32x4.mul(c1, f32x4.sub(v1, v0)), f32x4.mul(c2, f32x4.sub(v2, vm1)));
-      const p1 = pF1 + o;
-      v128.store(p1, f32x4.add(v128.load(p1), f32x4.mul(v128.load(pM1 + o), dx)));
-      // d vy/dz at j+1/2: vy(j+1)-vy(j), vy(j+2)-vy(j-1)
-      const pw = pF0 + o;
-      const wp1 = v128.load(pw + r);
-      const wp2 = v128.load(pw + 2 * r);
-      const wm1 = v128.load(pw - r);
-      const dz = f32x4.add(f32x4.mul(c1, f32x4.sub(wp1, v0)), f32x4.mul(c2, f32x4.sub(wp2, wm1)));
-      const p2 = pF2 + o;
-      v128.store(p2, f32x4.add(v128.load(p2), f32x4.mul(v128.load(pM2 + o), dz)));
-    }
+  for (let o = base; o < end; o += 16) {
+    // d vy/dx at i+1/2: vy(i+1)-vy(i), vy(i+2)-vy(i-1)
+    const pv = pF0 + o - 4;
+    const vm1 = v128.load(pv);
+    const v0 = v128.load(pv, 4);
+    const v1 = v128.load(pv, 8);
+    const v2 = v128.load(pv, 12);
+    const dx = f32x4.add(f32x4.mul(c1, f32x4.sub(v1, v0)), f32x4.mul(c2, f32x4.sub(v2, vm1)));
+    const p1 = pF1 + o;
+    v128.store(p1, f32x4.add(v128.load(p1), f32x4.mul(v128.load(pM1 + o), dx)));
+    // d vy/dz at j+1/2: vy(j+1)-vy(j), vy(j+2)-vy(j-1)
+    const pw = pF0 + o;
+    const wp1 = v128.load(pw + r);
+    const wp2 = v128.load(pw + 2 * r);
+    const wm1 = v128.load(pw - r);
+    const dz = f32x4.add(f32x4.mul(c1, f32x4.sub(wp1, v0)), f32x4.mul(c2, f32x4.sub(wp2, wm1)));
+    const p2 = pF2 + o;
+    v128.store(p2, f32x4.add(v128.load(p2), f32x4.mul(v128.load(pM2 + o), dz)));
+  }
 }
 
 function shSurface(): void {
@@ -349,27 +349,33 @@ export function shStep(): void {
 }
 
 // ---------------------------------------------------------------------------------------------
-// Convolutional PML terms on the absorbing strips (scalar; the strips are a small share of cells).
-// The derivative of `src` at the position shifted by `sh` (0: backward, element i between i-1 and i;
-// 1: forward, between i and i+1): c1 (s[k]-s[k-1]) + c2 (s[k+1]-s[k-2]) with k = i + sh.
+// Convolutional PML terms on the absorbing strips, four cells at a time (strip widths are
+// multiples of 4). The derivative of `src` at the position shifted by `sh` (0: backward, element i
+// between i-1 and i; 1: forward, between i and i+1): c1 (s[k]-s[k-1]) + c2 (s[k+1]-s[k-2]), k = i + sh.
 
 @inline
-function pmlXCell(sh: i32, src: usize, psi: usize, a: usize, b: usize,
+function pmlXQuad(sh: i32, src: usize, psi: usize, a: usize, b: usize,
   f1: usize, m1: usize, f2: usize, m2: usize, j: i32, i: i32, si: i32, surface: bool): void {
+  const c1 = f32x4.splat(C1);
+  const c2 = f32x4.splat(C2);
   const o = org + <usize>j * rb + (<usize>i << 2);
-  const s = src + o + (<usize>sh << 2);
-  const d = C1 * (load<f32>(s) - load<f32>(s - 4)) + C2 * (load<f32>(s + 4) - load<f32>(s - 8));
+  const s = src + o + (<usize>sh << 2) - 8;
+  const sm2 = v128.load(s);
+  const sm1 = v128.load(s, 4);
+  const s0 = v128.load(s, 8);
+  const s1 = v128.load(s, 12);
+  const d = f32x4.add(f32x4.mul(c1, f32x4.sub(s0, sm1)), f32x4.mul(c2, f32x4.sub(s1, sm2)));
   const pp = psi + ((<usize>(j * 2 * wx + si)) << 2);
   const ci = <usize>i << 2;
-  const v = load<f32>(b + ci) * load<f32>(pp) + load<f32>(a + ci) * d;
-  store<f32>(pp, v);
+  const v = f32x4.add(f32x4.mul(v128.load(b + ci), v128.load(pp)), f32x4.mul(v128.load(a + ci), d));
+  v128.store(pp, v);
   if (surface) {
     // Free-surface row of the normal stresses: sxx with the surface modulus (held in m2), szz stays 0.
-    store<f32>(f1 + o, load<f32>(f1 + o) + load<f32>(m2 + o) * v);
+    v128.store(f1 + o, f32x4.add(v128.load(f1 + o), f32x4.mul(v128.load(m2 + o), v)));
     return;
   }
-  store<f32>(f1 + o, load<f32>(f1 + o) + load<f32>(m1 + o) * v);
-  if (f2 != 0) store<f32>(f2 + o, load<f32>(f2 + o) + load<f32>(m2 + o) * v);
+  v128.store(f1 + o, f32x4.add(v128.load(f1 + o), f32x4.mul(v128.load(m1 + o), v)));
+  if (f2 != 0) v128.store(f2 + o, f32x4.add(v128.load(f2 + o), f32x4.mul(v128.load(m2 + o), v)));
 }
 
 function pmlXRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
@@ -377,29 +383,35 @@ function pmlXRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
   if (wx == 0) return;
   const right = nx - wx;
   const surface = freeSurface && j == 0 && f2 != 0;
-  for (let i = 0; i < wx; i++) pmlXCell(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i, surface);
-  for (let i = right; i < nx; i++) pmlXCell(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i - right + wx, surface);
+  for (let i = 0; i < wx; i += 4) pmlXQuad(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i, surface);
+  for (let i = right; i < nx; i += 4) pmlXQuad(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i - right + wx, surface);
 }
 
 @inline
 function pmlZRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
   f1: usize, m1: usize, f2: usize, m2: usize, j: i32, sj: i32): void {
+  const c1 = f32x4.splat(C1);
+  const c2 = f32x4.splat(C2);
   const r = rb;
   const row = org + <usize>j * r;
   const sr = src + row + <usize>sh * r;
   const pr = psi + ((<usize>(sj * nxv)) << 2);
-  const av = load<f32>(a + (<usize>j << 2));
-  const bv = load<f32>(b + (<usize>j << 2));
-  const n4 = <usize>nx << 2;
-  for (let o: usize = 0; o < n4; o += 4) {
+  const av = v128.load32_splat(a + (<usize>j << 2));
+  const bv = v128.load32_splat(b + (<usize>j << 2));
+  // Padding columns up to nxv have zero fields and moduli: their terms stay zero.
+  const n4 = <usize>nxv << 2;
+  for (let o: usize = 0; o < n4; o += 16) {
     const s = sr + o;
-    const d = C1 * (load<f32>(s) - load<f32>(s - r)) + C2 * (load<f32>(s + r) - load<f32>(s - 2 * r));
+    const d = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(v128.load(s), v128.load(s - r))),
+      f32x4.mul(c2, f32x4.sub(v128.load(s + r), v128.load(s - 2 * r))),
+    );
     const pp = pr + o;
-    const v = bv * load<f32>(pp) + av * d;
-    store<f32>(pp, v);
+    const v = f32x4.add(f32x4.mul(bv, v128.load(pp)), f32x4.mul(av, d));
+    v128.store(pp, v);
     const q = row + o;
-    store<f32>(f1 + q, load<f32>(f1 + q) + load<f32>(m1 + q) * v);
-    if (f2 != 0) store<f32>(f2 + q, load<f32>(f2 + q) + load<f32>(m2 + q) * v);
+    v128.store(f1 + q, f32x4.add(v128.load(f1 + q), f32x4.mul(v128.load(m1 + q), v)));
+    if (f2 != 0) v128.store(f2 + q, f32x4.add(v128.load(f2 + q), f32x4.mul(v128.load(m2 + q), v)));
   }
 }
 

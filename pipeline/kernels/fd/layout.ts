@@ -73,7 +73,7 @@ export function planLayout(opts: {
 }): FdLayout {
   const { mode, modelNx, modelNz, pmlCells, freeSurface } = opts;
   for (const [k, v] of Object.entries({ modelNx, modelNz })) {
-    if (!Number.isInteger(v) || v < 4) throw new RangeError(`${k} must be an integer ≥ 4, got ${v}`);
+    if (!Number.isInteger(v) || v < 8) throw new RangeError(`${k} must be an integer ≥ 8, got ${v}`);
   }
   if (!Number.isInteger(pmlCells) || pmlCells < 0) throw new RangeError(`pmlCells must be an integer ≥ 0, got ${pmlCells}`);
   const top = freeSurface ? 0 : pmlCells;
@@ -83,7 +83,9 @@ export function planLayout(opts: {
   const rowFloats = nxv + 2 * HALO_X;
   const gridFloats = rowFloats * (nrows + 2 * HALO_Z);
   const org = HALO_Z * rowFloats + HALO_X;
-  const w = pmlCells > 0 ? pmlCells + 1 : 0;
+  // Strips cover the absorbing cells plus the first model cell (whose half position lies inside),
+  // rounded up to whole groups of four columns for the SIMD kernel; the extra cells have a = 0.
+  const w = pmlCells > 0 ? align4(pmlCells + 1) : 0;
   const wx = w;
   const wzTop = freeSurface ? 0 : w;
   const wzBot = w;

@@ -313,6 +313,9 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
   if (shot.receiverZ.length !== nrec) throw new RangeError(`receiverZ has ${shot.receiverZ.length} entries, receiverX ${nrec}`);
 
   // Checks before any time step.
+  if (model.nx < 8 || model.nz < 8) {
+    throw new StepInputError(`The model has ${model.nx} × ${model.nz} cells; the solver needs at least 8 × 8: refine or enlarge the grid.`, "model");
+  }
   const { vpMax, vsMin, vsMax } = checkModelCells(model);
   const band = waveletBand(opts.wavelet);
   const h = model.spacingM;

@@ -121,6 +121,8 @@ describe("layout", () => {
     const sh = planLayout({ mode: "sh", modelNx: 45, modelNz: 20, pmlCells: 8, freeSurface: false });
     expect(sh.offsets.f3).toBe(0);
     expect(sh.nrows).toBe(36);
-    expect(() => planLayout({ mode: "sh", modelNx: 2, modelNz: 20, pmlCells: 8, freeSurface: false })).toThrow(/modelNx/);
+    expect(() => planLayout({ mode: "sh", modelNx: 7, modelNz: 20, pmlCells: 8, freeSurface: false })).toThrow(/modelNx must be an integer ≥ 8/);
+    // Absorbing strips span whole groups of four columns.
+    expect(L.wx).toBe(12);
   });
 });
