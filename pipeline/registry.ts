@@ -18,6 +18,7 @@ import { lineSourceStep } from "./steps/line-source";
 import { spectraStep } from "./steps/spectra";
 import { buildModelStep } from "./steps/build-model";
 import { forwardModelStep } from "./steps/forward-model";
+import { misfitStep } from "./steps/misfit";
 
 const STEPS: AnyStepDefinition[] = [
   importRecordsStep,
@@ -33,6 +34,7 @@ const STEPS: AnyStepDefinition[] = [
   spectraStep,
   buildModelStep,
   forwardModelStep,
+  misfitStep,
 ];
 
 /** All steps in pipeline order. */
