@@ -226,6 +226,9 @@ export const misfitStep = defineStep({
       for (let t = 0; t < tc; t++) {
         if (include[t] === 0) continue;
         const value = values[t];
+        if (!Number.isFinite(value)) {
+          throw new StepInputError(`gather "${obs.id}", trace ${t} (channel ${obs.traces[t].channel}): the observed or synthetic samples hold NaN or infinite values; the misfit is undefined.`, "gathers");
+        }
         perTrace.push({ gatherId: obs.id, traceIndex: t, offset: obs.traces[t].offset, value });
         gatherValue += value;
         compared++;

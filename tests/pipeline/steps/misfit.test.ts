@@ -1,6 +1,7 @@
 import { describe, expect, it } from "vitest";
 import { misfitStep, type MisfitReport } from "../../../pipeline/steps/misfit";
 import { StepInputError } from "../../../pipeline/step";
+import { decodeArtifact, encodeArtifact } from "../../../pipeline/artifact-codec";
 import { describeParams, getStep, listSteps } from "../../../pipeline/registry";
 import type { Gather, GatherSet } from "../../../pipeline/types";
 import { makeStepContext } from "../../helpers/step-context";
@@ -70,8 +71,8 @@ describe("misfit step", () => {
       const byGather = res.series!.find((s) => s.name === "misfit-by-gather")!;
       expect(byGather.points.map((p) => p.x)).toEqual([-1, 23]);
       expect(byGather.points.map((p) => p.y)).toEqual(report.perGather.map((g) => g.value));
-      // The report is plain data (no typed arrays), as slot artifacts need.
-      expect(JSON.parse(JSON.stringify(report))).toEqual(report);
+      // The report is plain data and survives the artifact encoding unchanged.
+      expect(decodeArtifact(encodeArtifact(res.outputs.report))).toEqual(res.outputs.report);
     }
   });
 
@@ -181,6 +182,9 @@ describe("misfit step", () => {
       obs.map((g) => ({ ...g, traces: g.traces.map((h) => ({ ...h, component: "y" as const })) })),
       /component "y" \(synthetic\) against "z"/,
     );
+    const broken = derived(obs, (v) => v);
+    broken[1].data[4 * NS + 17] = Number.NaN;
+    await refuse(broken, /gather "sp13", trace 4 \(channel 5\): the observed or synthetic samples hold NaN/);
     await refuse([obs[0]], /gather "sp13" has no synthetic gather of the same id; synthetic gathers: "sp01"/);
     await refuse([obs[0], obs[0], obs[1]], /id "sp01" twice/);
   });
