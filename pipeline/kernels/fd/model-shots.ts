@@ -7,7 +7,7 @@ import type { ElasticModel, Gather, SnapshotSet, TraceHeader } from "../../types
 import type { WorkerPool } from "../../workers/pool";
 import { StepInputError } from "../../step";
 import type { SourceWavelet } from "./wavelet";
-import { simulateShot, type ShotPositions, type SimulationOptions, type SimulationResult } from "./simulation";
+import { checkSimulation, simulateShot, type ShotPositions, type SimulationOptions, type SimulationResult } from "./simulation";
 
 /** A gather without samples: the geometry and sampling a synthetic gather is made for. */
 export type GatherTemplate = Omit<Gather, "data">;
@@ -101,10 +101,15 @@ export async function modelShots(
       control.onShot?.(done, templates.length, t.id);
       return res;
     };
-    // The first shot runs alone: its checks refuse bad input once, before the other shots start.
-    const first = templates.length > 0 ? [await runOne(templates[0])] : [];
-    const rest = await Promise.all(templates.slice(1).map(runOne));
-    const results = [...first, ...rest];
+    // Every shot's checks run here first, so bad input is refused before any shot starts.
+    for (const t of templates) {
+      checkSimulation(model, shotPositions(t), {
+        ...options,
+        wavelet: control.wavelets?.[t.id] ?? options.wavelet,
+        output: { intervalS: t.sampleIntervalS, count: t.sampleCount, startTimeS: t.startTimeS },
+      });
+    }
+    const results = await Promise.all(templates.map(runOne));
     const gathers: Gather[] = templates.map((t, k) => ({
       id: t.id,
       sampleIntervalS: t.sampleIntervalS,

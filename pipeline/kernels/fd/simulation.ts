@@ -293,10 +293,11 @@ export function createKernel(
 }
 
 /**
- * Models one shot. Refuses unphysical cells, unstable time steps and too coarse grids before
- * any time step (StepInputError naming the value to change).
+ * The checks {@link simulateShot} makes before any time step, and the values they settle:
+ * unphysical cells, accuracy (points per shortest S wavelength), stability (time step), source and
+ * receivers inside the model. Throws StepInputError naming the value to change.
  */
-export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: SimulationOptions): SimulationResult {
+export function checkSimulation(model: ElasticModel, shot: ShotPositions, opts: SimulationOptions) {
   const mode = opts.mode;
   if (mode !== "psv" && mode !== "sh") throw new RangeError(`mode must be "psv" or "sh", got ${String(mode)}`);
   const component = opts.component ?? (mode === "psv" ? "z" : "y");
@@ -324,6 +325,16 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
   const dt = chooseTimeStep(h, vmax, opts.dtS, intervalS);
   checkInside(model, shot.sourceX, shot.sourceZ, "The source", "sourceX");
   for (let r = 0; r < nrec; r++) checkInside(model, shot.receiverX[r], shot.receiverZ[r], `Receiver ${r + 1}`, "receiverX");
+  return { mode, component, sourceKind, pmlCells, freeSurface, intervalS, count, startTimeS, nrec, band, h, points, vmax, dt };
+}
+
+/**
+ * Models one shot. Refuses unphysical cells, unstable time steps and too coarse grids before
+ * any time step (StepInputError naming the value to change).
+ */
+export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: SimulationOptions): SimulationResult {
+  const { mode, component, sourceKind, pmlCells, freeSurface, intervalS, count, startTimeS, nrec, band, h, points, vmax, dt } =
+    checkSimulation(model, shot, opts);
 
   const { kernel, layout, mem } = createKernel(opts.kernel ?? "wasm", {
     mode, modelNx: model.nx, modelNz: model.nz, pmlCells, freeSurface,
