@@ -4,6 +4,7 @@
  * (interrupted runs) and resume.
  */
 import fs from "node:fs";
+import { setMaxListeners } from "node:events";
 import path from "node:path";
 import { and, eq, inArray } from "drizzle-orm";
 import type { Db } from "../db/client";
@@ -336,6 +337,8 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   if (claimed.changes !== 1) throw new AppError("conflict", `Run ${runId} was taken by another process`);
 
   const controller = new AbortController();
+  // Steps hand the signal to one pool task per shot or trace block: many listeners are normal.
+  setMaxListeners(0, controller.signal);
   const onOuterAbort = () => controller.abort();
   opts.signal?.addEventListener("abort", onOuterAbort);
   if (opts.signal?.aborted) controller.abort();
