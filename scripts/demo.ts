@@ -70,10 +70,15 @@ async function main() {
 
   const processor = accounts.find((a) => a.role === "processor")?.email;
   const lead = accounts.find((a) => a.role === "lead")?.email;
-  const pipelines = fs
-    .readdirSync(example)
-    .filter((f) => f.endsWith(".yaml"))
-    .sort();
+  // Processing first; the modelling pipeline then takes its processing steps from the cache.
+  const order = ["qm1-processing.yaml", "qm1-modelling.yaml"];
+  const pipelines = [
+    ...order.filter((f) => fs.existsSync(path.join(example, f))),
+    ...fs
+      .readdirSync(example)
+      .filter((f) => f.endsWith(".yaml") && !order.includes(f))
+      .sort(),
+  ];
   for (const file of pipelines) {
     say(`\n  running ${path.join("examples", "quillmoor", file)} through the command line as ${processor}`);
     const r = await cli(["run", path.join(example, file), ...(processor ? ["--as", processor] : [])]);
