@@ -14,6 +14,15 @@
 import type { FdLayout } from "./layout";
 
 const f = Math.fround;
+/** Stored magnitudes below 2^-100 become zero. */
+export const FLUSH_BELOW = 2 ** -100;
+/**
+ * Flush to zero: stored values below {@link FLUSH_BELOW} become +0, as in the WebAssembly kernel,
+ * which does so because arithmetic on subnormal floats (below 2^-126) is many times slower and
+ * products with the coefficients of values near 2^-126 would be subnormal. Far below any amplitude
+ * of interest. NaN and infinity pass unchanged.
+ */
+const z = (x: number) => (Math.abs(x) < FLUSH_BELOW ? 0 : x);
 /** Fourth-order staggered coefficients (Levander 1988). */
 export const FD_C1 = f(9 / 8);
 export const FD_C2 = f(-1 / 24);
@@ -60,14 +69,14 @@ export function createReferenceKernel(layout: FdLayout, mem: Float32Array): Refe
         const c = L.org + j * r + i;
         const d = d4(mem, src + c + sh, 1);
         const p = psi + j * 2 * L.wx + si;
-        const v = f(f(mem[b + i] * mem[p]) + f(mem[a + i] * d));
+        const v = z(f(f(mem[b + i] * mem[p]) + f(mem[a + i] * d)));
         mem[p] = v;
         if (surface) {
-          mem[f1 + c] = f(mem[f1 + c] + f(mem[m2 + c] * v));
+          mem[f1 + c] = z(f(mem[f1 + c] + f(mem[m2 + c] * v)));
           continue;
         }
-        mem[f1 + c] = f(mem[f1 + c] + f(mem[m1 + c] * v));
-        if (f2 >= 0) mem[f2 + c] = f(mem[f2 + c] + f(mem[m2 + c] * v));
+        mem[f1 + c] = z(f(mem[f1 + c] + f(mem[m1 + c] * v)));
+        if (f2 >= 0) mem[f2 + c] = z(f(mem[f2 + c] + f(mem[m2 + c] * v)));
       }
     }
   }
@@ -86,10 +95,10 @@ export function createReferenceKernel(layout: FdLayout, mem: Float32Array): Refe
         const c = L.org + j * r + i;
         const d = d4(mem, src + c + sh * r, r);
         const p = psi + sj * L.nxv + i;
-        const v = f(f(bv * mem[p]) + f(av * d));
+        const v = z(f(f(bv * mem[p]) + f(av * d)));
         mem[p] = v;
-        mem[f1 + c] = f(mem[f1 + c] + f(mem[m1 + c] * v));
-        if (f2 >= 0) mem[f2 + c] = f(mem[f2 + c] + f(mem[m2 + c] * v));
+        mem[f1 + c] = z(f(mem[f1 + c] + f(mem[m1 + c] * v)));
+        if (f2 >= 0) mem[f2 + c] = z(f(mem[f2 + c] + f(mem[m2 + c] * v)));
       }
     }
   }
@@ -109,11 +118,11 @@ export function createReferenceKernel(layout: FdLayout, mem: Float32Array): Refe
             // vx at (i+½, j): ∂σxx/∂x + ∂σxz/∂z
             const dxx = d4(mem, sxx + c + 1, 1);
             const dzq = d4(mem, sxz + c, r);
-            mem[vx + c] = f(mem[vx + c] + f(mem[bx + c] * f(dxx + dzq)));
+            mem[vx + c] = z(f(mem[vx + c] + f(mem[bx + c] * f(dxx + dzq))));
             // vz at (i, j+½): ∂σxz/∂x + ∂σzz/∂z
             const dxq = d4(mem, sxz + c, 1);
             const dzz = d4(mem, szz + c + r, r);
-            mem[vz + c] = f(mem[vz + c] + f(mem[bz + c] * f(dxq + dzz)));
+            mem[vz + c] = z(f(mem[vz + c] + f(mem[bz + c] * f(dxq + dzz))));
           }
         }
         pmlX(1, sxx, o.px0, o.axH, o.bxH, vx, bx);
@@ -133,16 +142,16 @@ export function createReferenceKernel(layout: FdLayout, mem: Float32Array): Refe
             if (surfaceRow) {
               // σzz = 0 at the surface: ∂vz/∂z = -(λ/M) ∂vx/∂x, so σxx grows with M − λ²/M,
               // which the λ array holds on this row.
-              mem[sxx + c] = f(mem[sxx + c] + f(l * dxvx));
+              mem[sxx + c] = z(f(mem[sxx + c] + f(l * dxvx)));
               mem[szz + c] = 0;
             } else {
-              mem[sxx + c] = f(mem[sxx + c] + f(f(m * dxvx) + f(l * dzvz)));
-              mem[szz + c] = f(mem[szz + c] + f(f(l * dxvx) + f(m * dzvz)));
+              mem[sxx + c] = z(f(mem[sxx + c] + f(f(m * dxvx) + f(l * dzvz))));
+              mem[szz + c] = z(f(mem[szz + c] + f(f(l * dxvx) + f(m * dzvz))));
             }
             // σxz at (i+½, j+½): ∂vx/∂z + ∂vz/∂x
             const dzvx = d4(mem, vx + c + r, r);
             const dxvz = d4(mem, vz + c + 1, 1);
-            mem[sxz + c] = f(mem[sxz + c] + f(mem[mu + c] * f(dzvx + dxvz)));
+            mem[sxz + c] = z(f(mem[sxz + c] + f(mem[mu + c] * f(dzvx + dxvz))));
           }
         }
         pmlX(0, vx, o.px2, o.axI, o.bxI, sxx, mm, szz, ll);
@@ -176,7 +185,7 @@ export function createReferenceKernel(layout: FdLayout, mem: Float32Array): Refe
           const c = L.org + j * r + i;
           const dx = d4(mem, sxy + c, 1);
           const dz = d4(mem, syz + c, r);
-          mem[vy + c] = f(mem[vy + c] + f(mem[b + c] * f(dx + dz)));
+          mem[vy + c] = z(f(mem[vy + c] + f(mem[b + c] * f(dx + dz))));
         }
       }
       pmlX(0, sxy, o.px0, o.axI, o.bxI, vy, b);
@@ -186,8 +195,8 @@ export function createReferenceKernel(layout: FdLayout, mem: Float32Array): Refe
       for (let j = 0; j < L.nrows; j++) {
         for (let i = 0; i < L.nxv; i++) {
           const c = L.org + j * r + i;
-          mem[sxy + c] = f(mem[sxy + c] + f(mem[mux + c] * d4(mem, vy + c + 1, 1)));
-          mem[syz + c] = f(mem[syz + c] + f(mem[muz + c] * d4(mem, vy + c + r, r)));
+          mem[sxy + c] = z(f(mem[sxy + c] + f(mem[mux + c] * d4(mem, vy + c + 1, 1))));
+          mem[syz + c] = z(f(mem[syz + c] + f(mem[muz + c] * d4(mem, vy + c + r, r))));
         }
       }
       pmlX(1, vy, o.px1, o.axH, o.bxH, sxy, mux);

@@ -7,7 +7,7 @@ import type { ElasticModel } from "../../types";
 import { StepInputError } from "../../step";
 import { checkGridAccuracy, checkModelCells, chooseTimeStep } from "./checks";
 import { planLayout, type FdLayout, type WaveMode } from "./layout";
-import { createReferenceKernel, type FdKernel } from "./reference-kernel";
+import { FLUSH_BELOW, createReferenceKernel, type FdKernel } from "./reference-kernel";
 import { resampleBandLimited } from "./resample";
 import { ricker, sampleWavelet, waveletBand, type SourceWavelet } from "./wavelet";
 import { createWasmKernel } from "./wasm-kernel";
@@ -76,6 +76,8 @@ export interface SimulationResult {
 }
 
 const f32 = Math.fround;
+/** Values below 2^-100 become zero, as the kernels store them (see reference-kernel.ts). */
+const flushToZero = (x: number) => (Math.abs(x) < FLUSH_BELOW ? 0 : x);
 
 
 /** Grid offsets (column, row) of each quantity's staggered position. */
@@ -411,11 +413,11 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
     // (n − ½)·dt, before step n reads them.
     if (!sourceAtStress) {
       const v = stf[n];
-      for (const s of src) mem[s.index] = f32(mem[s.index] + f32(s.scale * v));
+      for (const s of src) mem[s.index] = flushToZero(f32(mem[s.index] + f32(s.scale * v)));
     } else if (n > 0) {
       const v = stf[n - 1];
       for (const s of src) {
-        mem[s.index] = f32(mem[s.index] + f32(s.scale * v));
+        mem[s.index] = flushToZero(f32(mem[s.index] + f32(s.scale * v)));
         if (s.mirror >= 0) mem[s.mirror] = -mem[s.index];
       }
     }

@@ -47,6 +47,10 @@ describe("WebAssembly kernel", () => {
       expect(Number.isFinite(peak)).toBe(true);
       expect(Array.from(a.traces)).toEqual(Array.from(b.traces));
       expect(Array.from(a.snapshots!.frames)).toEqual(Array.from(b.snapshots!.frames));
+      // Flush to zero: no stored magnitude between 0 and 2^-100 (ahead of the front the values
+      // would otherwise decay through the float32 subnormals, below 2^-126 by IEEE 754).
+      const tiny = Array.from(a.snapshots!.frames).filter((v) => v !== 0 && Math.abs(v) < 2 ** -100);
+      expect(tiny).toEqual([]);
     });
   }
 
