@@ -205,3 +205,27 @@ describe("absorbing boundaries (convolutional PML)", () => {
     expect(ratio(run(0, 40, 20, 0))).toBeGreaterThan(0.3);
   });
 });
+
+describe("explosive source", () => {
+  it("pushes the ground outwards, with mirror-symmetric radial motion", () => {
+    // An explosion (isotropic moment tensor) radiates P waves whose main motion points away from
+    // the source (common practice: compressional first motion), with the symmetry of the
+    // point source: vx(x0 + d) = −vx(x0 − d) exactly on a homogeneous grid.
+    const model = buildModel({ originX: 0, originZ: 0, spacingM: 0.25, nx: 161, nz: 161 }, [{ topM: 0, vp: 600, vs: 300, rho: 1800 }]);
+    const run = (component: "x" | "z") =>
+      simulateShot(model, { sourceX: 20, sourceZ: 20, receiverX: [30, 10, 20], receiverZ: [20, 20, 30] }, {
+        mode: "psv", sourceKind: "explosive", component, freeSurface: false, wavelet: { kind: "ricker", peakHz: 30 },
+        output: { intervalS: 0.0005, count: 200, startTimeS: 0 },
+      }).traces;
+    const largest = (t: Float32Array, i: number) => {
+      let v = 0;
+      for (let k = i * 200; k < (i + 1) * 200; k++) if (Math.abs(t[k]) > Math.abs(v)) v = t[k];
+      return v;
+    };
+    const vx = run("x");
+    const vz = run("z");
+    expect(largest(vx, 0)).toBeGreaterThan(0); // right of the source, moving right
+    expect(largest(vx, 1)).toBe(-largest(vx, 0)); // left, moving left by the same amount
+    expect(largest(vz, 2)).toBeGreaterThan(0); // below (z positive down), moving down
+  });
+});
