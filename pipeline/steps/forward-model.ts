@@ -41,7 +41,7 @@ export const forwardModelParams = z
       .max(20)
       .default(0)
       .describe(
-        "Average the medium along the boundary inside the absorbing strips over ± this many cells; 2 to 4 keeps long runs stable in models rough cell by cell at their edges, at the price of returns from sharp layer boundaries",
+        "Average the medium along the boundary inside the absorbing strips, over up to ± this many cells at their outer edge (none at the model edge); about 8 keeps long runs stable in models rough cell by cell at their edges, at the price of a few per cent returned from sharp layer boundaries. 0 = off",
       ),
     freeSurface: z.boolean().default(true).describe("Stress-free top surface; off = absorbing on all four sides"),
     dtS: z.number().positive().optional().describe("Solver time step, s; default 0.9 of the stability limit 0.606·dx/vmax, fitted to the output sample interval"),

@@ -45,9 +45,10 @@ export interface SimulationOptions {
   /** PML theoretical reflection coefficient. Default 1e-3 (Komatitsch & Martin 2007). */
   pmlReflection?: number;
   /**
-   * Half-width, cells, of an along-boundary average of the medium inside the absorbing strips.
-   * Default 0 (the strips continue the edge cells). Use 2 to 4 for models rough cell by cell at
-   * their edges, which can otherwise grow slowly in long runs; it reflects at sharp layer boundaries.
+   * Largest half-width, cells, of an along-boundary average of the medium inside the absorbing
+   * strips (growing from 0 at the model edge to this at the outer edge). Default 0: the strips
+   * continue the edge cells. About 8 keeps long runs stable in models rough cell by cell at their
+   * edges, which can otherwise grow slowly; it returns a few per cent at sharp layer boundaries.
    */
   pmlSmoothingCells?: number;
   /** When this shared flag becomes non-zero the run stops with an AbortError (checked every 64 steps). */
@@ -170,14 +171,19 @@ function fillCoefficients(
         // Inside the model, or a corner: the (edge) cell itself.
         cell(mz, mx, sum);
       } else {
-        // Absorbing strip: the edge cells, averaged along the boundary over ±half cells when asked.
-        // A PML over a medium that is rough cell by cell along the boundary can grow slowly after
-        // many steps (observed with independent random Vp and Vs per cell and a free surface);
-        // the average keeps such runs stable but reflects at sharp layer boundaries, so it is off
-        // by default.
+        // Absorbing strip: the edge cells, averaged along the boundary when asked. A PML over a
+        // medium that is rough cell by cell along the boundary can grow slowly after many steps
+        // (observed with independent random Vp and Vs per cell and a free surface); the average
+        // keeps such runs stable but returns some energy at sharp layer boundaries (measured: 4 %
+        // of the direct wave at a Vp jump from 400 to 1600 m/s with ±8 cells, against 0.1 %
+        // without), so it is off by default.
         sum.fill(0);
         let n = 0;
-        for (let d = -half; d <= half; d++) {
+        const depth = xOut ? Math.max(colOffset - i, i - (colOffset + modelNx - 1)) : Math.max(rowOffset - j, j - (rowOffset + modelNz - 1));
+        // The averaging width grows from none at the model edge to ±half at the outer edge, so a
+        // wave meets the smoothed medium gradually, while it is being absorbed.
+        const hw = Math.round((half * depth) / Math.max(1, layout.pmlCells));
+        for (let d = -hw; d <= hw; d++) {
           if (xOut) {
             const z = mz + d;
             if (z < 0 || z >= modelNz) continue;
