@@ -80,7 +80,6 @@ const f32 = Math.fround;
 /** Values below 2^-100 become zero, as the kernels store them (see reference-kernel.ts). */
 const flushToZero = (x: number) => (Math.abs(x) < FLUSH_BELOW ? 0 : x);
 
-
 /** Grid offsets (column, row) of each quantity's staggered position. */
 function stagger(component: VelocityComponent | "stress"): [number, number] {
   if (component === "x") return [0.5, 0];
@@ -88,7 +87,8 @@ function stagger(component: VelocityComponent | "stress"): [number, number] {
   return [0, 0];
 }
 
-function fieldOf(layout: FdLayout, component: VelocityComponent | "sxx" | "szz"): number {
+/** Float offset of a particle-velocity component's array. */
+function fieldOf(layout: FdLayout, component: VelocityComponent): number {
   const o = layout.offsets;
   if (layout.mode === "sh") {
     if (component !== "y") throw new StepInputError(`SH records only the y component, got "${component}".`, "component");
@@ -99,10 +99,6 @@ function fieldOf(layout: FdLayout, component: VelocityComponent | "sxx" | "szz")
       return o.f0;
     case "z":
       return o.f1;
-    case "sxx":
-      return o.f2;
-    case "szz":
-      return o.f3;
     default:
       throw new StepInputError(`P-SV records the x or z component, got "${component}".`, "component");
   }
