@@ -224,6 +224,22 @@ export interface QuillmoorSurvey {
 const SP_SPACING_M = 2;
 const FIRST_SP_X = -1;
 
+/** The shot layouts of the survey (one per source point), as a synthesiser sees them. */
+export function quillmoorShotLayouts(options: QuillmoorOptions = {}): ShotLayout[] {
+  const nSp = options.sourcePoints ?? 26;
+  const nCh = options.channels ?? 48;
+  const dt = options.sampleIntervalS ?? 0.00025;
+  const ns = Math.round((options.recordLengthS ?? 0.5) / dt);
+  const receiverX = Array.from({ length: nCh }, (_, i) => i * 1.0);
+  return Array.from({ length: nSp }, (_, i) => ({
+    sourceX: FIRST_SP_X + i * SP_SPACING_M,
+    receiverX,
+    startTimeS: options.startTimeS ?? -0.01,
+    sampleIntervalS: dt,
+    sampleCount: ns,
+  }));
+}
+
 /** File name of a blow, e.g. "sp07-b2.sg2". */
 export function blowFileName(sourcePoint: number, blow: number): string {
   return `sp${String(sourcePoint).padStart(2, "0")}-b${blow}.sg2`;
@@ -380,9 +396,28 @@ export function writeQuillmoorSurvey(outDir: string, options: QuillmoorOptions =
 }
 
 if (process.argv[1] && import.meta.url === pathToFileURL(path.resolve(process.argv[1])).href) {
+  // Usage: make-field-data.ts [outDir] [--analytic]
+  // By default the waveforms come from the finite-difference solver through the hidden true
+  // model (true-ground.ts); --analytic uses the quick analytic stand-in instead.
   const here = path.dirname(fileURLToPath(import.meta.url));
-  const outDir = path.resolve(process.argv[2] ?? path.join(here, "field"));
-  const survey = writeQuillmoorSurvey(outDir);
+  const args = process.argv.slice(2);
+  const analytic = args.includes("--analytic");
+  const outDir = path.resolve(args.find((a) => !a.startsWith("--")) ?? path.join(here, "field"));
+  let synthesise: ShotSynthesiser | undefined;
+  let closePool: (() => Promise<void>) | undefined;
+  if (!analytic) {
+    const { createWorkerPool } = await import("../../pipeline/workers/pool");
+    const { solverSynthesiser } = await import("./true-ground");
+    const pool = createWorkerPool();
+    closePool = () => pool.close();
+    const started = Date.now();
+    synthesise = await solverSynthesiser(quillmoorShotLayouts(), pool, (done, total) => {
+      process.stdout.write(`\r  modelling the true ground: shot ${done} of ${total}`);
+    });
+    process.stdout.write(`\r  modelled 26 shots through the true ground in ${((Date.now() - started) / 1000).toFixed(1)} s\n`);
+  }
+  const survey = writeQuillmoorSurvey(outDir, { synthesise });
+  await closePool?.();
   const bytes = survey.files.reduce((s, f) => s + f.bytes.length, 0);
   process.stdout.write(`Wrote ${survey.files.length} SEG-2 files (${(bytes / 1e6).toFixed(1)} MB) and qm1-geometry.csv to ${outDir}\n`);
 }
