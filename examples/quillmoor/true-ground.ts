@@ -6,6 +6,7 @@
  *
  * Invented for the demo only: no test uses these values as a check.
  */
+import FFT from "fft.js";
 import { buildModel, type LayerDescription, type ShapeDescription } from "../../pipeline/kernels/fd/model-grid";
 import { modelShots, type GatherTemplate } from "../../pipeline/kernels/fd/model-shots";
 import type { ElasticModel, TraceHeader } from "../../pipeline/types";
@@ -45,6 +46,50 @@ export function quillmoorTrueModel(): ElasticModel {
 
 /** Peak frequency of the Ricker wavelet standing in for the hammer, Hz. */
 export const HAMMER_PEAK_HZ = 30;
+
+/** Apparent velocity used to turn the 2D (line-source) synthetics into point-source-like records, m/s. */
+export const POINT_SOURCE_VELOCITY_MPS = 170;
+
+/**
+ * Turns line-source traces into point-source-like traces by inverting the single-velocity
+ * transformation of Forbriger, Groos & Schäfer (2014): u_line = √(2 r v) · (u_point ∗ H(t)/√t),
+ * i.e. in the frequency domain u_line = √(2 r v π) (iω)^(−1/2) u_point, so
+ * u_point = (iω)^(1/2) u_line / √(2 r v π) (a half-order derivative, e^{−iωt} convention).
+ * The 2D solver simulates a line source; a hammer is a point source, so the invented field
+ * records get this conversion to behave like real ones. Distances below 0.5 m are taken as 0.5 m
+ * (the plate sits beside the geophone). `data` is `[trace][sample]`, changed in place.
+ */
+export function lineToPointSource(data: Float32Array, distancesM: number[], sampleCount: number, sampleIntervalS: number, velocityMps: number): void {
+  let size = 4;
+  while (size < 2 * sampleCount) size *= 2;
+  const fft = new FFT(size);
+  const input = new Float64Array(size);
+  const spectrum = fft.createComplexArray() as number[];
+  const back = fft.createComplexArray() as number[];
+  const c = Math.SQRT1_2; // cos(π/4) = sin(π/4)
+  for (let t = 0; t < distancesM.length; t++) {
+    input.fill(0);
+    for (let k = 0; k < sampleCount; k++) input[k] = data[t * sampleCount + k];
+    fft.realTransform(spectrum, input);
+    fft.completeSpectrum(spectrum);
+    const r = Math.max(0.5, Math.abs(distancesM[t]));
+    const norm = 1 / Math.sqrt(2 * r * velocityMps * Math.PI);
+    for (let k = 0; k < size; k++) {
+      const signed = k <= size / 2 ? k : k - size;
+      const w = (2 * Math.PI * signed) / (size * sampleIntervalS);
+      const mag = Math.sqrt(Math.abs(w)) * norm;
+      // (iω)^(1/2) = √|ω| e^{±iπ/4}
+      const cr = mag * c;
+      const ci = signed >= 0 ? mag * c : -mag * c;
+      const re = spectrum[2 * k];
+      const im = spectrum[2 * k + 1];
+      spectrum[2 * k] = re * cr - im * ci;
+      spectrum[2 * k + 1] = re * ci + im * cr;
+    }
+    fft.inverseTransform(back, spectrum);
+    for (let k = 0; k < sampleCount; k++) data[t * sampleCount + k] = back[2 * k];
+  }
+}
 
 /**
  * Models every shot through the true model on the pool (vertical force, vertical geophones,
@@ -86,6 +131,15 @@ export async function solverSynthesiser(
     { mode: "psv", sourceKind: "force-z", wavelet: { kind: "ricker", peakHz: HAMMER_PEAK_HZ }, component: "z", pmlCells: 20, freeSurface: true },
     { pool, onShot: (done, total) => onShot?.(done, total) },
   );
+  for (const g of result.gathers) {
+    lineToPointSource(
+      g.data,
+      g.traces.map((h) => h.receiverX - h.sourceX),
+      g.sampleCount,
+      g.sampleIntervalS,
+      POINT_SOURCE_VELOCITY_MPS,
+    );
+  }
   let peak = 0;
   for (const g of result.gathers) for (const v of g.data) peak = Math.max(peak, Math.abs(v));
   const scale = peak > 0 ? 1 / peak : 1;
