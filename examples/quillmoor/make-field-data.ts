@@ -13,6 +13,7 @@ import { mkdirSync, writeFileSync } from "node:fs";
 import path from "node:path";
 import { fileURLToPath, pathToFileURL } from "node:url";
 import { writeSeg2 } from "../../pipeline/io/seg2";
+import { gaussianSource as gaussian, mulberry32 } from "../../pipeline/kernels/random";
 
 /** Layout of one shot for a synthesiser. Positions in m along the line, times in s. */
 export interface ShotLayout {
@@ -175,23 +176,6 @@ export function traceSynthesiser(shot: ShotLayout, ground: AnalyticGround = QUIL
     }
   }
   return out;
-}
-
-/** mulberry32 seeded uniform generator (public-domain 32-bit generator). */
-function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
-/** Standard normal numbers by the Box–Muller transform. */
-function gaussian(u: () => number): () => number {
-  return () => Math.sqrt(-2 * Math.log(1 - u())) * Math.cos(2 * Math.PI * u());
 }
 
 export interface QuillmoorOptions {

@@ -16,26 +16,15 @@ import { traceEditStep } from "../steps/trace-edit";
 import { lineSourceStep } from "../steps/line-source";
 import { spectraStep } from "../steps/spectra";
 import type { z } from "zod";
+import { mulberry32 } from "../kernels/random";
 
 const TRACES = 96;
 const SAMPLES = 4000;
 const DT = 0.00025;
 
-/** mulberry32 (public-domain 32-bit generator): seeded, so every bench run sees the same data. */
-function uniformSource(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
 /** The bench gather: receivers every 0.5 m, a 400 m/s first arrival and a 150 m/s surface wave in noise. */
 export function benchGather(): Gather {
-  const u = uniformSource(96_4000);
+  const u = mulberry32(96_4000); // seeded: every bench run sees the same data
   const traces: TraceHeader[] = [];
   const data = new Float32Array(TRACES * SAMPLES);
   for (let t = 0; t < TRACES; t++) {
