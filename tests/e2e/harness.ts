@@ -63,9 +63,20 @@ export async function prepareData(dir: string): Promise<void> {
   if (r.exitCode !== 0) throw new Error(`preparing demo data failed:\n${r.all}`);
 }
 
-/** Builds the app when there is no build yet. */
+function newestMtime(p: string): number {
+  if (!fs.existsSync(p)) return 0;
+  const st = fs.statSync(p);
+  if (!st.isDirectory()) return st.mtimeMs;
+  let newest = 0;
+  for (const e of fs.readdirSync(p)) if (e !== "node_modules" && !e.startsWith(".")) newest = Math.max(newest, newestMtime(path.join(p, e)));
+  return newest;
+}
+
+/** Builds the app when there is no build yet or a source is newer than it. */
 export async function ensureBuild(): Promise<void> {
-  if (fs.existsSync(path.join(projectRoot, ".next", "BUILD_ID")) && !process.env.TRACEWRIGHT_E2E_REBUILD) return;
+  const buildId = path.join(projectRoot, ".next", "BUILD_ID");
+  const sources = ["app", "db", "pipeline", "proxy.ts", "next.config.mjs", "tailwind.config.ts"].map((f) => newestMtime(path.join(projectRoot, f)));
+  if (fs.existsSync(buildId) && fs.statSync(buildId).mtimeMs >= Math.max(...sources)) return;
   const r = await execa(path.join(projectRoot, "node_modules", ".bin", "next"), ["build"], {
     cwd: projectRoot,
     env: { ...process.env, NEXT_TELEMETRY_DISABLED: "1" },

@@ -27,12 +27,14 @@ function fieldSchema(doc: ParamDoc): z.ZodType {
       if (doc.type === "integer") s = s.int("Enter a whole number.");
       if (doc.minimum !== undefined) s = s.min(doc.minimum, `At least ${doc.minimum}.`);
       if (doc.maximum !== undefined) s = s.max(doc.maximum, `At most ${doc.maximum}.`);
-      return s;
+      // An empty number box (NaN) keeps the run's value, e.g. for settings that may be unset.
+      return z.preprocess((v) => (v === null || v === "" || (typeof v === "number" && Number.isNaN(v)) ? undefined : v), s.optional());
     }
     case "boolean":
       return z.boolean();
     case "enum":
-      return doc.choices ? z.enum(doc.choices as [string, ...string[]]) : z.string();
+      // Select boxes hold text; choices may be numbers (e.g. 0, 50, 60 Hz), compared as text.
+      return doc.choices ? z.preprocess((v) => (v === null || v === undefined ? v : String(v)), z.enum(doc.choices as [string, ...string[]]).optional()) : z.string();
     case "array":
     case "object":
       return z.string().refine((t) => {
@@ -108,7 +110,8 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
       for (const d of s.docs) {
         let v = values[s.label]?.[d.name];
         if (isJsonKind(d) && typeof v === "string") v = JSON.parse(v);
-        if (v === undefined) continue;
+        if (v === undefined || v === null || (typeof v === "number" && Number.isNaN(v))) continue;
+        if (d.type === "enum" && typeof s.params[d.name] === "number") v = Number(v);
         if (JSON.stringify(v) !== JSON.stringify(s.params[d.name])) (overrides[s.label] ??= {})[d.name] = v;
       }
     }
@@ -158,7 +161,7 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
                       {d.choices.map((c) => <option key={c} value={c}>{c}</option>)}
                     </select>
                   ) : d.type === "number" || d.type === "integer" ? (
-                    <input id={id} type="number" step="any" className="field mt-1" aria-invalid={Boolean(err)} {...register(name, { valueAsNumber: true })} />
+                    <input id={id} type="number" step="any" className="field mt-1" placeholder={s.params[d.name] === null ? "not set" : undefined} aria-invalid={Boolean(err)} {...register(name, { valueAsNumber: true })} />
                   ) : isJsonKind(d) ? (
                     <textarea id={id} className="field mt-1 h-16 font-mono text-xs" {...register(name)} />
                   ) : (
