@@ -25,12 +25,13 @@ export const projectRoot = findProjectRoot();
 
 /** The data folder; created on demand. */
 export function dataDir(): string {
-  return path.resolve(process.env.TRACEWRIGHT_DATA_DIR ?? path.join(projectRoot, "data"));
+  // The data folder is chosen at run time; keep the bundler from tracing it into the build.
+  return path.resolve(/* turbopackIgnore: true */ process.env.TRACEWRIGHT_DATA_DIR ?? path.join(projectRoot, "data"));
 }
 
 /** The SQLite database file. */
 export function databasePath(): string {
-  return path.resolve(process.env.TRACEWRIGHT_DB ?? path.join(dataDir(), "tracewright.db"));
+  return path.resolve(/* turbopackIgnore: true */ process.env.TRACEWRIGHT_DB ?? path.join(dataDir(), "tracewright.db"));
 }
 
 /** The generated migrations folder. */

@@ -103,7 +103,7 @@ async function main() {
   }
 
   say("\nDemo accounts (invented people; demo passwords):");
-  for (const a of accounts) say(`  ${a.role.padEnd(10)} ${a.email.padEnd(34)} ${a.password}   ${a.name}`);
+  for (const a of accounts) say(`  ${a.role.padEnd(10)} ${a.email.padEnd(34)} ${a.password.padEnd(26)} ${a.name}`);
 
   if (prepareOnly) return;
 

@@ -395,10 +395,12 @@ if (process.argv[1] && import.meta.url === pathToFileURL(path.resolve(process.ar
     const pool = createWorkerPool();
     closePool = () => pool.close();
     const started = Date.now();
+    const tty = Boolean(process.stdout.isTTY);
     synthesise = await solverSynthesiser(quillmoorShotLayouts(), pool, (done, total) => {
-      process.stdout.write(`\r  modelling the true ground: shot ${done} of ${total}`);
+      if (tty) process.stdout.write(`\r  modelling the true ground: shot ${done} of ${total}`);
+      else if (done % 5 === 0 || done === total) process.stdout.write(`  modelling the true ground: ${done} of ${total} shots\n`);
     });
-    process.stdout.write(`\r  modelled 26 shots through the true ground in ${((Date.now() - started) / 1000).toFixed(1)} s\n`);
+    process.stdout.write(`${tty ? "\r" : ""}  modelled 26 shots through the true ground in ${((Date.now() - started) / 1000).toFixed(1)} s\n`);
   }
   const survey = writeQuillmoorSurvey(outDir, { synthesise });
   await closePool?.();

@@ -22,8 +22,7 @@ export function SnapshotPlayer({ hash, frameCount, timesS }: { hash: string; fra
     const c = canvas.current;
     if (!c || !q.data) return;
     const { header, payload } = q.data;
-    let peak = 0;
-    for (let i = 0; i < payload.length; i++) peak = Math.max(peak, Math.abs(payload[i]));
+    const peak = clipLevel(payload);
     const img = gridToCanvas(payload, header.nx, header.nz, -peak || -1, peak || 1, DIVERGING);
     c.width = header.nx * 4;
     c.height = header.nz * 4;
@@ -32,6 +31,7 @@ export function SnapshotPlayer({ hash, frameCount, timesS }: { hash: string; fra
     ctx.drawImage(img, 0, 0, c.width, c.height);
   }, [q.data]);
 
+  const h = q.data?.header;
   return (
     <div className="space-y-2" data-testid="snapshot-player">
       <div className="flex items-center gap-3 text-sm">
@@ -40,6 +40,22 @@ export function SnapshotPlayer({ hash, frameCount, timesS }: { hash: string; fra
         <span className="tabular-nums muted">frame {frame + 1}/{frameCount} · t = {((timesS[frame] ?? 0) * 1000).toFixed(1)} ms</span>
       </div>
       <canvas ref={canvas} className="w-full max-w-3xl border border-line" style={{ imageRendering: "pixelated" }} role="img" aria-label="Wavefield snapshot" />
+      {h ? (
+        <p className="text-xs muted">
+          Distance {h.originX.toFixed(1)} to {(h.originX + (h.nx - 1) * h.spacingM).toFixed(1)} m (left to right), depth{" "}
+          {h.originZ.toFixed(1)} to {(h.originZ + (h.nz - 1) * h.spacingM).toFixed(1)} m (top to bottom). Colours clipped at the 99th
+          percentile of the frame&apos;s amplitudes so the waves away from the source stay visible.
+        </p>
+      ) : null}
     </div>
   );
+}
+
+/** The 99th percentile of |v| over (a sample of) the frame: a clip level the source point does not dominate. */
+function clipLevel(values: Float32Array): number {
+  const step = Math.max(1, Math.floor(values.length / 20000));
+  const sample: number[] = [];
+  for (let i = 0; i < values.length; i += step) sample.push(Math.abs(values[i]));
+  sample.sort((a, b) => a - b);
+  return sample[Math.min(sample.length - 1, Math.floor(0.99 * sample.length))] || 1;
 }
