@@ -41,8 +41,12 @@ export function closeDb(): void {
   }
 }
 
-/** Runs `fn` in an immediate transaction (takes the write lock up front to avoid upgrade deadlocks). */
-export function inTransaction<T>(db: Db, fn: (tx: Db) => T): T {
-  const run = db.$client.transaction(() => fn(db));
-  return run.immediate();
+/**
+ * Runs `fn` in a write transaction that takes the write lock at its start (BEGIN IMMEDIATE).
+ * A deferred transaction that reads and then writes fails with SQLITE_BUSY when another process
+ * wrote in between (the busy timeout cannot help a lock upgrade), so every transaction that
+ * writes goes through here.
+ */
+export function writeTransaction<T>(db: Db, fn: (tx: Db) => T): T {
+  return db.transaction((tx) => fn(tx as unknown as Db), { behavior: "immediate" });
 }

@@ -7,7 +7,7 @@ import fs from "node:fs";
 import { setMaxListeners } from "node:events";
 import path from "node:path";
 import { and, eq, inArray } from "drizzle-orm";
-import type { Db } from "../db/client";
+import { writeTransaction, type Db } from "../db/client";
 import { artifacts, rejectedFiles, runSteps, runs, type Door } from "../db/schema";
 import { recordAudit, type Actor } from "../db/queries/audit";
 import { ensureDataset, getDataset, listDatasetFiles } from "../db/queries/datasets";
@@ -109,7 +109,7 @@ export function createRun(
     overrides?: Record<string, Record<string, unknown>>;
   },
 ): number {
-  return db.transaction((tx) => {
+  return writeTransaction(db, (tx) => {
     const run = tx
       .insert(runs)
       .values({
@@ -138,7 +138,7 @@ export function createRun(
         })
         .run();
     });
-    recordAudit(tx as unknown as Db, {
+    recordAudit(tx, {
       actor: opts.actor,
       action: opts.parentRunId ? "run.rerun" : "run.start",
       entityType: "run",
@@ -237,7 +237,7 @@ export function markInterruptedRuns(db: Db): number[] {
   const marked: number[] = [];
   for (const r of runsWithStatus(db, "running")) {
     if (pidAlive(r.hostPid)) continue;
-    db.transaction((tx) => {
+    writeTransaction(db, (tx) => {
       tx.update(runs)
         .set({ status: "interrupted", error: "The process running this run stopped before it finished.", finishedAt: new Date() })
         .where(and(eq(runs.id, r.id), eq(runs.status, "running")))
@@ -259,7 +259,7 @@ export function prepareResume(db: Db, runId: number, actor: Actor): void {
   if (!["interrupted", "failed", "cancelled"].includes(run.status)) {
     throw new AppError("conflict", `Run ${runId} is ${run.status}; only interrupted, failed or cancelled runs can be resumed`);
   }
-  db.transaction((tx) => {
+  writeTransaction(db, (tx) => {
     tx.update(runs)
       .set({ status: "queued", error: null, cancelRequested: false, finishedAt: null })
       .where(eq(runs.id, runId))
@@ -268,7 +268,7 @@ export function prepareResume(db: Db, runId: number, actor: Actor): void {
       .set({ status: "waiting", error: null, progress: 0, progressMessage: null })
       .where(and(eq(runSteps.runId, runId), inArray(runSteps.status, ["failed", "cancelled", "running", "skipped"])))
       .run();
-    recordAudit(tx as unknown as Db, { actor, action: "run.resume", entityType: "run", entityId: runId, before: { status: run.status } });
+    recordAudit(tx, { actor, action: "run.resume", entityType: "run", entityId: runId, before: { status: run.status } });
   });
 }
 
@@ -279,14 +279,14 @@ export function requestCancel(db: Db, runId: number, actor: Actor): void {
   if (!["queued", "running"].includes(run.status)) {
     throw new AppError("conflict", `Run ${runId} is already ${run.status}`);
   }
-  db.transaction((tx) => {
+  writeTransaction(db, (tx) => {
     if (run.status === "queued") {
       tx.update(runs).set({ status: "cancelled", cancelRequested: true, finishedAt: new Date() }).where(eq(runs.id, runId)).run();
       tx.update(runSteps).set({ status: "cancelled" }).where(and(eq(runSteps.runId, runId), eq(runSteps.status, "waiting"))).run();
     } else {
       tx.update(runs).set({ cancelRequested: true }).where(eq(runs.id, runId)).run();
     }
-    recordAudit(tx as unknown as Db, { actor, action: "run.cancel", entityType: "run", entityId: runId, before: { status: run.status } });
+    recordAudit(tx, { actor, action: "run.cancel", entityType: "run", entityId: runId, before: { status: run.status } });
   });
 }
 
@@ -543,7 +543,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     clearInterval(cancelPoll);
     opts.signal?.removeEventListener("abort", onOuterAbort);
   }
-  db.transaction((tx) => {
+  writeTransaction(db, (tx) => {
     tx.update(runs)
       .set({ status: outcome.status, error: outcome.error ?? null, finishedAt: new Date() })
       .where(eq(runs.id, runId))

@@ -1,6 +1,6 @@
 /** Datasets: a folder of field files at one moment, identified by its content hash. */
 import { and, desc, eq } from "drizzle-orm";
-import type { Db } from "../client";
+import { writeTransaction, type Db } from "../client";
 import { datasetFiles, datasets } from "../schema";
 
 export interface FolderFile {
@@ -14,13 +14,15 @@ export function ensureDataset(
   db: Db,
   d: { folderPath: string; contentHash: string; files: FolderFile[]; surveyId: number | null; profileId: number | null; name: string },
 ) {
-  const existing = db
-    .select()
-    .from(datasets)
-    .where(and(eq(datasets.folderPath, d.folderPath), eq(datasets.contentHash, d.contentHash)))
-    .get();
-  if (existing) return existing;
-  return db.transaction((tx) => {
+  return writeTransaction(db, (tx) => {
+    // Look up inside the write transaction: two processes registering the same folder at once
+    // must not both insert it.
+    const existing = tx
+      .select()
+      .from(datasets)
+      .where(and(eq(datasets.folderPath, d.folderPath), eq(datasets.contentHash, d.contentHash)))
+      .get();
+    if (existing) return existing;
     const row = tx
       .insert(datasets)
       .values({

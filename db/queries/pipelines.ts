@@ -1,6 +1,6 @@
 /** Pipelines and their versions: every saved change is a new version, never an overwrite. */
 import { desc, eq } from "drizzle-orm";
-import type { Db } from "../client";
+import { writeTransaction, type Db } from "../client";
 import { pipelineVersions, pipelines } from "../schema";
 import { recordAudit, type Actor } from "./audit";
 
@@ -9,7 +9,7 @@ export function savePipelineVersion(
   db: Db,
   p: { name: string; surveyId: number | null; sourceText: string; sourcePath: string | null; definition: unknown; contentHash: string; actor: Actor },
 ) {
-  return db.transaction((tx) => {
+  return writeTransaction(db, (tx) => {
     let pipeline = tx.select().from(pipelines).where(eq(pipelines.name, p.name)).get();
     pipeline ??= tx.insert(pipelines).values({ name: p.name, surveyId: p.surveyId }).returning().get();
     const latest = tx
@@ -33,7 +33,7 @@ export function savePipelineVersion(
       })
       .returning()
       .get();
-    recordAudit(tx as unknown as Db, {
+    recordAudit(tx, {
       actor: p.actor,
       action: "pipeline.version",
       entityType: "pipeline",

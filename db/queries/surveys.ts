@@ -1,10 +1,14 @@
 /** Surveys and their profiles. */
 import { and, eq } from "drizzle-orm";
-import type { Db } from "../client";
+import { writeTransaction, type Db } from "../client";
 import { profiles, surveys } from "../schema";
 
 /** Finds or creates the survey with this slug (and the profile, when named). */
 export function ensureSurvey(db: Db, slug: string, profileName: string | null, info: { name?: string; site?: string; client?: string } = {}) {
+  return writeTransaction(db, (tx) => ensureSurveyIn(tx, slug, profileName, info));
+}
+
+function ensureSurveyIn(db: Db, slug: string, profileName: string | null, info: { name?: string; site?: string; client?: string }) {
   let survey = db.select().from(surveys).where(eq(surveys.slug, slug)).get();
   if (!survey) {
     survey = db

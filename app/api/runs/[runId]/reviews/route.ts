@@ -1,6 +1,6 @@
 import { NextResponse } from "next/server";
 import { z } from "zod";
-import { getDb, inTransaction } from "@/db/client";
+import { getDb, writeTransaction } from "@/db/client";
 import { recordAudit } from "@/db/queries/audit";
 import { addReview, listReviews } from "@/db/queries/reviews";
 import { answer, parseId, parseOr400 } from "@/app/lib/api";
@@ -30,7 +30,7 @@ export async function POST(req: Request, ctx: { params: Promise<{ runId: string 
     const runId = parseId((await ctx.params).runId, "runId");
     const body = parseOr400(reviewSchema, await req.json().catch(() => null), "body");
     const db = getDb();
-    const review = inTransaction(db, (tx) => {
+    const review = writeTransaction(db, (tx) => {
       const r = addReview(tx, { runId, reviewerUserId: user.id, decision: body.decision, comment: body.comment });
       recordAudit(tx, {
         actor: webActor(user),
