@@ -29,7 +29,7 @@ export interface TracePicks {
 }
 
 /** Settings shared by both pickers, in samples. */
-export interface PickWindow {
+export interface PickSearchWindow {
   /** First sample index searched. */
   searchStart: number;
   /** One past the last sample index searched. */
@@ -40,7 +40,7 @@ export interface PickWindow {
   longSamples: number;
 }
 
-function checkWindow(w: PickWindow, sampleCount: number): void {
+function checkWindow(w: PickSearchWindow, sampleCount: number): void {
   assertCount("searchStart", w.searchStart);
   assertCount("searchEnd", w.searchEnd);
   assertCount("shortSamples", w.shortSamples);
@@ -68,7 +68,7 @@ function meanSquare(data: Float32Array, base: number, a: number, b: number, n: n
   return s / (hi - lo);
 }
 
-function pickQuality(data: Float32Array, base: number, pick: number, w: PickWindow, n: number): number {
+function pickQuality(data: Float32Array, base: number, pick: number, w: PickSearchWindow, n: number): number {
   const after = meanSquare(data, base, pick, pick + w.shortSamples, n);
   const before = meanSquare(data, base, pick - w.longSamples, pick, n);
   if (before <= 0) return after > 0 ? 1 : 0;
@@ -83,7 +83,7 @@ export function staLtaPicks(
   data: Float32Array,
   traceCount: number,
   sampleCount: number,
-  window: PickWindow,
+  window: PickSearchWindow,
   triggerRatio: number,
 ): TracePicks {
   assertTraceBlock(data, traceCount, sampleCount);
@@ -155,7 +155,7 @@ export function aicPicks(
   data: Float32Array,
   traceCount: number,
   sampleCount: number,
-  window: PickWindow,
+  window: PickSearchWindow,
   around?: { centres: Float64Array; halfWidth: number },
 ): TracePicks {
   assertTraceBlock(data, traceCount, sampleCount);

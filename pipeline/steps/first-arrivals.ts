@@ -7,7 +7,7 @@
 import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { GatherSet, PickSet } from "../types";
-import { aicPicks, flagOffsetOutliers, staLtaPicks, type PickWindow } from "../kernels/pickers";
+import { aicPicks, flagOffsetOutliers, staLtaPicks, type PickSearchWindow } from "../kernels/pickers";
 import { runTraceBlocks } from "./trace-blocks";
 
 export const firstArrivalsParams = z
@@ -75,7 +75,7 @@ export const firstArrivalsStep = defineStep({
       if (shortSamples + 2 > g.sampleCount) {
         throw new StepInputError(`shortWindowMs ${params.shortWindowMs} ms is longer than the traces of gather "${g.id}" (${g.sampleCount} samples of ${dt * 1000} ms)`, "shortWindowMs");
       }
-      const w: PickWindow = { searchStart, searchEnd, shortSamples, longSamples };
+      const w: PickSearchWindow = { searchStart, searchEnd, shortSamples, longSamples };
       return w;
     });
     const result: PickSet = { kind: "picks", method: params.method, picks: [] };

@@ -26,7 +26,7 @@ export function scaleSamples(arg: { samples: Float32Array; factor: number }) {
 import { filterTraces, type FilterTracesArgs } from "../kernels/filter";
 import { agcTraces, normaliseTraces, timePowerTraces } from "../kernels/gain";
 import { applyMutes, type MuteLines } from "../kernels/mute";
-import { aicPicks, staLtaPicks, type PickWindow } from "../kernels/pickers";
+import { aicPicks, staLtaPicks, type PickSearchWindow } from "../kernels/pickers";
 import { lineSourceTraces, type LineSourceArgs } from "../kernels/line-source";
 import { resampleTraces, type TimeGrid } from "../kernels/resample";
 import { amplitudeSpectra } from "../kernels/spectrum";
@@ -80,7 +80,7 @@ export function pickTraceBlock(arg: {
   traceCount: number;
   sampleCount: number;
   method: "energy-ratio" | "information-criterion";
-  window: PickWindow;
+  window: PickSearchWindow;
   triggerRatio: number;
   /** AIC half window around the energy-ratio pick, samples; 0 = AIC over the whole search window. */
   aicHalfWidth: number;
