@@ -8,6 +8,7 @@ import { describe, expect, it } from "vitest";
 import { FileFormatError } from "../../../pipeline/errors";
 import { readSeg2, seg2ToGather, writeGatherAsSeg2, writeSeg2, type Seg2FormatCode } from "../../../pipeline/io/seg2";
 import { seededRandom } from "../../helpers/random";
+import { catchError as catchFileError } from "../../helpers/catch-error";
 
 interface HandTrace {
   strings: string[];
@@ -327,14 +328,7 @@ describe("seg2ToGather", () => {
   });
 });
 
-function catchError(fn: () => unknown): FileFormatError {
-  try {
-    fn();
-  } catch (e) {
-    return e as FileFormatError;
-  }
-  throw new Error("expected an error");
-}
+const catchError = (fn: () => unknown) => catchFileError<FileFormatError>(fn);
 
 describe("malformed and truncated SEG-2 files", () => {
   const ns = 10;

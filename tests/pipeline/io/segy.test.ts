@@ -9,6 +9,7 @@ import { encodeEbcdic } from "../../../pipeline/io/ebcdic";
 import { readSegy, segyToGathers, writeGatherSetAsSegy, writeSegy } from "../../../pipeline/io/segy";
 import type { Gather, GatherSet } from "../../../pipeline/types";
 import { seededRandom } from "../../helpers/random";
+import { catchError as catchFileError } from "../../helpers/catch-error";
 
 /** Byte offset of a 1-based position in the trace header of trace `t` (samples of `width` bytes). */
 const th = (t: number, pos: number, ns: number, width: number) => 3600 + t * (240 + ns * width) + pos - 1;
@@ -65,14 +66,7 @@ function handSegy(o: HandOpts): Uint8Array {
   return bytes;
 }
 
-function catchError(fn: () => unknown): FileFormatError {
-  try {
-    fn();
-  } catch (e) {
-    return e as FileFormatError;
-  }
-  throw new Error("expected an error");
-}
+const catchError = (fn: () => unknown) => catchFileError<FileFormatError>(fn);
 
 describe("readSegy on hand-built files", () => {
   it("reads IBM floats (format 1), headers and scalars, big-endian rev 2.0", () => {
