@@ -4,7 +4,7 @@ import { getUserByEmail } from "../db/queries/users";
 import type { Actor } from "../db/queries/audit";
 import { AppError, toAppError } from "../pipeline/errors";
 import { markInterruptedRuns } from "../pipeline/runner";
-import type { Door } from "../db/schema";
+import { ROLES, type Door, type Role } from "../db/schema";
 
 /** Opens the database (migrating it) and marks runs left by dead processes as interrupted. */
 export function openCliDb(): Db {
@@ -18,14 +18,26 @@ export function openCliDb(): Db {
   return db;
 }
 
-/** The person acting: --as <email> (or TRACEWRIGHT_USER) when it names a user, else the OS user. */
-export function resolveActor(db: Db, as: string | undefined, door: Door = "cli"): Actor {
+/**
+ * The person acting: --as <email> (or TRACEWRIGHT_USER) when it names a user, else the OS user.
+ * `doing` names the action for messages; `roles` limits which roles may do it (default: anyone
+ * but an auditor, who reads and changes nothing).
+ */
+export function resolveActor(
+  db: Db,
+  as: string | undefined,
+  door: Door = "cli",
+  rule: { doing: string; roles?: readonly Role[] } = { doing: "start runs" },
+): Actor {
   const who = as ?? process.env.TRACEWRIGHT_USER;
   if (who && who.includes("@")) {
     const user = getUserByEmail(db, who);
     if (!user) throw new AppError("bad-input", `--as ${who}: no such user (see tracewright users list)`, { field: "--as" });
     if (!user.active) throw new AppError("forbidden", `--as ${who}: this user is deactivated`, { field: "--as" });
-    if (user.role === "auditor") throw new AppError("forbidden", `--as ${who}: an auditor reads but does not start runs`, { field: "--as" });
+    const allowed = rule.roles ?? ROLES.filter((r) => r !== "auditor");
+    if (!allowed.includes(user.role)) {
+      throw new AppError("forbidden", `--as ${who}: a user with the ${user.role} role may not ${rule.doing}`, { field: "--as" });
+    }
     return { userId: user.id, label: user.email, door };
   }
   return { userId: null, label: who ?? process.env.USER ?? "cli", door };

@@ -12,7 +12,7 @@ export function registerCancel(program: Command): void {
     .action(
       action(async (run: string, opts: { as?: string }) => {
         const db = openCliDb();
-        requestCancel(db, parseId(run, "run"), resolveActor(db, opts.as));
+        requestCancel(db, parseId(run, "run"), resolveActor(db, opts.as, "cli", { doing: "cancel runs" }));
         process.stderr.write(`cancel requested for run ${run}\n`);
       }),
     );

@@ -15,7 +15,7 @@ export function registerResume(program: Command): void {
       action(async (run: string, opts: { as?: string; json?: boolean }) => {
         const db = openCliDb();
         const id = parseId(run, "run");
-        prepareResume(db, id, resolveActor(db, opts.as));
+        prepareResume(db, id, resolveActor(db, opts.as, "cli", { doing: "resume runs" }));
         await executeInTerminal(db, id, opts);
       }),
     );

@@ -5,7 +5,10 @@ import { recordAudit } from "../../db/queries/audit";
 import { createUser, getUserByEmail, listUsers, setUserActive, setUserRole } from "../../db/queries/users";
 import { ROLES } from "../../db/schema";
 import { AppError } from "../../pipeline/errors";
+import { writeTransaction } from "../../db/client";
 import { action, openCliDb, printJson, resolveActor } from "../shared";
+
+const MANAGE = { doing: "manage users", roles: ["admin"] as const };
 
 const addSchema = z.object({
   email: z.email("an e-mail address"),
@@ -34,14 +37,20 @@ export function registerUsers(program: Command): void {
         const parsed = addSchema.safeParse({ ...opts, password: opts.password ?? process.env.TRACEWRIGHT_NEW_PASSWORD });
         if (!parsed.success) throw zodToAppError(parsed.error);
         const db = openCliDb();
+        // Who acts is settled before anything changes, and the change and its audit record
+        // are one transaction: no user without its audit event.
+        const actor = resolveActor(db, opts.as, "cli", MANAGE);
         if (getUserByEmail(db, parsed.data.email)) throw new AppError("conflict", `A user with e-mail ${parsed.data.email} exists already`);
-        const user = createUser(db, parsed.data);
-        recordAudit(db, {
-          actor: resolveActor(db, opts.as),
-          action: "user.add",
-          entityType: "user",
-          entityId: user.id,
-          after: { email: user.email, name: user.name, role: user.role },
+        const user = writeTransaction(db, (tx) => {
+          const created = createUser(tx, parsed.data);
+          recordAudit(tx, {
+            actor,
+            action: "user.add",
+            entityType: "user",
+            entityId: created.id,
+            after: { email: created.email, name: created.name, role: created.role },
+          });
+          return created;
         });
         process.stdout.write(`added ${user.email} (${user.role})\n`);
       }),
@@ -72,10 +81,13 @@ export function registerUsers(program: Command): void {
         const r = z.enum(ROLES).safeParse(role);
         if (!r.success) throw new AppError("bad-input", `role "${role}": expected one of ${ROLES.join(", ")}`, { choices: [...ROLES] });
         const db = openCliDb();
+        const actor = resolveActor(db, opts.as, "cli", MANAGE);
         const user = getUserByEmail(db, email);
         if (!user) throw new AppError("not-found", `No user with e-mail ${email}`);
-        const { before, after } = setUserRole(db, user.id, r.data);
-        recordAudit(db, { actor: resolveActor(db, opts.as), action: "user.role", entityType: "user", entityId: user.id, before: { role: before.role }, after: { role: after.role } });
+        writeTransaction(db, (tx) => {
+          const { before, after } = setUserRole(tx, user.id, r.data);
+          recordAudit(tx, { actor, action: "user.role", entityType: "user", entityId: user.id, before: { role: before.role }, after: { role: after.role } });
+        });
         process.stdout.write(`${email} is now ${r.data}\n`);
       }),
     );
@@ -87,10 +99,13 @@ export function registerUsers(program: Command): void {
     .action(
       action(async (email: string, opts: { as?: string }) => {
         const db = openCliDb();
+        const actor = resolveActor(db, opts.as, "cli", MANAGE);
         const user = getUserByEmail(db, email);
         if (!user) throw new AppError("not-found", `No user with e-mail ${email}`);
-        setUserActive(db, user.id, false);
-        recordAudit(db, { actor: resolveActor(db, opts.as), action: "user.deactivate", entityType: "user", entityId: user.id, before: { active: true }, after: { active: false } });
+        writeTransaction(db, (tx) => {
+          setUserActive(tx, user.id, false);
+          recordAudit(tx, { actor, action: "user.deactivate", entityType: "user", entityId: user.id, before: { active: true }, after: { active: false } });
+        });
         process.stdout.write(`${email} deactivated\n`);
       }),
     );

@@ -78,3 +78,14 @@ describe("rerun overrides", () => {
     expect(() => parseOverride("=3", {})).toThrow(/expected <step label>\.<setting>=<value>/);
   });
 });
+
+describe("who may manage users from the command line", () => {
+  it("refuses --as a non-admin before changing anything, so no user appears without its audit record", async () => {
+    await tw(["users", "add", "--email", "odile@example.org", "--name", "Odile Test", "--role", "auditor", "--password", "long-enough-1"]);
+    const refused = await tw(["users", "add", "--email", "eve@example.org", "--name", "Eve", "--role", "admin", "--password", "long-enough-1", "--as", "odile@example.org"]);
+    expect(refused.exitCode).toBe(2);
+    expect(refused.stderr).toMatch(/--as odile@example\.org: a user with the auditor role may not manage users/);
+    const list = JSON.parse((await tw(["users", "list", "--json"])).stdout) as Array<{ email: string }>;
+    expect(list.map((u) => u.email)).not.toContain("eve@example.org");
+  });
+});
