@@ -150,6 +150,13 @@ export const runs = sqliteTable(
     cancelRequested: integer("cancel_requested", { mode: "boolean" }).notNull().default(false),
     /** Process executing the run, for interrupted-run detection. */
     hostPid: integer("host_pid"),
+    /** Last sign of life of the executing process (written every few seconds while it runs). */
+    heartbeatAt: integer("heartbeat_at", { mode: "timestamp_ms" }),
+    /**
+     * The geometry table as it was when the run was created, stored as an artifact (its hash), so
+     * reruns and resumes use the same table even if the file changes or disappears.
+     */
+    geometryTableHash: text("geometry_table_hash"),
     error: text("error"),
     createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
     startedAt: integer("started_at", { mode: "timestamp_ms" }),

@@ -11,7 +11,7 @@ import { dataDir, projectRoot } from "../db/paths";
 import { getPipelineVersion } from "../db/queries/pipelines";
 import { getDataset } from "../db/queries/datasets";
 import { AppError } from "./errors";
-import { createRerun, createRun, requestCancel as requestCancelRecord, type Actor } from "./runner";
+import { createRerun, createRun, requestCancel as requestCancelRecord, snapshotGeometryTable, type Actor } from "./runner";
 import type { ResolvedPipeline } from "./pipeline-file";
 
 export type { Actor };
@@ -30,7 +30,14 @@ export function queueRun(db: Db, opts: { pipelineVersionId: number; datasetId: n
   if (!pv) throw new AppError("not-found", `Pipeline version ${opts.pipelineVersionId} does not exist`, { field: "pipelineVersionId" });
   if (!getDataset(db, opts.datasetId)) throw new AppError("not-found", `Dataset ${opts.datasetId} does not exist`, { field: "datasetId" });
   const definition = JSON.parse(pv.version.definitionJson) as ResolvedPipeline;
-  const runId = createRun(db, { pipelineVersionId: pv.version.id, datasetId: opts.datasetId, actor: opts.actor, steps: definition.steps });
+  const dataset = getDataset(db, opts.datasetId)!;
+  const runId = createRun(db, {
+    pipelineVersionId: pv.version.id,
+    datasetId: opts.datasetId,
+    actor: opts.actor,
+    steps: definition.steps,
+    geometryTableHash: snapshotGeometryTable(db, definition.geometryTablePath, dataset.folderPath || null),
+  });
   return { runId };
 }
 

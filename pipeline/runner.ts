@@ -16,7 +16,7 @@ import { findCachedStep, runsWithStatus } from "../db/queries/runs";
 import { ensureSurvey } from "../db/queries/surveys";
 import { canonicalJson } from "./artifact-codec";
 import { hasArtifact, readArtifactSync, writeArtifact } from "./artifact-store";
-import { scanFolder, hashFile } from "./dataset-folder";
+import { scanFolder } from "./dataset-folder";
 import { AppError, toAppError } from "./errors";
 import { sha256Hex } from "./hash";
 import { createRunLogger } from "./logger";
@@ -107,6 +107,8 @@ export function createRun(
     parentRunId?: number;
     rerunFromStep?: string;
     overrides?: Record<string, Record<string, unknown>>;
+    /** Artifact hash of the geometry table this run uses (see snapshotGeometryTable). */
+    geometryTableHash?: string | null;
   },
 ): number {
   return writeTransaction(db, (tx) => {
@@ -115,6 +117,7 @@ export function createRun(
       .values({
         pipelineVersionId: opts.pipelineVersionId,
         datasetId: opts.datasetId,
+        geometryTableHash: opts.geometryTableHash ?? null,
         parentRunId: opts.parentRunId ?? null,
         rerunFromStep: opts.rerunFromStep ?? null,
         overridesJson: JSON.stringify(opts.overrides ?? {}),
@@ -149,10 +152,36 @@ export function createRun(
         parentRunId: opts.parentRunId ?? null,
         rerunFromStep: opts.rerunFromStep ?? null,
         overrides: opts.overrides ?? {},
+        geometryTableHash: opts.geometryTableHash ?? null,
       },
     });
     return run.id;
   });
+}
+
+/**
+ * Stores the geometry table a new run will use as an artifact and returns its hash (null when
+ * the pipeline names none). A table of the same name inside the field folder wins over the path
+ * the pipeline names: each folder a crew copies in (e.g. one handed to a watcher) carries its
+ * own geometry. Reruns and resumes reuse the stored table, so a later edit of the file cannot
+ * change what an earlier run's rerun means.
+ */
+export function snapshotGeometryTable(db: Db, geometryTablePath: string | null, fieldFolder: string | null): string | null {
+  if (!geometryTablePath) return null;
+  const local = fieldFolder ? path.join(fieldFolder, path.basename(geometryTablePath)) : "";
+  const file = local && fs.existsSync(local) ? local : geometryTablePath;
+  let text: string;
+  try {
+    text = fs.readFileSync(file, "utf8");
+  } catch {
+    throw new AppError("not-found", `Geometry table ${file} cannot be read (does it exist?)`, { file });
+  }
+  const written = writeArtifact({ kind: "text", name: path.basename(file), text });
+  db.insert(artifacts)
+    .values({ hash: written.hash, kind: "geometryTable", path: written.relativePath, sizeBytes: written.sizeBytes })
+    .onConflictDoNothing()
+    .run();
+  return written.hash;
 }
 
 /** Creates a queued run of a pipeline file on its (or another) field folder. */
@@ -163,6 +192,7 @@ export function prepareRunFromFile(db: Db, opts: { pipelinePath: string; fieldDa
     datasetId: reg.dataset.id,
     actor: opts.actor,
     steps: reg.resolved.steps,
+    geometryTableHash: snapshotGeometryTable(db, reg.resolved.geometryTablePath, reg.dataset.folderPath || null),
   });
   return { runId, ...reg };
 }
@@ -215,8 +245,14 @@ export function createRerun(
     parentRunId: parent.id,
     rerunFromStep: opts.fromLabel,
     overrides: opts.overrides,
+    geometryTableHash: parent.geometryTableHash,
   });
 }
+
+/** How often an executing run writes its heartbeat, ms. */
+const HEARTBEAT_EVERY_MS = 10_000;
+/** A heartbeat older than this marks a run as interrupted even if its process id is in use, ms. */
+export const HEARTBEAT_STALE_MS = 10 * 60_000;
 
 function pidAlive(pid: number | null): boolean {
   if (!pid) return false;
@@ -233,10 +269,13 @@ function pidAlive(pid: number | null): boolean {
  * Marks runs left "running" by a process that no longer exists as interrupted. Every door
  * calls this at start-up. Returns the ids marked.
  */
-export function markInterruptedRuns(db: Db): number[] {
+export function markInterruptedRuns(db: Db, now = Date.now()): number[] {
   const marked: number[] = [];
   for (const r of runsWithStatus(db, "running")) {
-    if (pidAlive(r.hostPid)) continue;
+    // A live process id is not enough: after a restart another process may hold it. A run whose
+    // process has not written its heartbeat for HEARTBEAT_STALE_MS is taken as dead too.
+    const stale = r.heartbeatAt !== null && now - r.heartbeatAt.getTime() > HEARTBEAT_STALE_MS;
+    if (pidAlive(r.hostPid) && !stale) continue;
     writeTransaction(db, (tx) => {
       tx.update(runs)
         .set({ status: "interrupted", error: "The process running this run stopped before it finished.", finishedAt: new Date() })
@@ -331,7 +370,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   // Claim the run (another process may race us for a queued run).
   const claimed = db
     .update(runs)
-    .set({ status: "running", hostPid: process.pid, startedAt: run.startedAt ?? new Date(), error: null })
+    .set({ status: "running", hostPid: process.pid, heartbeatAt: new Date(), startedAt: run.startedAt ?? new Date(), error: null })
     .where(and(eq(runs.id, runId), eq(runs.status, "queued")))
     .run();
   if (claimed.changes !== 1) throw new AppError("conflict", `Run ${runId} was taken by another process`);
@@ -342,10 +381,15 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   const onOuterAbort = () => controller.abort();
   opts.signal?.addEventListener("abort", onOuterAbort);
   if (opts.signal?.aborted) controller.abort();
+  let lastHeartbeat = Date.now();
   const cancelPoll = setInterval(() => {
     try {
       const r = db.select({ c: runs.cancelRequested }).from(runs).where(eq(runs.id, runId)).get();
       if (r?.c) controller.abort();
+      if (Date.now() - lastHeartbeat > HEARTBEAT_EVERY_MS) {
+        lastHeartbeat = Date.now();
+        db.update(runs).set({ heartbeatAt: new Date(lastHeartbeat) }).where(eq(runs.id, runId)).run();
+      }
     } catch {
       // transient lock: try again next tick
     }
@@ -371,17 +415,10 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     if (definition.fieldDataPath !== null && dataset && dataset.folderPath) {
       slots.set("fieldFiles", { hash: dataset.contentHash, load: () => loadFieldFiles(db, run.datasetId) });
     }
-    if (definition.geometryTablePath) {
-      // A table of the same name inside the field folder wins: each folder a crew copies in
-      // (e.g. one handed to a watcher) carries its own geometry.
-      const local = dataset?.folderPath ? path.join(dataset.folderPath, path.basename(definition.geometryTablePath)) : "";
-      const file = local && fs.existsSync(local) ? local : definition.geometryTablePath;
-      if (!fs.existsSync(file)) throw new AppError("not-found", `Geometry table ${file} cannot be read`, { file });
-      const hash = hashFile(file);
-      slots.set("geometryTable", {
-        hash,
-        load: () => ({ kind: "text", name: path.basename(file), text: fs.readFileSync(file, "utf8") }),
-      });
+    if (run.geometryTableHash) {
+      slots.set("geometryTable", artifactSlot(run.geometryTableHash));
+    } else if (definition.geometryTablePath) {
+      throw new AppError("conflict", `Run ${runId} has no recorded geometry table; start a new run of the pipeline file`);
     }
     runLog.info(`run ${runId} started: ${pv.pipeline.name} v${pv.version.version}, ${steps.length} steps`);
 

@@ -271,5 +271,5 @@ export function findCachedStep(db: Db, cacheKey: string) {
 
 /** Run ids in a state, e.g. all "running" runs for interrupted-run detection. */
 export function runsWithStatus(db: Db, status: RunStatus) {
-  return db.select({ id: runs.id, hostPid: runs.hostPid }).from(runs).where(eq(runs.status, status)).all();
+  return db.select({ id: runs.id, hostPid: runs.hostPid, heartbeatAt: runs.heartbeatAt }).from(runs).where(eq(runs.status, status)).all();
 }

@@ -133,9 +133,23 @@ export const listFiles = defineStep({
   },
 });
 
+export const readTable = defineStep({
+  id: "test-read-table",
+  version: 1,
+  title: "read the geometry table",
+  description: "test step: reports the text of the geometry table it was given",
+  reads: ["geometryTable"],
+  writes: ["report"],
+  params: z.object({ tag: z.string().default("").describe("free text, to force a new cache key") }),
+  async run(input) {
+    count("test-read-table");
+    return { outputs: { report: { kind: "json", role: "table", data: input.geometryTable!.text } } };
+  },
+});
+
 /** Registers the test steps once per process. */
 export function registerEngineTestSteps(): void {
-  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles]) {
+  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles, readTable]) {
     if (!listSteps().some((x) => x.id === s.id)) registerStep(s);
   }
 }

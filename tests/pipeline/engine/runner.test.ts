@@ -17,6 +17,7 @@ import { hasArtifact, readArtifactSync } from "../../../pipeline/artifact-store"
 import {
   createRerun,
   executeRun,
+  HEARTBEAT_STALE_MS,
   markInterruptedRuns,
   prepareResume,
   prepareRunFromFile,
@@ -239,6 +240,44 @@ steps:
     const set = readArtifactSync(getRun(db, runId)!.steps[3].outputs.gathers) as GatherSet;
     expect(set.gathers[0].data[0]).toBe(11 * 10 * 2);
     expect(listAudit(db, { entityType: "run", entityId: String(runId), action: "run.resume" })).toHaveLength(1);
+  });
+});
+
+describe("what a run used stays what it used", () => {
+  it("a rerun uses the geometry table of its parent run, even after the file changed or went", async () => {
+    const table = path.join(tmp, "line-geometry.csv");
+    fs.writeFileSync(table, "first version\n");
+    const file = writePipeline(
+      "table",
+      `name: engine-table
+survey: test-site
+geometryTable: ./line-geometry.csv
+steps:
+  - step: test-read-table
+`,
+    );
+    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    await executeRun(db, runId);
+    fs.writeFileSync(table, "edited later\n");
+    const child = createRerun(db, { parentRunId: runId, fromLabel: "test-read-table", overrides: { "test-read-table": { tag: "again" } }, actor });
+    fs.rmSync(table);
+    expect((await executeRun(db, child)).status).toBe("succeeded");
+    const report = readArtifactSync(getRun(db, child)!.steps[0].outputs.report) as { data: string };
+    expect(report.data).toBe("first version\n");
+  });
+
+  it("a running run whose heartbeat is stale is marked interrupted even when its process id is in use", () => {
+    const file = writePipeline("stale", "name: engine-stale\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n");
+    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    // As if a process had claimed it long ago and the machine restarted: this test's own pid is alive.
+    db.update(runs)
+      .set({ status: "running", hostPid: process.ppid, heartbeatAt: new Date(Date.now() - HEARTBEAT_STALE_MS - 1000) })
+      .where(eq(runs.id, runId))
+      .run();
+    expect(markInterruptedRuns(db)).toEqual([runId]);
+    db.update(runs).set({ status: "running", heartbeatAt: new Date() }).where(eq(runs.id, runId)).run();
+    expect(markInterruptedRuns(db)).toEqual([]);
+    db.update(runs).set({ status: "cancelled" }).where(eq(runs.id, runId)).run();
   });
 });
 
