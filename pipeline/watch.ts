@@ -14,7 +14,8 @@ import { watchEvents, watchedFolders } from "../db/schema";
 import { getRun } from "../db/queries/runs";
 import { isIgnoredName, scanFolder } from "./dataset-folder";
 import { toAppError } from "./errors";
-import { executeRun, prepareRunFromFile, type Actor, type RunEvents, type RunOutcome } from "./runner";
+import { loadPipelineFile } from "./pipeline-file";
+import { createRun, executeRun, registerPipelineAndDataset, snapshotGeometryTable, type Actor, type RunEvents, type RunOutcome } from "./runner";
 import type { WorkerPool } from "./workers/pool";
 
 export interface WatchOptions {
@@ -59,6 +60,9 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
     throw toAppError(Object.assign(new Error(`Watched folder ${root} does not exist or is not a folder`), { name: "StepInputError" }));
   }
   const pipelinePath = path.resolve(opts.pipelinePath);
+  // A broken pipeline file is refused now, not once per folder later.
+  loadPipelineFile(pipelinePath);
+  const stopping = new AbortController();
   const quietMs = opts.quietMs ?? 3000;
   const timers = new Map<string, NodeJS.Timeout>();
   const queue: string[] = [];
@@ -86,30 +90,44 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
       return;
     }
     if (scanned.files.length === 0) return;
-    const seen = db.select().from(watchedFolders).all().find((f) => f.lastContentHash === scanned.contentHash);
-    if (seen) {
-      note(
-        folder,
-        "run-skipped",
-        `same content (${scanned.contentHash.slice(0, 12)}) as ${seen.folderPath === folder ? "this folder's" : `${seen.folderPath}'s`} run ${seen.lastRunId ?? "?"}`,
-        undefined,
-        seen.lastRunId ?? undefined,
-      );
-      return;
-    }
     let runId: number;
+    let key: string;
     try {
-      runId = prepareRunFromFile(db, { pipelinePath, fieldDataOverride: folder, actor: opts.actor }).runId;
+      // What was done is remembered per (folder content, pipeline version): the same content
+      // runs once per pipeline, and a changed pipeline runs again.
+      const reg = registerPipelineAndDataset(db, { pipelinePath, fieldDataOverride: folder, actor: opts.actor });
+      key = `${reg.dataset.contentHash}:${reg.pipelineVersionId}`;
+      const seen = db.select().from(watchedFolders).all().find((f) => f.lastContentHash === key);
+      if (seen) {
+        note(
+          folder,
+          "run-skipped",
+          `same content (${scanned.contentHash.slice(0, 12)}) and pipeline as ${seen.folderPath === folder ? "this folder's" : `${seen.folderPath}'s`} run ${seen.lastRunId ?? "?"}`,
+          undefined,
+          seen.lastRunId ?? undefined,
+        );
+        return;
+      }
+      runId = createRun(db, {
+        pipelineVersionId: reg.pipelineVersionId,
+        datasetId: reg.dataset.id,
+        actor: opts.actor,
+        steps: reg.resolved.steps,
+        geometryTableHash: snapshotGeometryTable(db, reg.resolved.geometryTablePath, folder),
+      });
     } catch (err) {
       note(folder, "rejected", toAppError(err).message);
       return;
     }
     note(folder, "run-started", `${scanned.files.length} files, content ${scanned.contentHash.slice(0, 12)}`, undefined, runId);
-    const outcome = await executeRun(db, runId, { pool: opts.pool, events: opts.runEvents });
+    const outcome = await executeRun(db, runId, { pool: opts.pool, events: opts.runEvents, signal: stopping.signal });
+    // Only a finished run counts as done: a failed or cancelled one is tried again when the
+    // folder or the pipeline changes, or the watcher restarts.
     db.update(watchedFolders)
-      .set({ lastContentHash: scanned.contentHash, lastRunId: runId, updatedAt: new Date() })
+      .set({ lastContentHash: outcome.status === "succeeded" ? key : row.lastContentHash, lastRunId: runId, updatedAt: new Date() })
       .where(eq(watchedFolders.id, row.id))
       .run();
+    if (outcome.status !== "succeeded") note(folder, "rejected", `run ${runId} ${outcome.status}: ${outcome.error ?? ""}`, undefined, runId);
     for (const f of getRun(db, runId)?.rejectedFiles ?? []) note(folder, "rejected", f.reason, f.name, runId);
     opts.onRunFinished?.({ ...outcome, folder });
   };
@@ -175,6 +193,7 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
       }),
     async close() {
       closed = true;
+      stopping.abort();
       for (const t of timers.values()) clearTimeout(t);
       timers.clear();
       await watcher.close();

@@ -99,4 +99,24 @@ describe("watched folders", () => {
     await watcher.close();
     expect(getRun(db, runsSoFar()[0].id)!.datasetFolder).toBe(path.join(root, "day-1"));
   });
+
+  it("runs the same folders again when the pipeline changes, and refuses a broken pipeline at start", async () => {
+    const before = runsSoFar().length;
+    fs.writeFileSync(
+      pipelinePath,
+      "name: watch-check\ndescription: changed\nsurvey: test-site\nfieldData: ./incoming\nsteps:\n  - step: test-list-files\n",
+    );
+    const watcher = startWatcher();
+    await watcher.ready;
+    await until(() => runsSoFar().length >= before + 2 && runsSoFar().every((r) => r.status === "succeeded"));
+    await new Promise((r) => setTimeout(r, 800));
+    await watcher.idle();
+    await watcher.close();
+    // day-1 (three files by now) and its copy (two) differ: one run each for the new version.
+    expect(runsSoFar()).toHaveLength(before + 2);
+    expect(runsSoFar()[0].pipelineVersion).toBe(2);
+
+    fs.writeFileSync(pipelinePath, "name: watch-check\nsurvey: test-site\nsteps:\n  - step: no-such-step\n");
+    expect(() => startWatcher()).toThrow(/watch\.yaml line 4, steps\[0\]\.step: unknown step "no-such-step"/);
+  });
 });
