@@ -226,6 +226,22 @@ export function loadPipelineFile(file: string): { resolved: ResolvedPipeline; te
   return { resolved, text, absolutePath };
 }
 
+function isPlainObject(v: unknown): v is Record<string, unknown> {
+  return typeof v === "object" && v !== null && !Array.isArray(v) && !ArrayBuffer.isView(v);
+}
+
+/**
+ * Settings with overrides applied: a setting that holds an object is merged key by key (so
+ * `grid: { depthM: 30 }` changes the depth and keeps the rest); anything else is replaced.
+ */
+export function mergeSettings(base: Record<string, unknown>, overrides: Record<string, unknown>): Record<string, unknown> {
+  const out: Record<string, unknown> = { ...base };
+  for (const [k, v] of Object.entries(overrides)) {
+    out[k] = isPlainObject(v) && isPlainObject(base[k]) ? mergeSettings(base[k] as Record<string, unknown>, v) : v;
+  }
+  return out;
+}
+
 /**
  * Re-validates a step's parameters with overrides applied (reruns). Returns complete params.
  * Throws AppError naming `<label>.<param>`.
@@ -241,7 +257,7 @@ export function applyOverrides(step: ResolvedStep, overrides: Record<string, unk
       });
     }
   }
-  const parsed = def.params.safeParse({ ...step.params, ...overrides });
+  const parsed = def.params.safeParse(mergeSettings(step.params, overrides));
   if (!parsed.success) {
     const issue = parsed.error.issues[0];
     const field = [step.label, ...issue.path.map(String)].join(".");

@@ -8,8 +8,14 @@ type Part = (typeof PARTS)[number];
 
 function parseGrid(text: string): { nx: number; nz: number } {
   const m = /^(\d+)x(\d+)$/.exec(text);
-  if (!m) throw new AppError("bad-input", `--grid ${text}: expected <nx>x<nz> cells, e.g. 1000x400`, { field: "--grid" });
-  return { nx: Number(m[1]), nz: Number(m[2]) };
+  const nx = Number(m?.[1]);
+  const nz = Number(m?.[2]);
+  if (!m || nx < 16 || nz < 16 || nx * nz > 50_000_000) {
+    throw new AppError("bad-input", `--grid ${text}: expected <nx>x<nz> cells, each at least 16 and at most 50 million in all, e.g. 1000x400`, {
+      field: "--grid",
+    });
+  }
+  return { nx, nz };
 }
 
 export function registerBench(program: Command): void {

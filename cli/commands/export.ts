@@ -47,10 +47,26 @@ export function registerExport(program: Command): void {
           throw new AppError("bad-input", `--format ${format}: ${(err as Error).message}`, { field: "--format" });
         }
         const out = path.resolve(opts.out);
+        const dir = path.dirname(out);
+        if (!fs.existsSync(dir) || !fs.statSync(dir).isDirectory()) {
+          throw new AppError("bad-input", `--out ${opts.out}: the folder ${dir} does not exist`, { field: "--out" });
+        }
+        if (fs.existsSync(out) && fs.statSync(out).isDirectory()) {
+          throw new AppError("bad-input", `--out ${opts.out}: is a folder; give a file name`, { field: "--out" });
+        }
         if (fs.existsSync(out) && !opts.force) throw new AppError("conflict", `${out} exists; pass --force to replace it`);
+        // Write beside the target and rename: never a half-written file under the target's name.
         const tmp = `${out}.${process.pid}.tmp`;
-        fs.writeFileSync(tmp, bytes);
-        fs.renameSync(tmp, out);
+        try {
+          fs.writeFileSync(tmp, bytes);
+          fs.renameSync(tmp, out);
+        } catch (err) {
+          throw new AppError("bad-input", `--out ${opts.out}: cannot be written (${(err as NodeJS.ErrnoException).code ?? "error"})`, {
+            field: "--out",
+          });
+        } finally {
+          fs.rmSync(tmp, { force: true });
+        }
         process.stdout.write(`wrote ${slot} of run ${id} step ${opts.step} to ${out} (${format}, ${bytes.length} bytes)\n`);
       }),
     );

@@ -8,21 +8,33 @@ import { action, openCliDb, parseId, resolveActor } from "../shared";
 
 /** Parses `label.setting=value` (value as YAML: numbers, booleans, lists). */
 export function parseOverride(text: string, into: Record<string, Record<string, unknown>>): Record<string, Record<string, unknown>> {
-  const m = /^([a-z][a-z0-9-]*)\.([A-Za-z][A-Za-z0-9]*)=(.*)$/s.exec(text);
+  const m = /^([a-z][a-z0-9-]*)\.([A-Za-z][A-Za-z0-9.]*)=(.*)$/s.exec(text);
   if (!m) {
     throw new AppError("bad-input", `--set ${text}: expected <step label>.<setting>=<value>, e.g. frequency-filter.highCutHz=80`, {
       field: "--set",
       expected: "<step label>.<setting>=<value>",
     });
   }
-  const [, label, key, raw] = m;
+  const [, label, dotted, raw] = m;
   let value: unknown;
   try {
     value = raw === "" ? "" : parseYaml(raw);
   } catch {
     value = raw;
   }
-  into[label] = { ...(into[label] ?? {}), [key]: value };
+  // A dotted path sets one part of a setting that holds an object: grid.depthM=30.
+  const keys = dotted.split(".");
+  if (keys.some((k) => k === "")) {
+    throw new AppError("bad-input", `--set ${text}: empty name in "${dotted}"`, { field: "--set", expected: "<step label>.<setting>[.<part>]=<value>" });
+  }
+  for (let i = keys.length - 1; i > 0; i--) value = { [keys[i]]: value };
+  const step = (into[label] ??= {});
+  const first = keys[0];
+  const prev = step[first];
+  step[first] =
+    keys.length > 1 && prev && typeof prev === "object" && !Array.isArray(prev)
+      ? { ...(prev as Record<string, unknown>), ...(value as Record<string, unknown>) }
+      : value;
   return into;
 }
 

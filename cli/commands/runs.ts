@@ -75,7 +75,8 @@ export function registerRuns(program: Command): void {
           return;
         }
         if (rows.length === 0) {
-          process.stdout.write("no runs yet (start one with: tracewright run <pipeline-file>)\n");
+          const filtered = o.status || o.survey || o.pipeline || o.by;
+          process.stdout.write(filtered ? "no runs match these filters\n" : "no runs yet (start one with: tracewright run <pipeline-file>)\n");
           return;
         }
         process.stdout.write(`${pad("run", 6)}${pad("status", 12)}${pad("pipeline", 28)}${pad("steps", 9)}${pad("by", 22)}${pad("door", 8)}started\n`);

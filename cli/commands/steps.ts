@@ -1,6 +1,6 @@
 /** `tracewright steps`: the available steps with their settings, defaults and units. */
 import type { Command } from "commander";
-import { describeParams, listSteps } from "../../pipeline/registry";
+import { describeParams, getStep, listSteps } from "../../pipeline/registry";
 import { action, printJson } from "../shared";
 
 export function registerSteps(program: Command): void {
@@ -27,11 +27,7 @@ export function registerSteps(program: Command): void {
           );
           return;
         }
-        if (steps.length === 0) {
-          process.stdout.write(only ? `no step "${only}"\n` : "no steps registered\n");
-          process.exitCode = only ? 2 : 0;
-          return;
-        }
+        if (only && steps.length === 0) getStep(only); // throws: unknown step, with the valid ones
         for (const s of steps) {
           process.stdout.write(`${s.id} (v${s.version}): ${s.title}\n`);
           process.stdout.write(`  reads ${s.reads.join(", ") || "-"}${s.optionalReads?.length ? ` (optional: ${s.optionalReads.join(", ")})` : ""}; writes ${s.writes.join(", ")}\n`);

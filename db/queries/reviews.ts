@@ -48,6 +48,9 @@ export function addReview(
   if (run.status !== "succeeded" && run.status !== "failed") {
     throw new AppError("conflict", `Run ${input.runId} is ${run.status}; only finished runs can be reviewed.`);
   }
+  if (input.decision === "approved" && run.status !== "succeeded") {
+    throw new AppError("conflict", `Run ${input.runId} failed; a failed run can be sent back but not approved.`, { field: "decision" });
+  }
   const comment = input.comment.trim();
   if (input.decision === "returned" && comment.length === 0) {
     throw new AppError("bad-input", "Say what needs changing when sending a run back.", { field: "comment" });

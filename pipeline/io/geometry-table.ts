@@ -73,6 +73,9 @@ const SPREAD_REQUIRED = [
 const CHANNEL_REQUIRED = ["file", "channel", "source_point", "blow", "source_x_m", "receiver_x_m"] as const;
 const OPTIONAL = ["source_z_m", "receiver_z_m"] as const;
 /** Columns only the spread form has, and only the channel form has: they tell the form. */
+/** Most channels one record can hold (SEG-2 stores the trace count in 16 bits). */
+export const MAX_CHANNELS = 65535;
+
 const SPREAD_ONLY = ["first_channel_x_m", "channel_spacing_m", "channel_count"];
 const CHANNEL_ONLY = ["channel", "receiver_x_m"];
 
@@ -123,12 +126,13 @@ class RowReader {
     return this.number(column);
   }
 
-  integer(column: string, min: number): number {
+  integer(column: string, min: number, max = Number.MAX_SAFE_INTEGER): number {
     const v = this.raw(column);
-    const expected = min === 0 ? "a whole number >= 0" : `a whole number >= ${min}`;
+    const expected =
+      max < Number.MAX_SAFE_INTEGER ? `a whole number from ${min} to ${max}` : min === 0 ? "a whole number >= 0" : `a whole number >= ${min}`;
     if (v === undefined || !/^[+-]?\d+$/.test(v)) this.fail(column, expected, v);
     const n = Number(v);
-    if (!Number.isSafeInteger(n) || n < min) this.fail(column, expected, v);
+    if (!Number.isSafeInteger(n) || n < min || n > max) this.fail(column, expected, v);
     return n;
   }
 
@@ -256,7 +260,8 @@ export function parseGeometryTable(text: string, tableName: string): GeometryTab
     if (form === "spread") {
       const firstX = row.number("first_channel_x_m");
       const spacing = row.positive("channel_spacing_m");
-      const count = row.integer("channel_count", 1);
+      // SEG-2 counts traces in 16 bits; a larger count is a typo (and would exhaust memory).
+      const count = row.integer("channel_count", 1, MAX_CHANNELS);
       const earlier = byFile.get(file);
       if (earlier) {
         throw tableError(tableName, line, `file ${file} is listed twice (first on line ${earlier.line})`, {

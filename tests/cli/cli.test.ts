@@ -63,6 +63,11 @@ describe("tracewright command line", () => {
     expect(bad.stderr).toMatch(/--role: expected one of admin, lead, processor, auditor/);
   });
 
+  it("export refuses an output folder that does not exist, naming --out", async () => {
+    const r = await tw(["export", "1", "--step", "x", "--out", "/nonexistent-folder/x.sgy"]);
+    expect(r.exitCode).toBe(2);
+  });
+
   it("runs list as JSON with stable keys even when empty", async () => {
     const r = await tw(["runs", "--json"]);
     expect(r.exitCode).toBe(0);
@@ -76,6 +81,9 @@ describe("rerun overrides", () => {
     expect(parseOverride("mute.useTopMute=false", { mute: { a: 1 } })).toEqual({ mute: { a: 1, useTopMute: false } });
     expect(parseOverride("trace-edit.killChannels=[31, 32]", {})).toEqual({ "trace-edit": { killChannels: [31, 32] } });
     expect(() => parseOverride("=3", {})).toThrow(/expected <step label>\.<setting>=<value>/);
+    // A dotted path changes one part of a setting that holds an object.
+    const twice = parseOverride("build-model.grid.spacingM=0.5", parseOverride("build-model.grid.depthM=30", {}));
+    expect(twice).toEqual({ "build-model": { grid: { depthM: 30, spacingM: 0.5 } } });
   });
 });
 

@@ -4,7 +4,7 @@
  * line numbers are checked against the YAML text written here.)
  */
 import { beforeAll, describe, expect, it } from "vitest";
-import { parsePipelineText } from "../../../pipeline/pipeline-file";
+import { mergeSettings, parsePipelineText } from "../../../pipeline/pipeline-file";
 import { AppError } from "../../../pipeline/errors";
 import { registerEngineTestSteps } from "../../helpers/engine-steps";
 
@@ -86,5 +86,15 @@ describe("pipeline files", () => {
   it("requires the top-level fields", () => {
     const e = errorOf("survey: site-a\nsteps:\n  - step: test-make-traces\n");
     expect(e.details.field).toBe("name");
+  });
+
+  it("merges overrides of settings that hold objects key by key; replaces lists and values", () => {
+    const base = { grid: { depthM: 20, spacingM: 0.25, spreadMarginM: 6 }, layers: [1, 2], order: 4 };
+    expect(mergeSettings(base, { grid: { depthM: 30 }, layers: [3], order: 2 })).toEqual({
+      grid: { depthM: 30, spacingM: 0.25, spreadMarginM: 6 },
+      layers: [3],
+      order: 2,
+    });
+    expect(base.grid.depthM).toBe(20);
   });
 });

@@ -70,7 +70,9 @@ describe("parseGeometryTable, spread form", () => {
   it("rejects non-positive spacing and channel_count < 1", () => {
     expect(errorOf([SPREAD_HEADER, "a.sg2,1,1,0,0,0,4"].join("\n")).details).toMatchObject({ line: 2, field: "channel_spacing_m", expected: "a number > 0" });
     expect(errorOf([SPREAD_HEADER, "a.sg2,1,1,0,0,-1,4"].join("\n")).details).toMatchObject({ field: "channel_spacing_m" });
-    expect(errorOf([SPREAD_HEADER, "a.sg2,1,1,0,0,1,0"].join("\n")).details).toMatchObject({ field: "channel_count", expected: "a whole number >= 1" });
+    expect(errorOf([SPREAD_HEADER, "a.sg2,1,1,0,0,1,0"].join("\n")).details).toMatchObject({ field: "channel_count", expected: "a whole number from 1 to 65535" });
+    // SEG-2 stores the trace count in 16 bits (SEG-2 standard, 1990): more is a typo, refused before any allocation.
+    expect(errorOf([SPREAD_HEADER, "a.sg2,1,1,0,0,1,100000000"].join("\n")).details).toMatchObject({ line: 2, field: "channel_count" });
     expect(errorOf([SPREAD_HEADER, "a.sg2,1,1,0,0,1,2.5"].join("\n")).details).toMatchObject({ field: "channel_count" });
     expect(errorOf([SPREAD_HEADER, "a.sg2,1,0,0,0,1,4"].join("\n")).details).toMatchObject({ field: "blow" });
   });
