@@ -24,7 +24,7 @@ export type LineSourceParams = z.output<typeof lineSourceParams>;
 
 export const lineSourceStep = defineStep({
   id: "line-source",
-  version: 1,
+  version: 2,
   title: "Point-to-line-source conversion",
   description:
     "Converts point-source traces to line-source traces for 2D modelling (Forbriger, Groos & Schäfer 2014): convolution with 1/√t " +
@@ -62,11 +62,14 @@ export const lineSourceStep = defineStep({
         local: (block, tc, first) => lineSourceTraces(args(block, tc, first)),
         remote: (pool, block, tc, first) => pool.run("lineSourceTraceBlock", args(block, tc, first), { transfer: [block.buffer as ArrayBuffer], signal: ctx.signal }),
       });
-      out.push({ ...g, data });
+      // The transformation has no meaning at zero distance (its factor is zero): such traces carry
+      // no signal now and are marked dead, so comparisons leave them out.
+      const traces = g.traces.map((h, i) => (distances[i] === 0 && !h.dead ? { ...h, dead: true } : h));
+      out.push({ ...g, traces, data });
       ctx.progress((gi + 1) / set.gathers.length, g.id);
     }
     const traces = out.reduce((s, g) => s + g.traces.length, 0);
-    if (zeroDistance > 0) ctx.log.warn({ zeroDistance }, `${zeroDistance} traces at zero source-receiver distance became zero`);
+    if (zeroDistance > 0) ctx.log.warn({ zeroDistance }, `${zeroDistance} traces at zero source-receiver distance became zero and are marked dead`);
     ctx.log.info({ traces, method: params.method }, `converted ${traces} traces to line-source (${params.method})`);
     return {
       outputs: { gathers: { kind: "gathers", gathers: out } },

@@ -37,6 +37,8 @@ describe("first-arrivals step", () => {
     const picks = res.outputs.picks!;
     expect(picks.method).toBe("information-criterion");
     expect(picks.picks.length).toBe(48);
+    // 1 ms = 4 samples at 0.25 ms: a noise-free onset should be picked within a few samples
+    // (common practice for automatic pickers on clean data).
     for (const p of picks.picks) expect(Math.abs(p.timeS - onsets[p.traceIndex])).toBeLessThan(0.001);
     expect(picks.picks.filter((p) => p.flagged).map((p) => p.traceIndex)).toEqual([30]);
     expect(res.summary).toMatchObject({ picked: 48, flagged: 1 });
@@ -103,6 +105,14 @@ describe("line-source step", () => {
     const direct = lineSourceTraces({ data: g.data, traceCount: 4, sampleCount: 800, startTimeS: 0, sampleIntervalS: DT, distancesM: Float64Array.of(2, 3, 4, 5), method: "single-velocity", velocityMps: 300 });
     expect(res.outputs.gathers!.gathers[0].data).toEqual(direct);
     expect(lineSourceStep.params.safeParse({ velocityMps: 0 }).success).toBe(false);
+  });
+
+  it("marks traces at zero source-receiver distance dead (the transformation's factor r·sqrt(2v/...) is zero there, Forbriger et al. 2014)", async () => {
+    const g = makeGather({ traceCount: 4, sampleCount: 400, sampleIntervalS: DT, sourceX: 1 }, (t, time, h) => ricker(time - Math.abs(h.offset) / 300, 60));
+    const res = await lineSourceStep.run({ gathers: { kind: "gathers", gathers: [g] } }, lineSourceStep.params.parse({}), makeStepContext());
+    const out = res.outputs.gathers!.gathers[0];
+    expect(out.traces.map((h) => [h.offset, h.dead])).toEqual(g.traces.map((h) => [h.offset, h.offset === 0]));
+    expect(res.summary).toMatchObject({ zeroDistance: 1 });
   });
 });
 
