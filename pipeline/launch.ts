@@ -50,7 +50,7 @@ export function requestCancel(db: Db, runId: number, actor: Actor): void {
  * Starts a detached engine process that executes queued run `runId`. Its output goes to
  * <data>/logs/run-<id>.log; its logs also go to SQLite like any run.
  */
-export function launchInBackground(runId: number): void {
+export function launchInBackground(runId: number, onLaunchFailure?: (err: Error) => void): void {
   const logs = path.join(dataDir(), "logs");
   fs.mkdirSync(logs, { recursive: true });
   const out = fs.openSync(path.join(logs, `run-${runId}.log`), "a");
@@ -60,6 +60,15 @@ export function launchInBackground(runId: number): void {
     detached: true,
     stdio: ["ignore", out, out],
     env: { ...process.env, TRACEWRIGHT_DATA_DIR: dataDir() },
+  });
+  // A failed start must not take the server down: record it on the run instead.
+  child.on("error", (err) => {
+    try {
+      fs.appendFileSync(path.join(logs, `run-${runId}.log`), `could not start the engine process: ${err.message}\n`);
+      onLaunchFailure?.(err);
+    } catch {
+      // nothing more to do: the run stays queued and can be cancelled and resumed
+    }
   });
   child.unref();
   fs.closeSync(out);
