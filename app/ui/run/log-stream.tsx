@@ -24,8 +24,12 @@ export function LogStream({ runId, runStepId, live }: { runId: number; runStepId
         const res = await getJson<{ lines: LogLine[]; lastId: number }>(`/api/runs/${runId}/logs?${q}`);
         if (stopped) return;
         if (res.lines.length) {
-          lastId.current = res.lastId;
-          setLines((prev) => [...prev, ...res.lines].slice(-3000));
+          lastId.current = Math.max(lastId.current, res.lastId);
+          // Two pulls can overlap (the first and a poll, or a restart when the run finishes): keep each line once.
+          setLines((prev) => {
+            const seen = new Set(prev.map((l) => l.id));
+            return [...prev, ...res.lines.filter((l) => !seen.has(l.id))].slice(-3000);
+          });
         }
         setError(null);
       } catch (err) {
