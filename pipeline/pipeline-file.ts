@@ -167,6 +167,20 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
     }
     labels.add(label);
     const settings: Record<string, unknown> = { ...(entry.settings ?? {}) };
+    // A setting written as { fromFile: <path> } takes the text of that file (relative to the
+    // pipeline file), e.g. build-model's csvGrid. The text becomes part of the recorded settings.
+    for (const [key, value] of Object.entries(settings)) {
+      if (value && typeof value === "object" && !Array.isArray(value) && Object.keys(value).length === 1 && "fromFile" in value) {
+        const ref = (value as { fromFile: unknown }).fromFile;
+        if (typeof ref !== "string" || ref === "") fail(["steps", i, "settings", key, "fromFile"], "expected a file path");
+        const file = path.resolve(baseDir, ref as string);
+        try {
+          settings[key] = fs.readFileSync(file, "utf8");
+        } catch {
+          fail(["steps", i, "settings", key, "fromFile"], `the file ${ref as string} cannot be read (looked for ${file})`, "a readable text file");
+        }
+      }
+    }
     if (entry.step === "import-records" && settings.onBadFile === undefined) settings.onBadFile = file.onBadFile;
     const props = paramsJsonSchema(step).properties ?? {};
     const validNames = Object.keys(props);

@@ -147,9 +147,22 @@ export const readTable = defineStep({
   },
 });
 
+export const readLabel = defineStep({
+  id: "test-read-label",
+  version: 1,
+  title: "label",
+  description: "test step with one text setting",
+  reads: ["gathers"],
+  writes: ["report"],
+  params: z.object({ label: z.string().default("").describe("free text") }),
+  async run(_input, p) {
+    return { outputs: { report: { kind: "json", role: "label", data: p.label } } };
+  },
+});
+
 /** Registers the test steps once per process. */
 export function registerEngineTestSteps(): void {
-  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles, readTable]) {
+  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles, readTable, readLabel]) {
     if (!listSteps().some((x) => x.id === s.id)) registerStep(s);
   }
 }

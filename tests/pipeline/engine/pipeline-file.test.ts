@@ -3,6 +3,9 @@
  * what was expected; unknown steps and settings list the valid ones. (Our own format; the
  * line numbers are checked against the YAML text written here.)
  */
+import fs from "node:fs";
+import os from "node:os";
+import path from "node:path";
 import { beforeAll, describe, expect, it } from "vitest";
 import { mergeSettings, parsePipelineText } from "../../../pipeline/pipeline-file";
 import { AppError } from "../../../pipeline/errors";
@@ -10,9 +13,9 @@ import { registerEngineTestSteps } from "../../helpers/engine-steps";
 
 beforeAll(() => registerEngineTestSteps());
 
-function errorOf(text: string): AppError {
+function errorOf(text: string, baseDir = "/tmp"): AppError {
   try {
-    parsePipelineText(text, "qm1.yaml", "/tmp");
+    parsePipelineText(text, "qm1.yaml", baseDir);
   } catch (err) {
     expect(err).toBeInstanceOf(AppError);
     return err as AppError;
@@ -96,5 +99,19 @@ describe("pipeline files", () => {
       order: 2,
     });
     expect(base.grid.depthM).toBe(20);
+  });
+});
+
+describe("settings taken from files", () => {
+  it("replaces { fromFile } by the file's text, relative to the pipeline file, and names the line when it is missing", () => {
+    const dir = fs.mkdtempSync(path.join(os.tmpdir(), "tw-fromfile-"));
+    fs.writeFileSync(path.join(dir, "label.txt"), "from a file");
+    const text = (name: string) => `name: check\nsurvey: site-a\nsteps:\n  - step: test-make-traces\n  - step: test-read-label\n    settings:\n      label: { fromFile: ./${name} }\n`;
+    const p = parsePipelineText(text("label.txt"), "qm1.yaml", dir);
+    expect(p.steps[1].params).toEqual({ label: "from a file" });
+    const e = errorOf(text("missing.txt"), dir);
+    expect(e.details.line).toBe(7);
+    expect(e.message).toMatch(/steps\[1\]\.settings\.label\.fromFile: the file \.\/missing\.txt cannot be read/);
+    fs.rmSync(dir, { recursive: true, force: true });
   });
 });
