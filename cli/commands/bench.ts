@@ -58,9 +58,19 @@ export function registerBench(program: Command): void {
         }
         if (want("solver")) {
           const { benchSolver, formatSolverBench } = await import("../../pipeline/bench/solver");
+          // Peak resident memory of the process (workers are threads of it) while the solver runs:
+          // the fields of one shot per worker, nothing per time step.
+          const baseline = process.memoryUsage().rss;
+          let peak = baseline;
+          const sampler = setInterval(() => (peak = Math.max(peak, process.memoryUsage().rss)), 50);
           const r = await benchSolver({ ...grid, steps });
-          results.solver = r;
+          clearInterval(sampler);
+          const memory = { baselineMB: baseline / 1e6, peakMB: peak / 1e6, fieldsPerShotMB: (grid.nx * grid.nz * 4 * 9) / 1e6 };
+          results.solver = { ...r, memory };
           for (const line of formatSolverBench(r)) out(line);
+          out(
+            `  memory: ${memory.peakMB.toFixed(0)} MB peak resident (${memory.baselineMB.toFixed(0)} MB before; the nine P-SV field arrays of one ${grid.nx}×${grid.nz} shot are ${memory.fieldsPerShotMB.toFixed(0)} MB)`,
+          );
         }
         if (opts.json) printJson(results);
       }),
