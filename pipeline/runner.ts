@@ -291,12 +291,20 @@ export function markInterruptedRuns(db: Db, now = Date.now()): number[] {
   return marked;
 }
 
-/** Makes an interrupted, failed or cancelled run runnable again from its first unfinished step. */
+/**
+ * Makes an interrupted, failed or cancelled run runnable again from its first unfinished step.
+ * A run still queued (say its background process never started) needs nothing: executing it
+ * claims it.
+ */
 export function prepareResume(db: Db, runId: number, actor: Actor): void {
   const run = db.select().from(runs).where(eq(runs.id, runId)).get();
   if (!run) throw new AppError("not-found", `Run ${runId} does not exist`);
+  if (run.status === "queued") {
+    recordAudit(db, { actor, action: "run.resume", entityType: "run", entityId: runId, before: { status: run.status } });
+    return;
+  }
   if (!["interrupted", "failed", "cancelled"].includes(run.status)) {
-    throw new AppError("conflict", `Run ${runId} is ${run.status}; only interrupted, failed or cancelled runs can be resumed`);
+    throw new AppError("conflict", `Run ${runId} is ${run.status}; only queued, interrupted, failed or cancelled runs can be resumed`);
   }
   writeTransaction(db, (tx) => {
     tx.update(runs)

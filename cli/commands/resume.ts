@@ -7,7 +7,7 @@ import { action, openCliDb, parseId, resolveActor } from "../shared";
 export function registerResume(program: Command): void {
   program
     .command("resume")
-    .description("continue an interrupted, failed or cancelled run from its first unfinished step")
+    .description("continue an interrupted, failed or cancelled run from its first unfinished step (or execute a queued one nobody picked up)")
     .argument("<run>", "run number")
     .option("--as <email>", "record who resumed it")
     .option("--json", "print the outcome as JSON")

@@ -281,6 +281,16 @@ steps:
   });
 });
 
+describe("stuck queued runs", () => {
+  it("a queued run nobody executed can be resumed, which executes it", async () => {
+    const file = writePipeline("queued", "name: engine-queued\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { value: 3 }\n");
+    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    prepareResume(db, runId, actor);
+    expect((await executeRun(db, runId)).status).toBe("succeeded");
+    expect(() => prepareResume(db, runId, actor)).toThrow(/only queued, interrupted, failed or cancelled runs can be resumed/);
+  });
+});
+
 describe("concurrent writers", () => {
   it("several processes run pipelines into one database at the same time without losing records", async () => {
     const files = [0, 1, 2].map((i) =>
