@@ -423,10 +423,11 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     if (definition.fieldDataPath !== null && dataset && dataset.folderPath) {
       slots.set("fieldFiles", { hash: dataset.contentHash, load: () => loadFieldFiles(db, run.datasetId) });
     }
-    if (run.geometryTableHash) {
-      slots.set("geometryTable", artifactSlot(run.geometryTableHash));
-    } else if (definition.geometryTablePath) {
-      throw new AppError("conflict", `Run ${runId} has no recorded geometry table; start a new run of the pipeline file`);
+    // Runs recorded before tables were kept (and their reruns) take the table as it is now, once.
+    const tableHash = run.geometryTableHash ?? snapshotGeometryTable(db, definition.geometryTablePath, dataset?.folderPath || null);
+    if (tableHash) {
+      if (!run.geometryTableHash) db.update(runs).set({ geometryTableHash: tableHash }).where(eq(runs.id, runId)).run();
+      slots.set("geometryTable", artifactSlot(tableHash));
     }
     runLog.info(`run ${runId} started: ${pv.pipeline.name} v${pv.version.version}, ${steps.length} steps`);
 

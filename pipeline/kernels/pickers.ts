@@ -38,9 +38,21 @@ export interface PickSearchWindow {
   shortSamples: number;
   /** Long (noise) window, samples. */
   longSamples: number;
+  /**
+   * Per-trace bounds inside [searchStart, searchEnd) (e.g. between the lines |offset|/fastest and
+   * |offset|/slowest velocity): first searched sample and one past the last, one entry per trace of
+   * the block. A trace whose bounds are empty gets no pick.
+   */
+  perTrace?: { start: Int32Array; end: Int32Array };
 }
 
-function checkWindow(w: PickSearchWindow, sampleCount: number): void {
+/** The search bounds of trace `t`: the window's, narrowed by its per-trace bounds. */
+function traceBounds(w: PickSearchWindow, t: number): [number, number] {
+  if (!w.perTrace) return [w.searchStart, w.searchEnd];
+  return [Math.max(w.searchStart, w.perTrace.start[t]), Math.min(w.searchEnd, w.perTrace.end[t])];
+}
+
+function checkWindow(w: PickSearchWindow, sampleCount: number, traceCount?: number): void {
   assertCount("searchStart", w.searchStart);
   assertCount("searchEnd", w.searchEnd);
   assertCount("shortSamples", w.shortSamples);
@@ -49,6 +61,9 @@ function checkWindow(w: PickSearchWindow, sampleCount: number): void {
   if (w.longSamples < w.shortSamples) throw new RangeError(`longSamples (${w.longSamples}) must not be shorter than shortSamples (${w.shortSamples})`);
   if (w.searchEnd > sampleCount || w.searchStart >= w.searchEnd) {
     throw new RangeError(`search window [${w.searchStart}, ${w.searchEnd}) must lie inside the trace of ${sampleCount} samples`);
+  }
+  if (w.perTrace && traceCount !== undefined && (w.perTrace.start.length !== traceCount || w.perTrace.end.length !== traceCount)) {
+    throw new RangeError(`perTrace bounds must hold ${traceCount} entries each, got ${w.perTrace.start.length} and ${w.perTrace.end.length}`);
   }
 }
 
@@ -87,7 +102,7 @@ export function staLtaPicks(
   triggerRatio: number,
 ): TracePicks {
   assertTraceBlock(data, traceCount, sampleCount);
-  checkWindow(window, sampleCount);
+  checkWindow(window, sampleCount, traceCount);
   assertFinite("triggerRatio", triggerRatio);
   if (!(triggerRatio > 1)) throw new RangeError(`triggerRatio must be above 1, got ${triggerRatio}`);
   const { shortSamples: ns, longSamples: nl } = window;
@@ -116,8 +131,9 @@ export function staLtaPicks(
     // long window is cut to the samples there are (but at least two short windows, below
     // which the noise estimate fluctuates enough to trigger on noise), so early arrivals on near
     // traces can still be picked.
-    const first = Math.max(window.searchStart, Math.min(nl, 2 * ns));
-    const last = Math.min(window.searchEnd, sampleCount - ns + 1);
+    const [lo, hi] = traceBounds(window, t);
+    const first = Math.max(lo, Math.min(nl, 2 * ns));
+    const last = Math.min(hi, sampleCount - ns + 1);
     const ratioAt = (i: number) => {
       const len = Math.min(nl, i);
       return ((prefix[i + ns] - prefix[i]) / ns) / ((prefix[i] - prefix[i - len]) / len + floor);
@@ -159,7 +175,7 @@ export function aicPicks(
   around?: { centres: Float64Array; halfWidth: number },
 ): TracePicks {
   assertTraceBlock(data, traceCount, sampleCount);
-  checkWindow(window, sampleCount);
+  checkWindow(window, sampleCount, traceCount);
   if (around) {
     assertCount("halfWidth", around.halfWidth);
     if (around.centres.length !== traceCount) throw new RangeError(`centres must hold ${traceCount} values, got ${around.centres.length}`);
@@ -170,8 +186,10 @@ export function aicPicks(
   const s2 = new Float64Array(sampleCount + 1);
   for (let t = 0; t < traceCount; t++) {
     const base = t * sampleCount;
-    let a = window.searchStart;
-    let b = window.searchEnd;
+    const [lo, hi] = traceBounds(window, t);
+    if (hi <= lo) continue;
+    let a = lo;
+    let b = hi;
     if (around) {
       // The window around a preliminary pick may reach before the search start: AIC needs
       // noise before the onset to see the change. Only the pick itself must lie in the search window.
@@ -207,7 +225,7 @@ export function aicPicks(
     }
     if (bestK < 0) continue;
     const pick = a + bestK;
-    if (pick < window.searchStart || pick >= window.searchEnd) continue;
+    if (pick < lo || pick >= hi) continue;
     index[t] = pick;
     quality[t] = pickQuality(data, base, pick, window, sampleCount);
   }

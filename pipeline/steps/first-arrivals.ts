@@ -29,6 +29,22 @@ export const firstArrivalsParams = z
     searchStartMs: z.number().default(0).describe("Earliest pick time, ms after the source"),
     /** @default null */
     searchEndMs: z.number().nullable().default(null).describe("Latest pick time, ms after the source (null: end of trace)"),
+    /** @default null */
+    searchFastestMps: z
+      .number()
+      .positive()
+      .nullable()
+      .default(null)
+      .describe("Fastest velocity a first arrival can have, m/s: no pick before searchStartMs + |offset| / this (null: no such bound)"),
+    /** @default null */
+    searchSlowestMps: z
+      .number()
+      .positive()
+      .nullable()
+      .default(null)
+      .describe("Slowest velocity a first arrival can have, m/s: no pick after searchSlowestInterceptMs + |offset| / this, which keeps slower surface waves out of the search (null: no such bound)"),
+    /** @default 30 */
+    searchSlowestInterceptMs: z.number().min(0).default(30).describe("Intercept time of the slowest-velocity bound, ms (room for the wavelet's rise)"),
     /** @default 0.1 */
     minQuality: z.number().min(0).max(1).default(0.1).describe("Picks of lower quality (0 … 1: log10 of the energy ratio across the pick over 2) are dropped"),
     /** @default 3 */
@@ -40,6 +56,9 @@ export const firstArrivalsParams = z
     if (p.longWindowMs < p.shortWindowMs) {
       ctx.addIssue({ code: "custom", path: ["longWindowMs"], message: `longWindowMs (${p.longWindowMs}) must not be shorter than shortWindowMs (${p.shortWindowMs})` });
     }
+    if (p.searchFastestMps !== null && p.searchSlowestMps !== null && p.searchSlowestMps >= p.searchFastestMps) {
+      ctx.addIssue({ code: "custom", path: ["searchSlowestMps"], message: `searchSlowestMps (${p.searchSlowestMps}) must be below searchFastestMps (${p.searchFastestMps})` });
+    }
     if (p.searchEndMs !== null && p.searchEndMs <= p.searchStartMs) {
       ctx.addIssue({ code: "custom", path: ["searchEndMs"], message: `searchEndMs (${p.searchEndMs}) must be after searchStartMs (${p.searchStartMs})` });
     }
@@ -49,7 +68,7 @@ export type FirstArrivalsParams = z.output<typeof firstArrivalsParams>;
 
 export const firstArrivalsStep = defineStep({
   id: "first-arrivals",
-  version: 1,
+  version: 2,
   title: "First-arrival picking (STA/LTA, AIC)",
   description:
     "Picks first arrivals per trace by an energy ratio (STA/LTA on Allen's 1978 characteristic function) or by an information criterion " +
@@ -76,6 +95,21 @@ export const firstArrivalsStep = defineStep({
         throw new StepInputError(`shortWindowMs ${params.shortWindowMs} ms is longer than the traces of gather "${g.id}" (${g.sampleCount} samples of ${dt * 1000} ms)`, "shortWindowMs");
       }
       const w: PickSearchWindow = { searchStart, searchEnd, shortSamples, longSamples };
+      if (params.searchFastestMps !== null || params.searchSlowestMps !== null) {
+        // Velocity-bounded search (common practice): between the lines of the fastest and the
+        // slowest plausible first-arrival velocity through the source.
+        const n = g.traces.length;
+        const start = new Int32Array(n).fill(searchStart);
+        const end = new Int32Array(n).fill(searchEnd);
+        g.traces.forEach((h, t) => {
+          const x = Math.abs(h.offset);
+          if (params.searchFastestMps !== null) start[t] = Math.max(searchStart, toIndex(params.searchStartMs + (1000 * x) / params.searchFastestMps));
+          if (params.searchSlowestMps !== null) {
+            end[t] = Math.min(searchEnd, toIndex(params.searchSlowestInterceptMs + (1000 * x) / params.searchSlowestMps) + 1);
+          }
+        });
+        w.perTrace = { start, end };
+      }
       return w;
     });
     const result: PickSet = { kind: "picks", method: params.method, picks: [] };
@@ -87,7 +121,13 @@ export const firstArrivalsStep = defineStep({
       const n = g.traces.length;
       const window = windows[gi];
       const aicHalfWidth = params.method === "information-criterion" ? Math.round(params.aicWindowMs / 1000 / g.sampleIntervalS) : 0;
-      const local = (block: Float32Array, tc: number) => {
+      // Per-trace bounds follow the block of traces being picked.
+      const blockWindow = (first: number, tc: number): PickSearchWindow =>
+        window.perTrace
+          ? { ...window, perTrace: { start: window.perTrace.start.slice(first, first + tc), end: window.perTrace.end.slice(first, first + tc) } }
+          : window;
+      const local = (block: Float32Array, tc: number, firstTrace: number) => {
+        const window = blockWindow(firstTrace, tc);
         if (params.method === "energy-ratio") return staLtaPicks(block, tc, g.sampleCount, window, params.triggerRatio);
         if (aicHalfWidth > 0) {
           const first = staLtaPicks(block, tc, g.sampleCount, window, params.triggerRatio);
@@ -97,10 +137,10 @@ export const firstArrivalsStep = defineStep({
       };
       const parts = await runTraceBlocks(ctx, g.data, n, g.sampleCount, {
         local,
-        remote: (pool, block, tc) =>
+        remote: (pool, block, tc, firstTrace) =>
           pool.run(
             "pickTraceBlock",
-            { data: block, traceCount: tc, sampleCount: g.sampleCount, method: params.method, window, triggerRatio: params.triggerRatio, aicHalfWidth },
+            { data: block, traceCount: tc, sampleCount: g.sampleCount, method: params.method, window: blockWindow(firstTrace, tc), triggerRatio: params.triggerRatio, aicHalfWidth },
             { transfer: [block.buffer as ArrayBuffer], signal: ctx.signal },
           ),
       });

@@ -129,3 +129,41 @@ describe("offset consistency of picks", () => {
     expect(flagged).toEqual([5, 30, 47]);
   });
 });
+
+describe("per-trace search bounds", () => {
+  // A noise burst before the true onset: an energy-ratio picker triggers on whatever comes first
+  // (Allen 1978), so only a search window that starts after the burst finds the onset. Bounds
+  // between velocity lines are common practice in first-break picking.
+  function burstThenOnset() {
+    const rnd = seededRandom(5);
+    const data = new Float32Array(2 * N);
+    for (let t = 0; t < 2; t++) {
+      for (let i = 0; i < N; i++) {
+        let v = 0.01 * rnd.gaussian();
+        if (i >= 150 && i < 160) v += Math.sin(2 * Math.PI * F * (i - 150) * DT); // burst at 75 ms
+        if (i >= 400) v += 0.8 * Math.sin(2 * Math.PI * F * (i - 400) * DT) * Math.exp((-(i - 400) * DT * F) / 4); // onset at 200 ms
+        data[t * N + i] = v;
+      }
+    }
+    return data;
+  }
+  const window = { searchStart: 0, searchEnd: N, shortSamples: 10, longSamples: 100 };
+
+  it("without bounds the burst is picked; with a per-trace start after it, the onset is", () => {
+    const data = burstThenOnset();
+    const free = staLtaPicks(data, 2, N, window, 4);
+    expect(Math.abs(free.index[0] - 150)).toBeLessThan(10);
+    const bounded = staLtaPicks(data, 2, N, { ...window, perTrace: { start: Int32Array.of(300, 300), end: Int32Array.of(N, 600) } }, 4);
+    expect(Math.abs(bounded.index[0] - 400)).toBeLessThan(10);
+    expect(Math.abs(bounded.index[1] - 400)).toBeLessThan(10);
+    const aic = aicPicks(data, 2, N, { ...window, perTrace: { start: Int32Array.of(300, 300), end: Int32Array.of(N, N) } });
+    expect(Math.abs(aic.index[0] - 400)).toBeLessThan(10);
+  });
+
+  it("gives no pick where the bounds leave nothing to search, and checks their length", () => {
+    const data = burstThenOnset();
+    const none = staLtaPicks(data, 2, N, { ...window, perTrace: { start: Int32Array.of(300, 500), end: Int32Array.of(350, 500) } }, 4);
+    expect(Number.isNaN(none.index[1])).toBe(true);
+    expect(() => staLtaPicks(data, 2, N, { ...window, perTrace: { start: Int32Array.of(0), end: Int32Array.of(N) } }, 4)).toThrow(/perTrace bounds must hold 2 entries/);
+  });
+});

@@ -31,6 +31,29 @@ function refractionGather(): { set: GatherSet; onsets: number[] } {
 }
 
 describe("first-arrivals step", () => {
+  it("keeps every pick between the velocity lines it is given (common practice: velocity-bounded search)", async () => {
+    const { set, onsets } = refractionGather();
+    // The direct wave travels at 400 m/s: lines at 2,000 and 300 m/s bracket it and change nothing.
+    const wide = await firstArrivalsStep.run(
+      { gathers: set },
+      firstArrivalsStep.params.parse({ searchFastestMps: 2000, searchSlowestMps: 300, searchSlowestInterceptMs: 30 }),
+      makeStepContext(),
+    );
+    expect(wide.outputs.picks!.picks.length).toBe(48);
+    for (const p of wide.outputs.picks!.picks) expect(Math.abs(p.timeS - onsets[p.traceIndex])).toBeLessThan(0.001);
+    // A slowest line at 1,000 m/s with no intercept ends the search before the 400 m/s onsets of
+    // all but the nearest traces: those get no pick rather than a wrong one.
+    const narrow = await firstArrivalsStep.run(
+      { gathers: set },
+      firstArrivalsStep.params.parse({ searchSlowestMps: 1000, searchSlowestInterceptMs: 0 }),
+      makeStepContext(),
+    );
+    const offsets = set.gathers[0].traces.map((h) => Math.abs(h.offset));
+    for (const p of narrow.outputs.picks!.picks) expect(p.timeS).toBeLessThanOrEqual(offsets[p.traceIndex] / 1000 + 0.0005);
+    expect(narrow.outputs.picks!.picks.length).toBeLessThan(10);
+    expect(firstArrivalsStep.params.safeParse({ searchFastestMps: 300, searchSlowestMps: 400 }).success).toBe(false);
+  });
+
   it("picks a clean direct wave within 1 ms and flags the trace off the offset trend", async () => {
     const { set, onsets } = refractionGather();
     const res = await firstArrivalsStep.run({ gathers: set }, firstArrivalsStep.params.parse({}), makeStepContext());
