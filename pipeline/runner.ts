@@ -299,10 +299,8 @@ export function markInterruptedRuns(db: Db, now = Date.now()): number[] {
 export function prepareResume(db: Db, runId: number, actor: Actor): void {
   const run = db.select().from(runs).where(eq(runs.id, runId)).get();
   if (!run) throw new AppError("not-found", `Run ${runId} does not exist`);
-  if (run.status === "queued") {
-    recordAudit(db, { actor, action: "run.resume", entityType: "run", entityId: runId, before: { status: run.status } });
-    return;
-  }
+  // A queued run needs nothing: executing it claims it (only one process can).
+  if (run.status === "queued") return;
   if (!["interrupted", "failed", "cancelled"].includes(run.status)) {
     throw new AppError("conflict", `Run ${runId} is ${run.status}; only queued, interrupted, failed or cancelled runs can be resumed`);
   }
@@ -389,14 +387,24 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   const onOuterAbort = () => controller.abort();
   opts.signal?.addEventListener("abort", onOuterAbort);
   if (opts.signal?.aborted) controller.abort();
+  // This process owns the run while it is "running" with our pid. If another door marked it
+  // interrupted (say our heartbeat stalled) and someone resumed it, we stop and write nothing more.
+  const owned = and(eq(runs.id, runId), eq(runs.status, "running"), eq(runs.hostPid, process.pid));
+  let ownershipLost = false;
+  const stillOwned = (): boolean => {
+    const r = db.select({ id: runs.id }).from(runs).where(owned).get();
+    if (!r) ownershipLost = true;
+    return Boolean(r);
+  };
   let lastHeartbeat = Date.now();
   const cancelPoll = setInterval(() => {
     try {
       const r = db.select({ c: runs.cancelRequested }).from(runs).where(eq(runs.id, runId)).get();
       if (r?.c) controller.abort();
+      if (!stillOwned()) controller.abort();
       if (Date.now() - lastHeartbeat > HEARTBEAT_EVERY_MS) {
         lastHeartbeat = Date.now();
-        db.update(runs).set({ heartbeatAt: new Date(lastHeartbeat) }).where(eq(runs.id, runId)).run();
+        db.update(runs).set({ heartbeatAt: new Date(lastHeartbeat) }).where(owned).run();
       }
     } catch {
       // transient lock: try again next tick
@@ -546,6 +554,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
         events.onStepEnd?.({ position: row.position, label: row.label, status, cacheHit: false, durationMs: Date.now() - started, error: message });
         throw status === "cancelled" ? e : new AppError(e.code === "internal" ? "step-failed" : e.code, message, e.details, { cause: err });
       }
+      if (!stillOwned()) throw Object.assign(new Error("cancelled"), { name: "AbortError" });
       const outputs: Record<string, string> = {};
       for (const [slot, value] of Object.entries(result.outputs)) {
         if (value === undefined) continue;
@@ -589,11 +598,17 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     clearInterval(cancelPoll);
     opts.signal?.removeEventListener("abort", onOuterAbort);
   }
+  if (ownershipLost || !stillOwned()) {
+    runLog.warn(`run ${runId} was marked interrupted or taken over by another process; this process stopped without recording more`);
+    return { runId, status: "cancelled", error: "taken over by another process" };
+  }
   writeTransaction(db, (tx) => {
-    tx.update(runs)
+    const done = tx
+      .update(runs)
       .set({ status: outcome.status, error: outcome.error ?? null, finishedAt: new Date() })
-      .where(eq(runs.id, runId))
+      .where(owned)
       .run();
+    if (done.changes === 0) return;
     if (outcome.status !== "succeeded") {
       tx.update(runSteps)
         .set({ status: outcome.status === "cancelled" ? "cancelled" : "skipped" })

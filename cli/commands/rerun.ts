@@ -28,7 +28,8 @@ export function parseOverride(text: string, into: Record<string, Record<string, 
     throw new AppError("bad-input", `--set ${text}: empty name in "${dotted}"`, { field: "--set", expected: "<step label>.<setting>[.<part>]=<value>" });
   }
   for (let i = keys.length - 1; i > 0; i--) value = { [keys[i]]: value };
-  const step = (into[label] ??= {});
+  // Own properties only: a label such as "constructor" must not reach Object's prototype.
+  const step = Object.hasOwn(into, label) ? into[label] : (into[label] = {});
   const first = keys[0];
   const prev = step[first];
   step[first] =

@@ -84,6 +84,8 @@ describe("rerun overrides", () => {
     // A dotted path changes one part of a setting that holds an object.
     const twice = parseOverride("build-model.grid.spacingM=0.5", parseOverride("build-model.grid.depthM=30", {}));
     expect(twice).toEqual({ "build-model": { grid: { depthM: 30, spacingM: 0.5 } } });
+    // A label that is also a name on Object's prototype stays an ordinary key.
+    expect(parseOverride("constructor.x=1", {})).toEqual({ constructor: { x: 1 } });
   });
 });
 

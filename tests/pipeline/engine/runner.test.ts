@@ -281,6 +281,36 @@ steps:
   });
 });
 
+describe("ownership of a running run", () => {
+  it("a run marked interrupted under a live process stops there and never overwrites the mark", async () => {
+    const flag = path.join(tmp, "owned.flag");
+    const file = writePipeline(
+      "owned",
+      `name: engine-owned
+survey: test-site
+steps:
+  - step: test-make-traces
+    settings: { value: 13 }
+  - step: test-wait
+    settings: { ms: 20000, startedFlagFile: ${JSON.stringify(flag)} }
+  - step: test-scale
+`,
+    );
+    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const running = executeRun(db, runId, { cancelPollMs: 50 });
+    const deadline = Date.now() + 10_000;
+    while (!fs.existsSync(flag) && Date.now() < deadline) await new Promise((r) => setTimeout(r, 20));
+    // Another door decides the process is gone (a stale heartbeat, say).
+    db.update(runs).set({ status: "interrupted" }).where(eq(runs.id, runId)).run();
+    const outcome = await running;
+    expect(outcome.status).toBe("cancelled");
+    expect(outcome.error).toMatch(/taken over by another process/);
+    const detail = getRun(db, runId)!;
+    expect(detail.status).toBe("interrupted");
+    expect(detail.steps[2].status).toBe("waiting");
+  });
+});
+
 describe("stuck queued runs", () => {
   it("a queued run nobody executed can be resumed, which executes it", async () => {
     const file = writePipeline("queued", "name: engine-queued\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { value: 3 }\n");
