@@ -184,17 +184,21 @@ export function snapshotGeometryTable(db: Db, geometryTablePath: string | null, 
   return written.hash;
 }
 
-/** Creates a queued run of a pipeline file on its (or another) field folder. */
-export function prepareRunFromFile(db: Db, opts: { pipelinePath: string; fieldDataOverride?: string; actor: Actor }) {
-  const reg = registerPipelineAndDataset(db, opts);
-  const runId = createRun(db, {
+/** Creates a queued run of a registered pipeline version on its registered dataset. */
+export function createRunFromRegistration(db: Db, reg: ReturnType<typeof registerPipelineAndDataset>, actor: Actor): number {
+  return createRun(db, {
     pipelineVersionId: reg.pipelineVersionId,
     datasetId: reg.dataset.id,
-    actor: opts.actor,
+    actor,
     steps: reg.resolved.steps,
     geometryTableHash: snapshotGeometryTable(db, reg.resolved.geometryTablePath, reg.dataset.folderPath || null),
   });
-  return { runId, ...reg };
+}
+
+/** Creates a queued run of a pipeline file on its (or another) field folder. */
+export function prepareRunFromFile(db: Db, opts: { pipelinePath: string; fieldDataOverride?: string; actor: Actor }) {
+  const reg = registerPipelineAndDataset(db, opts);
+  return { runId: createRunFromRegistration(db, reg, opts.actor), ...reg };
 }
 
 /**

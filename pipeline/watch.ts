@@ -15,7 +15,7 @@ import { getRun } from "../db/queries/runs";
 import { isIgnoredName, scanFolder } from "./dataset-folder";
 import { toAppError } from "./errors";
 import { loadPipelineFile } from "./pipeline-file";
-import { createRun, executeRun, registerPipelineAndDataset, snapshotGeometryTable, type Actor, type RunEvents, type RunOutcome } from "./runner";
+import { createRunFromRegistration, executeRun, registerPipelineAndDataset, type Actor, type RunEvents, type RunOutcome } from "./runner";
 import type { WorkerPool } from "./workers/pool";
 
 export interface WatchOptions {
@@ -108,13 +108,7 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
         );
         return;
       }
-      runId = createRun(db, {
-        pipelineVersionId: reg.pipelineVersionId,
-        datasetId: reg.dataset.id,
-        actor: opts.actor,
-        steps: reg.resolved.steps,
-        geometryTableHash: snapshotGeometryTable(db, reg.resolved.geometryTablePath, folder),
-      });
+      runId = createRunFromRegistration(db, reg, opts.actor);
     } catch (err) {
       note(folder, "rejected", toAppError(err).message);
       return;
