@@ -61,17 +61,18 @@ async function main() {
   const accounts = seedDemoUsers(db);
   closeDb();
 
-  const fieldDir = path.join(example, "field");
+  // The survey's files are generated data: they live under the data folder, not in the source tree.
+  const fieldDir = path.join(dataDir(), "examples", "quillmoor", "field");
   if (!fs.existsSync(path.join(fieldDir, "qm1-geometry.csv"))) {
-    say("  generating the Quillmoor example survey (line QM-1)...");
-    const r = await execa(process.execPath, ["--import", "tsx", path.join(example, "make-field-data.ts")], { cwd: projectRoot, stdio: "inherit", reject: false });
+    say(`  generating the Quillmoor example survey (line QM-1) into ${fieldDir}...`);
+    const r = await execa(process.execPath, ["--import", "tsx", path.join(example, "make-field-data.ts"), fieldDir], { cwd: projectRoot, stdio: "inherit", reject: false });
     if (r.exitCode !== 0) throw new Error("generating the example survey failed");
   }
 
   const processor = accounts.find((a) => a.role === "processor")?.email;
   const lead = accounts.find((a) => a.role === "lead")?.email;
   // Processing first; the modelling pipeline then takes its processing steps from the cache.
-  const order = ["qm1-processing.yaml", "qm1-modelling.yaml"];
+  const order = ["qm1-processing.yaml", "qm1-modelling.yaml", "qm1-inversion.yaml"];
   const pipelines = [
     ...order.filter((f) => fs.existsSync(path.join(example, f))),
     ...fs
@@ -81,7 +82,7 @@ async function main() {
   ];
   for (const file of pipelines) {
     say(`\n  running ${path.join("examples", "quillmoor", file)} through the command line as ${processor}`);
-    const r = await cli(["run", path.join(example, file), ...(processor ? ["--as", processor] : [])]);
+    const r = await cli(["run", path.join(example, file), "--field-data", fieldDir, ...(processor ? ["--as", processor] : [])]);
     if (r.exitCode !== 0) throw new Error(`the example pipeline ${file} failed (exit ${r.exitCode})`);
   }
 

@@ -1,0 +1,142 @@
+/**
+ * How close an inverted model of line QM-1 comes to the hidden true ground of the invented
+ * Quillmoor scenario: where the hollow is, how wide and how deep, how slow inside, and how well
+ * the background is recovered. Only the demo can do this (a real survey has no true model).
+ *
+ *   npx tsx examples/quillmoor/assess-inversion.ts [run id]   (default: the latest run of the
+ *                                                              quillmoor-qm1-inversion pipeline)
+ *
+ * The hollow in the inverted model is taken as the cells whose Vs is at least 20 % below the true
+ * background at their depth (the background is known here; the threshold is a choice of this
+ * demo): its centre is the Vs-deficit-weighted mean x, its width the extent at the top row below
+ * the held surface rows, its base the deepest such cell in the columns near the centre.
+ */
+import path from "node:path";
+import { pathToFileURL } from "node:url";
+import type { ElasticModel } from "../../pipeline/types";
+import { QUILLMOOR_HOLLOW, QUILLMOOR_LAYERS } from "./true-ground";
+import { buildModel, shapeContains } from "../../pipeline/kernels/fd/model-grid";
+
+export interface InversionAssessment {
+  /** Deficit-weighted centre of the slow body, m (true 27). */
+  centreXM: number | null;
+  /** Width of the slow body at 0.5 m depth, m (true about 6). */
+  widthM: number | null;
+  /** Deepest slow cell within ±1.5 m of the centre, m (true 3.5). */
+  baseDepthM: number | null;
+  /** Mean Vs inside the true hollow, m/s (true 90). */
+  meanVsInHollowMps: number;
+  /** Mean relative error of Vs outside the hollow, x 6–48 m, all depths of the model, %. */
+  backgroundErrorPercent: number;
+  /** Largest mean relative error of Vs in any 1 m depth band outside the hollow, x 6–48 m, %. */
+  worstBandErrorPercent: number;
+}
+
+/** Compares an inverted model with the true ground on the model's own grid. */
+export function assessInversion(m: ElasticModel): InversionAssessment {
+  const grid = { originX: m.originX, originZ: m.originZ, spacingM: m.spacingM, nx: m.nx, nz: m.nz };
+  const background = buildModel(grid, QUILLMOOR_LAYERS, []);
+  const h = m.spacingM;
+  let wSum = 0;
+  let xSum = 0;
+  const slow = new Uint8Array(m.nx * m.nz);
+  for (let j = 0; j < m.nz; j++) {
+    for (let i = 0; i < m.nx; i++) {
+      const k = j * m.nx + i;
+      const deficit = 1 - m.vs[k] / background.vs[k];
+      if (deficit >= 0.2) {
+        slow[k] = 1;
+        wSum += deficit;
+        xSum += deficit * (m.originX + i * h);
+      }
+    }
+  }
+  const centreXM = wSum > 0 ? xSum / wSum : null;
+  let widthM: number | null = null;
+  let baseDepthM: number | null = null;
+  if (centreXM !== null) {
+    const row = Math.min(m.nz - 1, Math.round((0.5 - m.originZ) / h));
+    const ci = Math.round((centreXM - m.originX) / h);
+    // The connected run of slow cells through the centre column at 0.5 m depth.
+    if (slow[row * m.nx + ci]) {
+      let lo = ci;
+      let hi = ci;
+      while (lo > 0 && slow[row * m.nx + lo - 1]) lo--;
+      while (hi < m.nx - 1 && slow[row * m.nx + hi + 1]) hi++;
+      widthM = (hi - lo + 1) * h;
+    } else widthM = 0;
+    const reach = Math.round(1.5 / h);
+    for (let j = 0; j < m.nz; j++) {
+      for (let i = Math.max(0, ci - reach); i <= Math.min(m.nx - 1, ci + reach); i++) {
+        if (slow[j * m.nx + i]) baseDepthM = m.originZ + (j + 1) * h;
+      }
+    }
+  }
+  let inSum = 0;
+  let inCount = 0;
+  let errSum = 0;
+  let errCount = 0;
+  const bands = new Map<number, { sum: number; count: number }>();
+  for (let j = 0; j < m.nz; j++) {
+    const z = m.originZ + j * h;
+    for (let i = 0; i < m.nx; i++) {
+      const x = m.originX + i * h;
+      const k = j * m.nx + i;
+      if (shapeContains(QUILLMOOR_HOLLOW, x, z)) {
+        inSum += m.vs[k];
+        inCount++;
+        continue;
+      }
+      if (x < 6 || x > 48) continue;
+      const e = Math.abs(m.vs[k] / background.vs[k] - 1);
+      errSum += e;
+      errCount++;
+      const b = Math.floor(z);
+      const band = bands.get(b) ?? { sum: 0, count: 0 };
+      band.sum += e;
+      band.count++;
+      bands.set(b, band);
+    }
+  }
+  let worst = 0;
+  for (const b of bands.values()) worst = Math.max(worst, b.sum / b.count);
+  return {
+    centreXM,
+    widthM,
+    baseDepthM,
+    meanVsInHollowMps: inCount > 0 ? inSum / inCount : Number.NaN,
+    backgroundErrorPercent: errCount > 0 ? (100 * errSum) / errCount : Number.NaN,
+    worstBandErrorPercent: 100 * worst,
+  };
+}
+
+/** The assessment as lines for a terminal, with the scenario's targets beside each figure. */
+export function describeAssessment(a: InversionAssessment): string[] {
+  const f = (v: number | null, d = 2) => (v === null || !Number.isFinite(v) ? "none" : v.toFixed(d));
+  return [
+    `hollow centre      ${f(a.centreXM)} m    (true 27 m; target within 1 m)`,
+    `hollow width       ${f(a.widthM)} m    (true about 6 m at 0.5 m depth; target within 1.5 m)`,
+    `hollow base        ${f(a.baseDepthM)} m    (true 3.5 m; target within 1 m)`,
+    `mean Vs in hollow  ${f(a.meanVsInHollowMps, 0)} m/s  (true 90 m/s; target at most 120 m/s)`,
+    `background Vs      ${f(a.backgroundErrorPercent, 1)} % mean error, worst 1 m band ${f(a.worstBandErrorPercent, 1)} %  (x 6–48 m; target within 10 %)`,
+  ];
+}
+
+if (process.argv[1] && import.meta.url === pathToFileURL(path.resolve(process.argv[1])).href) {
+  const { getDb, closeDb } = await import("../../db/client");
+  const { getRun, listRuns } = await import("../../db/queries/runs");
+  const { readArtifactSync } = await import("../../pipeline/artifact-store");
+  const db = getDb();
+  const arg = process.argv[2];
+  const runId = arg ? Number(arg) : listRuns(db, { pipelineName: "quillmoor-qm1-inversion", status: "succeeded", pageSize: 1 }).rows[0]?.id;
+  const run = runId ? getRun(db, runId) : null;
+  const step = run?.steps.find((s) => s.stepId === "waveform-inversion");
+  closeDb();
+  if (!run || !step?.outputs.model) {
+    process.stderr.write(`assess-inversion: ${arg ? `run ${arg} has` : "there is"} no finished waveform inversion to assess\n`);
+    process.exit(2);
+  }
+  const model = readArtifactSync(step.outputs.model) as ElasticModel;
+  process.stdout.write(`Run ${run.id}: the inverted model against the hidden true ground (invented demo)\n`);
+  for (const line of describeAssessment(assessInversion(model))) process.stdout.write(`  ${line}\n`);
+}
