@@ -308,3 +308,34 @@ export const rejectedFiles = sqliteTable(
   },
   (t) => [primaryKey({ columns: [t.runId, t.name] })],
 );
+
+/**
+ * Intermediate results a step records while it runs (e.g. one model per inversion iteration):
+ * each an artifact, attached to the run step that computed it. A cache hit shows the records of
+ * its source step (run_steps.cache_source_step_id).
+ */
+export const stepIntermediates = sqliteTable(
+  "step_intermediates",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    runStepId: integer("run_step_id")
+      .notNull()
+      .references(() => runSteps.id),
+    /** What it is, e.g. "model", "gradient", "synthetic". */
+    kind: text("kind").notNull(),
+    /** Orders the records of one kind, e.g. the iteration. */
+    index: integer("index").notNull(),
+    label: text("label"),
+    artifactHash: text("artifact_hash").notNull(),
+    metaJson: text("meta_json"),
+    at: integer("at", { mode: "timestamp_ms" }).notNull().default(now),
+  },
+  (t) => [uniqueIndex("step_intermediates_kind_index").on(t.runStepId, t.kind, t.index)],
+);
+
+/** The latest checkpoint of a long step, under the step's cache key: a resumed run finds it. */
+export const stepCheckpoints = sqliteTable("step_checkpoints", {
+  cacheKey: text("cache_key").primaryKey(),
+  artifactHash: text("artifact_hash").notNull(),
+  at: integer("at", { mode: "timestamp_ms" }).notNull().default(now),
+});

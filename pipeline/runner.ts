@@ -22,7 +22,8 @@ import { sha256Hex } from "./hash";
 import { createRunLogger } from "./logger";
 import { applyOverrides, loadPipelineFile, type ResolvedPipeline, type ResolvedStep } from "./pipeline-file";
 import { getStep } from "./registry";
-import type { StepContext, StepResult } from "./step";
+import type { StepContext, StepResult, StepSeries } from "./step";
+import { createStepRecorder } from "./step-records";
 import type { FieldFileSet, SlotName, SlotValues } from "./types";
 import { sharedWorkerPool, type WorkerPool } from "./workers/pool";
 
@@ -518,7 +519,20 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
         echo: (level, message) => events.onLog?.({ label: row.label, level, message }),
       });
       let lastProgressWrite = 0;
+      const recorder = createStepRecorder(db, {
+        runStepId: row.id,
+        cacheKey,
+        label: row.label,
+        existingSeriesJson: row.seriesJson,
+        ensureOwned: () => {
+          if (!stillOwned()) throw Object.assign(new Error("cancelled"), { name: "AbortError" });
+        },
+      });
       const ctx: StepContext = {
+        recordIntermediate: recorder.recordIntermediate,
+        extendSeries: recorder.extendSeries,
+        saveCheckpoint: recorder.saveCheckpoint,
+        loadCheckpoint: recorder.loadCheckpoint,
         log,
         signal: controller.signal,
         progress: (fraction, message) => {
@@ -551,6 +565,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
         const status = e.code === "cancelled" ? "cancelled" : "failed";
         const message = status === "cancelled" ? "cancelled" : `${row.label}: ${e.message}`;
         if (status === "failed") log.error({ code: e.code }, e.message);
+        if (!ownershipLost) recorder.flush();
         db.update(runSteps)
           .set({ status, error: message, finishedAt: new Date(), durationMs: Date.now() - started })
           .where(eq(runSteps.id, row.id))
@@ -580,7 +595,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
           status: "succeeded",
           outputsJson: JSON.stringify(outputs),
           summaryJson: result.summary ? JSON.stringify(result.summary) : null,
-          seriesJson: result.series ? JSON.stringify(result.series) : null,
+          seriesJson: seriesOf(recorder.mergeSeries(result.series)),
           progress: 1,
           finishedAt: new Date(),
           durationMs,
@@ -622,6 +637,10 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   });
   runLog.info(`run ${runId} ${outcome.status}`);
   return outcome;
+}
+
+function seriesOf(series: StepSeries[] | undefined): string | null {
+  return series ? JSON.stringify(series) : null;
 }
 
 function recordRejections(db: Db, runId: number, data: unknown): void {

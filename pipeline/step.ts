@@ -21,6 +21,18 @@ export interface StepContext {
   progress: (fraction: number, message?: string) => void;
   /** The shared worker pool for heavy kernels. */
   pool: WorkerPool;
+  /** Records an intermediate result now: written as a content-addressed artifact at once and attached to
+   *  this step (kind says what it is, e.g. "model", "gradient", "synthetic"; index orders records of one
+   *  kind, e.g. the iteration), visible to `tracewright show` and the control room while the step runs.
+   *  value: any artifact-codec-able plain data (as slot values). Returns the artifact hash. */
+  recordIntermediate(entry: { kind: string; index: number; label?: string; value: unknown; meta?: Record<string, unknown> }): string;
+  /** Appends points to a named series at once (created on first call); stored with the step while it runs. */
+  extendSeries(series: { name: string; xLabel: string; yLabel: string }, points: Array<{ x: number; y: number; group?: string }>): void;
+  /** Saves this step's checkpoint (artifact-codec-able plain data), replacing the previous one. Kept under the
+   *  step's cache key, so a resumed run (same cache key) finds it. */
+  saveCheckpoint(value: unknown): void;
+  /** The latest checkpoint saved under this step's cache key, or null. */
+  loadCheckpoint(): unknown | null;
 }
 
 /** A named series a step records (drawn as a chart in the control room). */

@@ -3,9 +3,10 @@
  * JSON-safe view types of app/lib/view-types.ts. No logic of their own beyond shaping.
  */
 import { getDb } from "@/db/client";
+import { listIntermediates } from "@/db/queries/intermediates";
 import { listReviews } from "@/db/queries/reviews";
 import { getRun, getStepLogs, listRuns, type RunFilter, type RunRow } from "@/db/queries/runs";
-import type { LogLine, RunListItem, RunListPage, RunView, StepView } from "./view-types";
+import type { IntermediateView, LogLine, RunListItem, RunListPage, RunView, StepView } from "./view-types";
 
 const ms = (d: Date | null | undefined) => (d ? d.getTime() : null);
 
@@ -114,6 +115,18 @@ export function readLogs(runId: number, opts: { runStepId?: number; afterId?: nu
     at: l.at.getTime(),
     level: l.level,
     message: l.message,
+  }));
+}
+
+/** Intermediate results a run step recorded (a cache hit shows those of the step that computed it). */
+export function readIntermediates(runStepId: number): IntermediateView[] {
+  return listIntermediates(getDb(), runStepId).map((x) => ({
+    kind: x.kind,
+    index: x.index,
+    label: x.label,
+    hash: x.artifactHash,
+    meta: x.meta,
+    at: x.at.getTime(),
   }));
 }
 

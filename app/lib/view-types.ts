@@ -58,6 +58,16 @@ export interface StepView {
   durationMs: number | null;
 }
 
+/** An intermediate result a step recorded while it ran (e.g. one iteration's model). */
+export interface IntermediateView {
+  kind: string;
+  index: number;
+  label: string | null;
+  hash: string;
+  meta: Record<string, unknown> | null;
+  at: number;
+}
+
 export interface ReviewView {
   id: number;
   decision: "approved" | "returned";

@@ -1,6 +1,7 @@
 /** `tracewright runs` and `tracewright show`: what ran, how, with what. */
 import type { Command } from "commander";
 import { z } from "zod";
+import { listRunIntermediates } from "../../db/queries/intermediates";
 import { getRun, getStepLogs, listRuns } from "../../db/queries/runs";
 import { RUN_STATUSES } from "../../db/schema";
 import { AppError } from "../../pipeline/errors";
@@ -103,6 +104,7 @@ export function registerRuns(program: Command): void {
         const detail = getRun(db, id);
         if (!detail) throw new AppError("not-found", `Run ${id} does not exist (see tracewright runs)`);
         const logs = opts.logs || opts.json ? getStepLogs(db, { runId: id, limit: 5000 }) : [];
+        const intermediates = listRunIntermediates(db, id);
         if (opts.json) {
           printJson({
             id: detail.id,
@@ -135,6 +137,14 @@ export function registerRuns(program: Command): void {
               outputs: s.outputs,
               summary: s.summary,
               error: s.error,
+              intermediates: (intermediates.get(s.id) ?? []).map((x) => ({
+                kind: x.kind,
+                index: x.index,
+                label: x.label,
+                hash: x.artifactHash,
+                meta: x.meta,
+                at: x.at.toISOString(),
+              })),
             })),
             logs: logs.map((l) => ({ id: l.id, runStepId: l.runStepId, at: l.at.toISOString(), level: l.level, message: l.message })),
           });
@@ -155,6 +165,9 @@ export function registerRuns(program: Command): void {
           for (const [slot, h] of Object.entries(s.inputs)) out(`     in  ${slot.padEnd(14)} ${h.slice(0, 16)}`);
           for (const [slot, h] of Object.entries(s.outputs)) out(`     out ${slot.padEnd(14)} ${h}`);
           if (s.summary) out(`     summary ${JSON.stringify(s.summary)}`);
+          for (const x of intermediates.get(s.id) ?? []) {
+            out(`     along ${x.kind.padEnd(12)} #${String(x.index).padEnd(5)} ${x.artifactHash}${x.label ? `  ${x.label}` : ""}`);
+          }
           if (s.error) out(`     error ${s.error}`);
         }
         if (opts.logs) {

@@ -4,6 +4,7 @@
  * single step rerun works on a small machine. Prints nothing: the CLI `bench` command does.
  */
 import { pino } from "pino";
+import { memoryStepRecorder } from "../step-records";
 import type { StepContext, StepDefinition } from "../step";
 import type { Gather, GatherSet, SlotValues, TraceHeader } from "../types";
 import type { WorkerPool } from "../workers/pool";
@@ -50,6 +51,7 @@ function context(): StepContext {
     signal: new AbortController().signal,
     progress: () => undefined,
     pool: undefined as unknown as WorkerPool,
+    ...memoryStepRecorder(),
   };
 }
 

@@ -160,9 +160,52 @@ export const readLabel = defineStep({
   },
 });
 
+/**
+ * A long iterative step: each iteration updates a small vector (x <- 1.5 x + 1, started from the
+ * first sample of its input), records it as an intermediate result, adds a misfit point and saves
+ * a checkpoint. It continues from its checkpoint when one exists. With `holdAfter` it touches
+ * `startedFlagFile` after that iteration's checkpoint and waits for `releaseFile`.
+ */
+export const iterateStep = defineStep({
+  id: "test-iterate",
+  version: 1,
+  title: "iterate",
+  description: "test step: records one intermediate result, one misfit point and one checkpoint per iteration",
+  reads: ["gathers"],
+  writes: ["report"],
+  params: z.object({
+    iterations: z.number().int().positive().default(10).describe("iteration count"),
+    holdAfter: z.number().int().default(-1).describe("iteration after which to wait for releaseFile (-1: never)"),
+    startedFlagFile: z.string().default("").describe("file to create when holding"),
+    releaseFile: z.string().default("").describe("stop holding as soon as this file exists"),
+  }),
+  async run(input, p, ctx) {
+    count("test-iterate");
+    const checkpoint = ctx.loadCheckpoint() as { iteration: number; values: Float64Array } | null;
+    let values = checkpoint?.values ?? new Float64Array(4).fill(input.gathers!.gathers[0].data[0]);
+    for (let i = checkpoint ? checkpoint.iteration + 1 : 0; i < p.iterations; i++) {
+      throwIfAborted(ctx.signal);
+      count("test-iterate:iteration");
+      values = values.map((x) => 1.5 * x + 1);
+      ctx.recordIntermediate({ kind: "model", index: i, label: `iteration ${i + 1}`, value: { kind: "vector", values }, meta: { misfit: 1 / (i + 1) } });
+      ctx.extendSeries({ name: "misfit", xLabel: "iteration", yLabel: "misfit" }, [{ x: i, y: 1 / (i + 1) }]);
+      ctx.saveCheckpoint({ iteration: i, values });
+      ctx.progress((i + 1) / p.iterations, `iteration ${i + 1}`);
+      if (i === p.holdAfter) {
+        if (p.startedFlagFile) fs.writeFileSync(p.startedFlagFile, String(process.pid));
+        while (!(p.releaseFile && fs.existsSync(p.releaseFile))) {
+          throwIfAborted(ctx.signal);
+          await new Promise((r) => setTimeout(r, 20));
+        }
+      }
+    }
+    return { outputs: { report: { kind: "json", role: "iterate", data: Array.from(values) } } };
+  },
+});
+
 /** Registers the test steps once per process. */
 export function registerEngineTestSteps(): void {
-  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles, readTable, readLabel]) {
+  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles, readTable, readLabel, iterateStep]) {
     if (!listSteps().some((x) => x.id === s.id)) registerStep(s);
   }
 }

@@ -4,6 +4,7 @@
  */
 import { pino } from "pino";
 import type { StepContext } from "../../pipeline/step";
+import { memoryStepRecorder, type MemoryRecords } from "../../pipeline/step-records";
 import type { WorkerPool } from "../../pipeline/workers/pool";
 
 export interface TestStepContext extends StepContext {
@@ -11,6 +12,8 @@ export interface TestStepContext extends StepContext {
   progressCalls: Array<{ fraction: number; message?: string }>;
   /** Aborts `signal`. */
   abort: () => void;
+  /** What the step recorded along the way (intermediates, series, its checkpoint). */
+  records: MemoryRecords;
 }
 
 /** Builds a context for a step under test. Pass `pool` when the step uses the worker pool. */
@@ -24,6 +27,7 @@ export function makeStepContext(options: { pool?: WorkerPool; level?: string } =
       progressCalls.push({ fraction, message });
     },
     pool: options.pool ?? (undefined as never),
+    ...memoryStepRecorder(),
     progressCalls,
     abort: () => controller.abort(),
   };
