@@ -6,6 +6,10 @@
  * common practice). Before going to a longer interval the traces pass a zero-phase Butterworth
  * low-pass (anti-alias filter) below the new Nyquist frequency, so content above it is removed
  * rather than folded back.
+ *
+ * Single signals (solver traces, source wavelets) use {@link resampleBandLimited}, a Lanczos-
+ * windowed sinc whose width follows the longer of the two intervals (anti-alias included), and
+ * its exact transpose {@link resampleBandLimitedTranspose}.
  */
 import { filterTraces, planFrequencyFilter } from "./filter";
 import { assertCount, assertFinite, assertTraceBlock } from "./taper";
@@ -68,9 +72,8 @@ export function interpolateTraces(
     first[j] = i0;
     for (let k = 0; k < width; k++) {
       const d = x - (i0 + k);
-      const sinc = d === 0 ? 1 : Math.sin(Math.PI * d) / (Math.PI * d);
       const hann = Math.abs(d) >= SINC_HALF_WIDTH ? 0 : 0.5 * (1 + Math.cos((Math.PI * d) / SINC_HALF_WIDTH));
-      weights[j * width + k] = sinc * hann;
+      weights[j * width + k] = sinc(d) * hann;
     }
   }
   const out = new Float32Array(traceCount * m);
@@ -117,4 +120,99 @@ export function resampleTraces(
     source = filterTraces({ data, traceCount, sampleCount, plan, taperSamples: 0 });
   }
   return interpolateTraces(source, traceCount, sampleCount, startTimeS, sampleIntervalS, grid);
+}
+
+// ---- Band-limited resampling of single signals (the solver's traces and source wavelets) ----
+//
+// Windowed-sinc interpolation with a Lanczos window (common practice). When the output interval is
+// longer than the input interval the kernel is widened to the output's Nyquist frequency, so it
+// also acts as the anti-alias filter. The solver records at its time step and brings the traces to
+// the field sampling with it; the inversion injects adjoint sources through its transpose.
+
+/** Lanczos window half-width in units of the kernel's sample period. */
+export const LANCZOS_LOBES = 8;
+
+function sinc(x: number): number {
+  if (x === 0) return 1;
+  const px = Math.PI * x;
+  return Math.sin(px) / px;
+}
+
+/**
+ * Resamples `src` (sample k at time `srcStartS + k·srcDtS`) to `count` samples at
+ * `dstStartS + k·dstDtS`, writing into `out` (offset `outOffset`). Samples outside the input span
+ * count as zero. Returns `out`.
+ */
+export function resampleBandLimited(
+  src: ArrayLike<number>,
+  srcStartS: number,
+  srcDtS: number,
+  dstStartS: number,
+  dstDtS: number,
+  count: number,
+  out: Float32Array | Float64Array = new Float32Array(count),
+  outOffset = 0,
+  srcOffset = 0,
+  srcLength = src.length - srcOffset,
+): Float32Array | Float64Array {
+  if (!(srcDtS > 0)) throw new RangeError(`srcDtS must be > 0, got ${srcDtS}`);
+  if (!(dstDtS > 0)) throw new RangeError(`dstDtS must be > 0, got ${dstDtS}`);
+  if (!Number.isInteger(count) || count < 0) throw new RangeError(`count must be an integer ≥ 0, got ${count}`);
+  if (out.length < outOffset + count) throw new RangeError(`out too short: ${out.length} < ${outOffset + count}`);
+  const period = Math.max(srcDtS, dstDtS);
+  const gain = srcDtS / period;
+  const halfWidth = LANCZOS_LOBES * period;
+  for (let k = 0; k < count; k++) {
+    const t = dstStartS + k * dstDtS;
+    const lo = Math.max(0, Math.ceil((t - halfWidth - srcStartS) / srcDtS));
+    const hi = Math.min(srcLength - 1, Math.floor((t + halfWidth - srcStartS) / srcDtS));
+    let s = 0;
+    for (let n = lo; n <= hi; n++) {
+      const x = (t - (srcStartS + n * srcDtS)) / period;
+      s += src[srcOffset + n] * sinc(x) * sinc(x / LANCZOS_LOBES);
+    }
+    out[outOffset + k] = s * gain;
+  }
+  return out;
+}
+
+/**
+ * Transpose of {@link resampleBandLimited} as a linear map from the `srcLength` input samples to
+ * the `count` output samples: adds to `srcOut[srcOffset + n]` the sum over output samples k of
+ * weight(k, n)·`dst[dstOffset + k]`, with exactly the weights the forward map uses. The inversion
+ * injects an adjoint source given at the output sampling through it, so the gradient is that of
+ * the resampled traces (the adjoint of a linear operator is its transpose).
+ */
+export function resampleBandLimitedTranspose(
+  dst: ArrayLike<number>,
+  srcStartS: number,
+  srcDtS: number,
+  dstStartS: number,
+  dstDtS: number,
+  count: number,
+  srcOut: Float64Array | Float32Array,
+  srcOffset: number,
+  srcLength: number,
+  dstOffset = 0,
+): Float64Array | Float32Array {
+  if (!(srcDtS > 0)) throw new RangeError(`srcDtS must be > 0, got ${srcDtS}`);
+  if (!(dstDtS > 0)) throw new RangeError(`dstDtS must be > 0, got ${dstDtS}`);
+  if (!Number.isInteger(count) || count < 0) throw new RangeError(`count must be an integer ≥ 0, got ${count}`);
+  if (dst.length < dstOffset + count) throw new RangeError(`dst too short: ${dst.length} < ${dstOffset + count}`);
+  if (srcOut.length < srcOffset + srcLength) throw new RangeError(`srcOut too short: ${srcOut.length} < ${srcOffset + srcLength}`);
+  const period = Math.max(srcDtS, dstDtS);
+  const gain = srcDtS / period;
+  const halfWidth = LANCZOS_LOBES * period;
+  for (let k = 0; k < count; k++) {
+    const a = dst[dstOffset + k];
+    if (a === 0) continue;
+    const t = dstStartS + k * dstDtS;
+    const lo = Math.max(0, Math.ceil((t - halfWidth - srcStartS) / srcDtS));
+    const hi = Math.min(srcLength - 1, Math.floor((t + halfWidth - srcStartS) / srcDtS));
+    for (let n = lo; n <= hi; n++) {
+      const x = (t - (srcStartS + n * srcDtS)) / period;
+      srcOut[srcOffset + n] += a * gain * sinc(x) * sinc(x / LANCZOS_LOBES);
+    }
+  }
+  return srcOut;
 }

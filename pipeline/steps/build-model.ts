@@ -9,6 +9,7 @@ import { z } from "zod";
 import { defineStep, StepInputError } from "../step";
 import type { ElasticModel, GatherSet } from "../types";
 import { checkModelCells } from "../kernels/fd/checks";
+import { FdSetupError } from "../kernels/fd/errors";
 import { buildModel, countShapeCells, modelFromCsv, paintShapes, shapeBounds, type GridDescription, type ShapeDescription } from "../kernels/fd/model-grid";
 import { AppError } from "../errors";
 
@@ -206,7 +207,13 @@ export const buildModelStep = defineStep({
     if (shapes.length > 0) {
       model = paintShapes(model, shapes);
     }
-    const { vpMax, vsMin, vsMax } = checkModelCells(model);
+    let extremes: ReturnType<typeof checkModelCells>;
+    try {
+      extremes = checkModelCells(model);
+    } catch (err) {
+      throw err instanceof FdSetupError ? new StepInputError(err.message, err.field) : err;
+    }
+    const { vpMax, vsMin, vsMax } = extremes;
     ctx.progress(1, `model ${model.nx} × ${model.nz}`);
     return {
       outputs: { model },

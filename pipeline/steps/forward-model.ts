@@ -9,6 +9,7 @@
 import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { Gather, GatherSet, TraceHeader } from "../types";
+import { FdSetupError } from "../kernels/fd/errors";
 import { modelShots, type GatherTemplate } from "../kernels/fd/model-shots";
 import type { SourceKind, VelocityComponent } from "../kernels/fd/simulation";
 import type { SourceWavelet } from "../kernels/fd/wavelet";
@@ -107,6 +108,12 @@ function waveletFor(p: ForwardModelParams, gatherId: string, slot?: GatherSet): 
   return { kind: "samples", samples: g.data.subarray(0, g.sampleCount), intervalS: g.sampleIntervalS, startTimeS: g.startTimeS, shiftS: p.timeShiftS ?? 0 };
 }
 
+/** The solver's refusals (cells, time step, grid, positions) are this step's input errors, with the same message and field. */
+export function asStepInputError(err: unknown): never {
+  if (err instanceof FdSetupError) throw new StepInputError(err.message, err.field);
+  throw err;
+}
+
 export const forwardModelStep = defineStep({
   id: "forward-model",
   version: 1,
@@ -144,7 +151,7 @@ export const forwardModelStep = defineStep({
       snapshotGatherId: p.snapshotGatherId,
       wavelets,
       onShot: (done, total, id) => ctx.progress(done / total, `shot ${id} (${done} of ${total})`),
-    });
+    }).catch(asStepInputError);
     const { gathers, snapshots, dtS, steps, pointsPerWavelength: points } = res;
     return {
       outputs: { synthetic: { kind: "gathers", gathers }, ...(snapshots ? { snapshots } : {}) },

@@ -2,7 +2,7 @@
  * Checks made before any time step: physical cells, stability and accuracy. Each refusal says
  * which value to change and to what.
  */
-import { StepInputError } from "../../step";
+import { FdSetupError } from "./errors";
 import type { ElasticModel } from "../../types";
 
 /**
@@ -22,15 +22,15 @@ export function maxStableDt(spacingM: number, vmax: number): number {
 export const AUTO_DT_FRACTION = 0.9;
 
 /**
- * The time step: `requested` if given and stable (else a StepInputError naming `dtS`), otherwise
+ * The time step: `requested` if given and stable (else an FdSetupError naming `dtS`), otherwise
  * 0.9 of the limit, shortened so that `outputIntervalS` (if given) is a whole number of steps.
  */
 export function chooseTimeStep(spacingM: number, vmax: number, requested?: number, outputIntervalS?: number): number {
   const limit = maxStableDt(spacingM, vmax);
   if (requested !== undefined) {
-    if (!(requested > 0)) throw new StepInputError(`dtS must be > 0, got ${requested}.`, "dtS");
+    if (!(requested > 0)) throw new FdSetupError(`dtS must be > 0, got ${requested}.`, "dtS");
     if (requested > limit) {
-      throw new StepInputError(
+      throw new FdSetupError(
         `Time step dtS = ${fmt(requested)} s is unstable for grid spacing ${fmt(spacingM)} m and fastest velocity ${fmt(vmax)} m/s: ` +
           `set dtS to at most ${fmt(limit)} s (0.606·dx/vmax, Levander 1988) or leave it out to choose it automatically.`,
         "dtS",
@@ -52,7 +52,7 @@ export function checkGridAccuracy(spacingM: number, vsMin: number, maxHz: number
   if (points < minPoints) {
     const hMax = vsMin / (maxHz * minPoints);
     const fMax = vsMin / (spacingM * minPoints);
-    throw new StepInputError(
+    throw new FdSetupError(
       `Grid too coarse: spacing ${fmt(spacingM)} m gives ${points.toFixed(2)} points per shortest S wavelength ` +
         `(Vs ${fmt(vsMin)} m/s at ${fmt(maxHz)} Hz, the highest frequency of the wavelet), fewer than ${minPoints}. ` +
         `Set spacingM to at most ${fmt(hMax)} m, or lower the wavelet's highest frequency to ${fmt(fMax)} Hz ` +
@@ -75,7 +75,7 @@ function cellName(m: ElasticModel, ix: number, iz: number): string {
 export function checkModelCells(m: ElasticModel): { vpMax: number; vsMin: number; vsMax: number } {
   const n = m.nx * m.nz;
   for (const [k, a] of [["vp", m.vp], ["vs", m.vs], ["rho", m.rho]] as const) {
-    if (a.length !== n) throw new StepInputError(`model ${k} has ${a.length} values, expected nx·nz = ${n}.`, k);
+    if (a.length !== n) throw new FdSetupError(`model ${k} has ${a.length} values, expected nx·nz = ${n}.`, k);
   }
   let vpMax = 0;
   let vsMin = Infinity;
@@ -86,14 +86,14 @@ export function checkModelCells(m: ElasticModel): { vpMax: number; vsMin: number
     const rho = m.rho[k];
     const ix = k % m.nx;
     const iz = (k - ix) / m.nx;
-    if (!(vs > 0)) throw new StepInputError(`Vs = ${vs} m/s at ${cellName(m, ix, iz)}: Vs must be > 0.`, "vs");
+    if (!(vs > 0)) throw new FdSetupError(`Vs = ${vs} m/s at ${cellName(m, ix, iz)}: Vs must be > 0.`, "vs");
     if (!(vp > Math.SQRT2 * vs)) {
-      throw new StepInputError(
+      throw new FdSetupError(
         `Vp/Vs = ${fmt(vp / vs)} (Vp ${fmt(vp)} m/s, Vs ${fmt(vs)} m/s) at ${cellName(m, ix, iz)}: Vp/Vs must exceed √2 ≈ 1.414.`,
         "vp",
       );
     }
-    if (!(rho > 0)) throw new StepInputError(`density = ${rho} kg/m³ at ${cellName(m, ix, iz)}: density must be > 0.`, "rho");
+    if (!(rho > 0)) throw new FdSetupError(`density = ${rho} kg/m³ at ${cellName(m, ix, iz)}: density must be > 0.`, "rho");
     if (vp > vpMax) vpMax = vp;
     if (vs < vsMin) vsMin = vs;
     if (vs > vsMax) vsMax = vs;

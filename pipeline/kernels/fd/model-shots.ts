@@ -4,8 +4,7 @@
  * interval, sample count and start time), so synthetic and observed data line up trace by trace.
  */
 import type { ElasticModel, Gather, SnapshotSet, TraceHeader } from "../../types";
-import type { WorkerPool } from "../../workers/pool";
-import { StepInputError } from "../../step";
+import { FdSetupError } from "./errors";
 import type { SourceWavelet } from "./wavelet";
 import { checkSimulation, simulateShot, type ShotPositions, type SimulationOptions, type SimulationResult } from "./simulation";
 
@@ -15,10 +14,25 @@ export type GatherTemplate = Omit<Gather, "data">;
 /** Simulation options shared by every shot (the output sampling comes from each template). */
 export type ModelShotsOptions = Omit<SimulationOptions, "output" | "cancelFlag">;
 
+/** The argument of one shot's task: {@link simulateShot}'s arguments as one plain object. */
+export interface ModelShotTaskArg {
+  model: ElasticModel;
+  shot: ShotPositions;
+  options: SimulationOptions;
+}
+
+/**
+ * What {@link modelShots} needs of a worker pool: run the task "modelShotTask" (pipeline/workers/tasks.ts)
+ * with one shot's argument. The step hands its pool in; kernels do not import the pool.
+ */
+export interface ShotRunner {
+  run(task: "modelShotTask", arg: ModelShotTaskArg, options?: { signal?: AbortSignal }): Promise<SimulationResult>;
+}
+
 /** Progress and cancellation for {@link modelShots}. */
 export interface ModelShotsControl {
-  /** Worker pool: shots run in parallel, one task each. Without it they run here in turn. */
-  pool?: WorkerPool;
+  /** Worker pool (or anything that runs the shot task): shots run in parallel, one task each. Without it they run here in turn. */
+  pool?: ShotRunner;
   signal?: AbortSignal;
   /** Called after each finished shot with the count done and the total. */
   onShot?: (done: number, total: number, gatherId: string) => void;
@@ -40,11 +54,11 @@ export interface ModelShotsResult {
 
 /** Source and receiver positions of a template; all traces must share one source position. */
 export function shotPositions(t: GatherTemplate): ShotPositions {
-  if (t.traces.length === 0) throw new StepInputError(`gather "${t.id}" has no traces to model.`, "gathers");
+  if (t.traces.length === 0) throw new FdSetupError(`gather "${t.id}" has no traces to model.`, "gathers");
   const s = t.traces[0];
   for (const h of t.traces) {
     if (Math.abs(h.sourceX - s.sourceX) > 1e-6 || Math.abs(h.sourceZ - s.sourceZ) > 1e-6) {
-      throw new StepInputError(
+      throw new FdSetupError(
         `gather "${t.id}" mixes source positions (${s.sourceX} m and ${h.sourceX} m); synthetic gathers need one source per gather.`,
         "gathers",
       );
@@ -60,7 +74,7 @@ export function shotPositions(t: GatherTemplate): ShotPositions {
 
 /**
  * Synthetic gathers for every template through `model`. Snapshots (if `options.snapshotTimesS`
- * is set) come from one shot only. Throws StepInputError before any time step on unphysical cells,
+ * is set) come from one shot only. Throws FdSetupError before any time step on unphysical cells,
  * an unstable dt or a too coarse grid; an AbortError when `control.signal` aborts.
  */
 export async function modelShots(

@@ -1,14 +1,17 @@
 /**
- * Runs one shot through an elastic model: sets up the staggered material coefficients and the
- * absorbing boundary, steps the WebAssembly (or reference) kernel, injects the source, records
- * receivers and snapshots, and resamples the traces to the requested output sampling.
+ * Runs one shot through an elastic model, in pieces that other solves (the inversion's adjoint)
+ * reuse: set-up of the staggered material coefficients, the absorbing boundary and the kernel
+ * ({@link prepareSimulation}); source injection ({@link sourceInjection}, {@link inject}); the
+ * time loop with hooks before and after each step ({@link runTimeSteps}); receiver read-out
+ * ({@link receiverStencil}, {@link recordReceivers}); and resampling to the output interval
+ * ({@link resampleRecords}) with its transpose. {@link simulateShot} chains them.
  */
 import type { ElasticModel } from "../../types";
-import { StepInputError } from "../../step";
 import { checkGridAccuracy, checkModelCells, chooseTimeStep } from "./checks";
 import { planLayout, type FdLayout, type WaveMode } from "./layout";
 import { FLUSH_BELOW, createReferenceKernel, type FdKernel } from "./reference-kernel";
-import { resampleBandLimited } from "./resample";
+import { resampleBandLimited, resampleBandLimitedTranspose } from "../resample";
+import { FdSetupError } from "./errors";
 import { ricker, sampleWavelet, waveletBand, type SourceWavelet } from "./wavelet";
 import { createWasmKernel } from "./wasm-kernel";
 
@@ -87,11 +90,11 @@ function stagger(component: VelocityComponent | "stress"): [number, number] {
   return [0, 0];
 }
 
-/** Float offset of a particle-velocity component's array. */
-function fieldOf(layout: FdLayout, component: VelocityComponent): number {
+/** Float offset of a particle-velocity component's array in the buffer. */
+export function fieldOf(layout: FdLayout, component: VelocityComponent): number {
   const o = layout.offsets;
   if (layout.mode === "sh") {
-    if (component !== "y") throw new StepInputError(`SH records only the y component, got "${component}".`, "component");
+    if (component !== "y") throw new FdSetupError(`SH records only the y component, got "${component}".`, "component");
     return o.f0;
   }
   switch (component) {
@@ -100,12 +103,12 @@ function fieldOf(layout: FdLayout, component: VelocityComponent): number {
     case "z":
       return o.f1;
     default:
-      throw new StepInputError(`P-SV records the x or z component, got "${component}".`, "component");
+      throw new FdSetupError(`P-SV records the x or z component, got "${component}".`, "component");
   }
 }
 
 /** Bilinear weights of a point onto its component's grid (comp coordinates), rows clamped at a free surface. */
-function pointStencil(layout: FdLayout, col: number, row: number, component: VelocityComponent | "stress") {
+export function pointStencil(layout: FdLayout, col: number, row: number, component: VelocityComponent | "stress") {
   const [ox, oz] = stagger(component);
   const u = col - ox;
   let w = row - oz;
@@ -278,7 +281,7 @@ function checkInside(model: ElasticModel, x: number, z: number, what: string, fi
   const xMax = model.originX + (model.nx - 1) * model.spacingM;
   const zMax = model.originZ + (model.nz - 1) * model.spacingM;
   if (!(x >= model.originX && x <= xMax && z >= model.originZ && z <= zMax)) {
-    throw new StepInputError(
+    throw new FdSetupError(
       `${what} at x = ${x} m, z = ${z} m lies outside the model (x ${model.originX} to ${xMax} m, z ${model.originZ} to ${zMax} m): extend the model or move it.`,
       field,
     );
@@ -299,15 +302,15 @@ export function createKernel(
 /**
  * The checks {@link simulateShot} makes before any time step, and the values they settle:
  * unphysical cells, accuracy (points per shortest S wavelength), stability (time step), source and
- * receivers inside the model. Throws StepInputError naming the value to change.
+ * receivers inside the model. Throws FdSetupError naming the value to change.
  */
 export function checkSimulation(model: ElasticModel, shot: ShotPositions, opts: SimulationOptions) {
   const mode = opts.mode;
   if (mode !== "psv" && mode !== "sh") throw new RangeError(`mode must be "psv" or "sh", got ${String(mode)}`);
   const component = opts.component ?? (mode === "psv" ? "z" : "y");
   const sourceKind = opts.sourceKind;
-  if (mode === "sh" && sourceKind !== "force-y") throw new StepInputError(`SH needs sourceKind "force-y", got "${sourceKind}".`, "sourceKind");
-  if (mode === "psv" && sourceKind === "force-y") throw new StepInputError(`P-SV takes "force-z", "force-x" or "explosive", got "force-y".`, "sourceKind");
+  if (mode === "sh" && sourceKind !== "force-y") throw new FdSetupError(`SH needs sourceKind "force-y", got "${sourceKind}".`, "sourceKind");
+  if (mode === "psv" && sourceKind === "force-y") throw new FdSetupError(`P-SV takes "force-z", "force-x" or "explosive", got "force-y".`, "sourceKind");
   const pmlCells = opts.pmlCells ?? 20;
   const freeSurface = opts.freeSurface ?? true;
   const minPoints = opts.minPointsPerWavelength ?? 5;
@@ -319,7 +322,7 @@ export function checkSimulation(model: ElasticModel, shot: ShotPositions, opts: 
 
   // Checks before any time step.
   if (model.nx < 8 || model.nz < 8) {
-    throw new StepInputError(`The model has ${model.nx} × ${model.nz} cells; the solver needs at least 8 × 8: refine or enlarge the grid.`, "model");
+    throw new FdSetupError(`The model has ${model.nx} × ${model.nz} cells; the solver needs at least 8 × 8: refine or enlarge the grid.`, "model");
   }
   const { vpMax, vsMin, vsMax } = checkModelCells(model);
   const band = waveletBand(opts.wavelet);
@@ -332,36 +335,79 @@ export function checkSimulation(model: ElasticModel, shot: ShotPositions, opts: 
   return { mode, component, sourceKind, pmlCells, freeSurface, intervalS, count, startTimeS, nrec, band, h, points, vmax, dt };
 }
 
-/**
- * Models one shot. Refuses unphysical cells, unstable time steps and too coarse grids before
- * any time step (StepInputError naming the value to change).
- */
-export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: SimulationOptions): SimulationResult {
-  const { mode, component, sourceKind, pmlCells, freeSurface, intervalS, count, startTimeS, nrec, band, h, points, vmax, dt } =
-    checkSimulation(model, shot, opts);
+/** A kernel bound to one model and shot's time axis, its coefficients filled: what every solve starts from. */
+export interface FdSetup {
+  model: ElasticModel;
+  kernel: FdKernel;
+  layout: FdLayout;
+  /** The kernel's whole buffer as float32 (fields, coefficients, absorbing memory). */
+  mem: Float32Array;
+  mode: WaveMode;
+  component: VelocityComponent;
+  sourceKind: SourceKind;
+  freeSurface: boolean;
+  /** Grid spacing, m; time step, s; number of steps; grid points per shortest S wavelength. */
+  h: number;
+  dt: number;
+  steps: number;
+  pointsPerWavelength: number;
+  /** Output sampling of the traces. */
+  output: { intervalS: number; count: number; startTimeS: number };
+}
 
+/**
+ * Set-up of one solve: the checks of {@link checkSimulation}, a fresh kernel (fields zero), the
+ * staggered material coefficients and the absorbing-boundary profiles, and the time axis (steps
+ * up to 8 output intervals past the last output sample). Velocities after step n belong to
+ * t = (n + ½)·dt.
+ */
+export function prepareSimulation(model: ElasticModel, shot: ShotPositions, opts: SimulationOptions): FdSetup {
+  const { mode, component, sourceKind, pmlCells, freeSurface, intervalS, count, startTimeS, band, h, points, vmax, dt } =
+    checkSimulation(model, shot, opts);
   const { kernel, layout, mem } = createKernel(opts.kernel ?? "wasm", {
     mode, modelNx: model.nx, modelNz: model.nz, pmlCells, freeSurface,
   });
   const smoothing = opts.pmlSmoothingCells ?? 0;
   if (!Number.isInteger(smoothing) || smoothing < 0) throw new RangeError(`pmlSmoothingCells must be an integer ≥ 0, got ${smoothing}`);
   fillCoefficients(layout, mem, model, dt, vmax, band.peakHz > 0 ? band.peakHz : 1 / (10 * dt), opts.pmlReflection ?? 1e-3, smoothing);
-
-  const toCol = (x: number) => layout.colOffset + (x - model.originX) / h;
-  const toRow = (z: number) => layout.rowOffset + (z - model.originZ) / h;
-
-  // Time axis: velocities after step n belong to t = (n + ½) dt.
   const tEnd = startTimeS + (count - 1) * intervalS + 8 * Math.max(intervalS, dt);
   const steps = Math.max(1, Math.ceil(tEnd / dt + 0.5));
+  return {
+    model, kernel, layout, mem, mode, component, sourceKind, freeSurface, h, dt, steps, pointsPerWavelength: points,
+    output: { intervalS, count, startTimeS },
+  };
+}
 
-  // Source: force on a velocity component (impulse dt·F/(ρ h²) per step, ρ from the buoyancy
-  // array, which holds dt/(ρ h)), or explosive on σxx and σzz (−dt·S/h², outward motion for S > 0).
-  const sc = toCol(shot.sourceX);
-  const sr = toRow(shot.sourceZ);
+/** Computational column and row (fractional) of a point of the model, m. */
+function gridPosition(setup: FdSetup, x: number, z: number): [number, number] {
+  const { layout, model, h } = setup;
+  return [layout.colOffset + (x - model.originX) / h, layout.rowOffset + (z - model.originZ) / h];
+}
+
+/**
+ * Where and how strongly a source enters: buffer indices with a scale per unit of the
+ * source-time function, the mirror index kept opposite above a free surface (or −1), and whether
+ * the source acts on stresses (explosive) or velocities (forces).
+ */
+export interface SourceInjection {
+  index: Int32Array;
+  scale: Float64Array;
+  mirror: Int32Array;
+  atStress: boolean;
+}
+
+/**
+ * The injection of a shot's source: a force on a velocity component (impulse dt·F/(ρ h²) per
+ * step, ρ from the buoyancy array, which holds dt/(ρ h)), or explosive on σxx and σzz
+ * (−dt·S/h², outward motion for S > 0), spread bilinearly over the nearest grid points.
+ */
+export function sourceInjection(setup: FdSetup, sourceX: number, sourceZ: number): SourceInjection {
+  const { layout, mem, h, dt, freeSurface, sourceKind } = setup;
+  const [sc, sr] = gridPosition(setup, sourceX, sourceZ);
   const src: Array<{ index: number; scale: number; mirror: number }> = [];
-  let sourceAtStress = false;
+  let atStress = false;
   if (sourceKind === "explosive") {
-    sourceAtStress = true;
+    atStress = true;
     for (const p of pointStencil(layout, sc, sr, "stress")) {
       const scale = (-dt / (h * h)) * p.weight;
       src.push({ index: layout.offsets.f2 + p.index, scale, mirror: -1 });
@@ -379,77 +425,185 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
       src.push({ index: field + p.index, scale: (mem[buoy + p.index] / h) * p.weight, mirror: -1 });
     }
   }
-  const stf = sampleWavelet(opts.wavelet, sourceAtStress ? 0.5 * dt : 0, dt, steps);
+  return {
+    index: Int32Array.from(src, (s) => s.index),
+    scale: Float64Array.from(src, (s) => s.scale),
+    mirror: Int32Array.from(src, (s) => s.mirror),
+    atStress,
+  };
+}
 
-  // Receivers.
-  const recField = fieldOf(layout, component);
-  const recIdx: number[] = [];
-  const recW: number[] = [];
-  const recStart = new Int32Array(nrec + 1);
+/**
+ * Adds `value` times the injection's scales to the buffer, each sum rounded to float32 and
+ * flushed as the kernels store values (mirrors above a free surface kept opposite).
+ */
+export function inject(mem: Float32Array, src: SourceInjection, value: number): void {
+  const { index, scale, mirror } = src;
+  for (let k = 0; k < index.length; k++) {
+    const i = index[k];
+    mem[i] = flushToZero(f32(mem[i] + f32(scale[k] * value)));
+    if (mirror[k] >= 0) mem[mirror[k]] = -mem[i];
+  }
+}
+
+/** Bilinear read-out weights of receivers: receiver r uses `index`/`weight` entries `start[r]` to `start[r + 1]` − 1. */
+export interface ReceiverStencil {
+  index: Int32Array;
+  weight: Float64Array;
+  start: Int32Array;
+}
+
+/** Read-out weights of every receiver of a shot on the component's staggered grid. */
+export function receiverStencil(setup: FdSetup, receiverX: ArrayLike<number>, receiverZ: ArrayLike<number>, component = setup.component): ReceiverStencil {
+  const nrec = receiverX.length;
+  const recField = fieldOf(setup.layout, component);
+  const idx: number[] = [];
+  const wt: number[] = [];
+  const start = new Int32Array(nrec + 1);
   for (let r = 0; r < nrec; r++) {
-    recStart[r] = recIdx.length;
-    for (const p of pointStencil(layout, toCol(shot.receiverX[r]), toRow(shot.receiverZ[r]), component)) {
-      recIdx.push(recField + p.index);
-      recW.push(p.weight);
+    start[r] = idx.length;
+    const [col, row] = gridPosition(setup, receiverX[r], receiverZ[r]);
+    for (const p of pointStencil(setup.layout, col, row, component)) {
+      idx.push(recField + p.index);
+      wt.push(p.weight);
     }
   }
-  recStart[nrec] = recIdx.length;
+  start[nrec] = idx.length;
+  return { index: Int32Array.from(idx), weight: Float64Array.from(wt), start };
+}
+
+/** Records every receiver into `raw[r·stride + n]` (float32) from the current wavefield. */
+export function recordReceivers(mem: Float32Array, rec: ReceiverStencil, raw: Float32Array, n: number, stride: number): void {
+  const nrec = rec.start.length - 1;
+  for (let r = 0; r < nrec; r++) {
+    let acc = 0;
+    for (let k = rec.start[r]; k < rec.start[r + 1]; k++) acc += mem[rec.index[k]] * rec.weight[k];
+    raw[r * stride + n] = acc;
+  }
+}
+
+/** Hooks of {@link runTimeSteps}, called with the step number n = 0 … steps − 1. */
+export interface StepHooks {
+  /** Before step n: sources enter here (see {@link simulateShot} for their timing). */
+  beforeStep?(n: number): void;
+  /** After step n: velocities at (n + ½)·dt and stresses at (n + 1)·dt are in the buffer. */
+  afterStep?(n: number): void;
+}
+
+/** Throws an AbortError when `flag` (shared) is non-zero. */
+export function throwIfCancelled(flag: Int32Array | undefined): void {
+  if (flag && Atomics.load(flag, 0) !== 0) {
+    const err = new Error("cancelled");
+    err.name = "AbortError";
+    throw err;
+  }
+}
+
+/**
+ * The time loop: `steps` kernel steps with hooks before and after each, the shared cancel flag
+ * checked every 64 steps (an AbortError then).
+ */
+export function runTimeSteps(kernel: FdKernel, steps: number, hooks: StepHooks, cancelFlag?: Int32Array): void {
+  const { beforeStep, afterStep } = hooks;
+  for (let n = 0; n < steps; n++) {
+    if ((n & 63) === 0) throwIfCancelled(cancelFlag);
+    beforeStep?.(n);
+    kernel.step();
+    afterStep?.(n);
+  }
+}
+
+/** Time of raw sample 0 (velocities after step 0), s. */
+export const rawStartS = (dt: number) => 0.5 * dt;
+
+/** Brings raw receiver records `[receiver][step]` to the output sampling, `[receiver][sample]`. */
+export function resampleRecords(raw: Float32Array, nrec: number, steps: number, dt: number, output: FdSetup["output"]): Float32Array {
+  const { intervalS, count, startTimeS } = output;
+  const traces = new Float32Array(nrec * count);
+  for (let r = 0; r < nrec; r++) {
+    resampleBandLimited(raw, rawStartS(dt), dt, startTimeS, intervalS, count, traces, r * count, r * steps, steps);
+  }
+  return traces;
+}
+
+/**
+ * Transpose of {@link resampleRecords}: values at the output sampling `[receiver][sample]` to the
+ * solver's steps `[receiver][step]` (float64), the weights of the forward map exactly.
+ */
+export function resampleRecordsTranspose(traces: ArrayLike<number>, nrec: number, steps: number, dt: number, output: FdSetup["output"]): Float64Array {
+  const { intervalS, count, startTimeS } = output;
+  const raw = new Float64Array(nrec * steps);
+  for (let r = 0; r < nrec; r++) {
+    resampleBandLimitedTranspose(traces, rawStartS(dt), dt, startTimeS, intervalS, count, raw, r * steps, steps, r * count);
+  }
+  return raw;
+}
+
+/** The source-time function at the injection times of each step (see {@link simulateShot}). */
+export function sourceTimeFunction(setup: FdSetup, wavelet: SourceWavelet, atStress: boolean): Float64Array {
+  return sampleWavelet(wavelet, atStress ? 0.5 * setup.dt : 0, setup.dt, setup.steps);
+}
+
+/** Copies one component of the wavefield on the model cells (not the absorbing strips) into `out[offset …]`, `[z][x]`. */
+export function copyModelCells(setup: FdSetup, component: VelocityComponent, out: Float32Array, offset: number): void {
+  const { layout, model, mem } = setup;
+  const field = fieldOf(layout, component);
+  for (let iz = 0; iz < model.nz; iz++) {
+    const from = field + layout.org + (iz + layout.rowOffset) * layout.rowFloats + layout.colOffset;
+    out.set(mem.subarray(from, from + model.nx), offset + iz * model.nx);
+  }
+}
+
+/**
+ * Models one shot. Refuses unphysical cells, unstable time steps and too coarse grids before
+ * any time step (FdSetupError naming the value to change).
+ *
+ * Sources enter between steps: a force adds its impulse dt·F(t_n)/(ρh²) to the velocities before
+ * step n updates them; an explosive source adds to the stresses of step n−1, at (n − ½)·dt, before
+ * step n reads them. Receivers read the velocities after each step; the records are resampled to
+ * the output sampling at the end.
+ */
+export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: SimulationOptions): SimulationResult {
+  const setup = prepareSimulation(model, shot, opts);
+  const { mem, dt, steps, component } = setup;
+  const src = sourceInjection(setup, shot.sourceX, shot.sourceZ);
+  const stf = sourceTimeFunction(setup, opts.wavelet, src.atStress);
+  const rec = receiverStencil(setup, shot.receiverX, shot.receiverZ);
+  const nrec = shot.receiverX.length;
   const raw = new Float32Array(nrec * steps);
 
   // Snapshots.
   const snapTimes = opts.snapshotTimesS ?? [];
   const snapComponent = opts.snapshotComponent ?? component;
-  const snapField = snapTimes.length > 0 ? fieldOf(layout, snapComponent) : 0;
+  if (snapTimes.length > 0) fieldOf(setup.layout, snapComponent);
   const snapSteps = snapTimes.map((t) => Math.min(steps - 1, Math.max(0, Math.round(t / dt - 0.5))));
   const frames = snapTimes.length > 0 ? new Float32Array(snapTimes.length * model.nx * model.nz) : undefined;
+  const frameSize = model.nx * model.nz;
 
-  const cancel = opts.cancelFlag;
-  for (let n = 0; n < steps; n++) {
-    if (cancel && (n & 63) === 0 && Atomics.load(cancel, 0) !== 0) {
-      const err = new Error("cancelled");
-      err.name = "AbortError";
-      throw err;
-    }
-    // Sources enter between steps: a force adds its impulse dt·F(t_n)/(ρh²) to the velocities
-    // before step n updates them; an explosive source adds to the stresses of step n−1, at
-    // (n − ½)·dt, before step n reads them.
-    if (!sourceAtStress) {
-      const v = stf[n];
-      for (const s of src) mem[s.index] = flushToZero(f32(mem[s.index] + f32(s.scale * v)));
-    } else if (n > 0) {
-      const v = stf[n - 1];
-      for (const s of src) {
-        mem[s.index] = flushToZero(f32(mem[s.index] + f32(s.scale * v)));
-        if (s.mirror >= 0) mem[s.mirror] = -mem[s.index];
-      }
-    }
-    kernel.step();
-    for (let r = 0; r < nrec; r++) {
-      let acc = 0;
-      for (let k = recStart[r]; k < recStart[r + 1]; k++) acc += mem[recIdx[k]] * recW[k];
-      raw[r * steps + n] = acc;
-    }
-    if (frames) {
-      for (let q = 0; q < snapSteps.length; q++) {
-        if (snapSteps[q] !== n) continue;
-        for (let iz = 0; iz < model.nz; iz++) {
-          const from = snapField + layout.org + (iz + layout.rowOffset) * layout.rowFloats + layout.colOffset;
-          frames.set(mem.subarray(from, from + model.nx), (q * model.nz + iz) * model.nx);
+  runTimeSteps(
+    setup.kernel,
+    steps,
+    {
+      beforeStep(n) {
+        if (!src.atStress) inject(mem, src, stf[n]);
+        else if (n > 0) inject(mem, src, stf[n - 1]);
+      },
+      afterStep(n) {
+        recordReceivers(mem, rec, raw, n, steps);
+        if (frames) {
+          for (let q = 0; q < snapSteps.length; q++) if (snapSteps[q] === n) copyModelCells(setup, snapComponent, frames, q * frameSize);
         }
-      }
-    }
-  }
+      },
+    },
+    opts.cancelFlag,
+  );
 
-  const traces = new Float32Array(nrec * count);
-  for (let r = 0; r < nrec; r++) {
-    resampleBandLimited(raw, 0.5 * dt, dt, startTimeS, intervalS, count, traces, r * count, r * steps, steps);
-  }
   return {
-    traces,
+    traces: resampleRecords(raw, nrec, steps, dt, setup.output),
     snapshots: frames ? { timesS: snapSteps.map((n) => (n + 0.5) * dt), frames, component: snapComponent } : undefined,
     dtS: dt,
     steps,
-    pointsPerWavelength: points,
+    pointsPerWavelength: setup.pointsPerWavelength,
   };
 }
 

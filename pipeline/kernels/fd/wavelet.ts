@@ -2,7 +2,7 @@
  * Source-time functions for the solver: a Ricker wavelet with a peak frequency, or samples from
  * an artifact (e.g. an estimated hammer wavelet), each with a time shift.
  */
-import { resampleBandLimited } from "./resample";
+import { resampleBandLimited } from "../resample";
 
 /** A source-time function description. Times in s, frequencies in Hz. */
 export type SourceWavelet =

@@ -7,7 +7,7 @@ import { STABILITY_FACTOR, checkGridAccuracy, checkModelCells, chooseTimeStep, m
 import { simulateShot, type SimulationOptions } from "../../../../pipeline/kernels/fd/simulation";
 import { buildModel } from "../../../../pipeline/kernels/fd/model-grid";
 import { ricker, waveletBand } from "../../../../pipeline/kernels/fd/wavelet";
-import { StepInputError } from "../../../../pipeline/step";
+import { FdSetupError } from "../../../../pipeline/kernels/fd/errors";
 
 const model = () => buildModel({ originX: 0, originZ: 0, spacingM: 0.5, nx: 40, nz: 20 }, [{ topM: 0, vp: 600, vs: 200, rho: 1800 }]);
 const shot = { sourceX: 5, sourceZ: 0, receiverX: [10], receiverZ: [0] };
@@ -21,7 +21,7 @@ describe("stability limit", () => {
   });
 
   it("refuses an unstable dt, naming dtS and the largest stable value", () => {
-    expect(() => chooseTimeStep(0.5, 600, 0.001)).toThrow(StepInputError);
+    expect(() => chooseTimeStep(0.5, 600, 0.001)).toThrow(FdSetupError);
     expect(() => simulateShot(model(), shot, { ...base, dtS: 0.001 })).toThrow(/dtS = 0\.001 s is unstable.*set dtS to at most 0\.000505/);
     // A stable request is kept as given; automatic steps are 0.9 of the limit, fitted to the output interval.
     expect(chooseTimeStep(0.5, 600, 0.0004)).toBe(0.0004);

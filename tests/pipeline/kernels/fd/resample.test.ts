@@ -1,6 +1,6 @@
 /** Band-limited resampling used to bring solver traces to the field sampling. */
 import { describe, expect, it } from "vitest";
-import { resampleBandLimited } from "../../../../pipeline/kernels/fd/resample";
+import { resampleBandLimited } from "../../../../pipeline/kernels/resample";
 import { ricker } from "../../../../pipeline/kernels/fd/wavelet";
 
 describe("resampleBandLimited", () => {
