@@ -31,7 +31,10 @@ describe("model ↔ optimiser vector", () => {
     for (const set of ["vs", "vs-vp", "vs-vp-rho"] as const) {
       const x = modelToVector(m, set, ref);
       expect(x.length).toBe(set.split("-").length * n);
-      for (const v of x) expect(v).toBeGreaterThan(0.3), expect(v).toBeLessThan(3);
+      for (const v of x) {
+        expect(v).toBeGreaterThan(0.3);
+        expect(v).toBeLessThan(3);
+      }
       const back = vectorToModel(x, set, ref, m);
       // float32 → float64 / reference → × reference → float32 returns the same float32 (one rounding each way, far under half a float32 ulp).
       expect(back.vs).toEqual(m.vs);
