@@ -1,7 +1,7 @@
 /**
  * Limited-memory BFGS (Nocedal & Wright 2006, Numerical Optimization, 2nd ed., §7.2) with the
  * two-loop recursion (algorithm 7.4), initial matrix H₀ = γI with γ = sᵀy / yᵀy of the newest pair
- * (eq. 7.20), and a strong Wolfe line search (./line-search.ts, algorithms 3.5 and 3.6).
+ * (eq. 7.20, equation number from memory), and a strong Wolfe line search (./line-search.ts, algorithms 3.5 and 3.6).
  *
  * Resumable by design: {@link LbfgsState} is plain data (typed arrays and numbers, so
  * `structuredClone` or any typed-array serialiser keeps it whole), {@link lbfgsIteration} is one

@@ -81,7 +81,7 @@ interface Knot {
 }
 
 /**
- * Minimiser of the cubic through (a, φa, φ'a) and (b, φb, φ'b) (N&W eq. 3.59), safeguarded to
+ * Minimiser of the cubic through (a, φa, φ'a) and (b, φb, φ'b) (N&W eq. 3.59, equation number from memory), safeguarded to
  * the middle 80 % of the interval; bisection when the cubic has no usable minimiser or a value is
  * not finite.
  */

@@ -2,7 +2,7 @@ import { describe, expect, it } from "vitest";
 import { lbfgsIteration, minimiseLbfgs, startLbfgs, type LbfgsOptions, type LbfgsState, type Objective } from "../../../../pipeline/kernels/optim/lbfgs";
 import { seededRandom } from "../../../helpers/random";
 
-/** Rosenbrock's function 100 (x₂ − x₁²)² + (1 − x₁)², minimum 0 at (1, 1) (Nocedal & Wright 2006, eq. 2.22). */
+/** Rosenbrock's function 100 (x₂ − x₁²)² + (1 − x₁)², minimum 0 at (1, 1) (Rosenbrock 1960, The Computer Journal 3; the standard test of Nocedal & Wright 2006, ch. 2 and 3). */
 const rosenbrock: Objective = async (x) => {
   const [a, b] = x;
   return {
