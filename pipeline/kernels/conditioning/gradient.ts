@@ -3,7 +3,7 @@
  * square cells of `spacingM`, column ix at originX + ix·spacingM, row iz at depth originZ + iz·spacingM):
  * - diagonal pseudo-Hessian preconditioning g / (I + ε·max I), I the illumination (the zero-lag
  *   energy of the forward wavefield summed over shots; Shin, Jang & Min 2001, Geophysical
- *   Prospecting 49, the pseudo-Hessian as the diagonal of the virtual-source correlation); ε keeps
+ *   Prospecting 49(5), 592–606, the pseudo-Hessian as the diagonal of the virtual-source correlation); ε keeps
  *   the division finite where nothing is illuminated;
  * - cosine tapers around sources and receivers, where the gradient holds the near-field spikes of
  *   the injection points (common practice);

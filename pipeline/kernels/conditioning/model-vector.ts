@@ -100,7 +100,7 @@ export function vectorToModel(x: Float64Array, set: InvertedParameters, ref: Ref
   const n = assertModelFields(base);
   const names = parameterNames(set);
   if (x.length !== names.length * n) throw new RangeError(`x must hold ${names.length}·${n} = ${names.length * n} values for "${set}", got ${x.length}`);
-  const out = { vp: Float32Array.from(base.vp), vs: Float32Array.from(base.vs), rho: Float32Array.from(base.rho) };
+  const out = { vp: new Float32Array(base.vp), vs: new Float32Array(base.vs), rho: new Float32Array(base.rho) };
   names.forEach((name, b) => {
     const r = reference(ref, name);
     const field = out[name];
