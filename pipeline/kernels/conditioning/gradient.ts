@@ -121,8 +121,8 @@ export const GAUSSIAN_HALF_WIDTH = 5;
  * Separable 2D Gaussian smoothing of a field `[z][x]`: exp(−r²/(2σ²)) with σ = `lengthM`, cut at
  * {@link GAUSSIAN_HALF_WIDTH}·σ, one pass along x then one along z. At the edges each output is
  * divided by the sum of the weights that fall inside the grid, so a constant field stays constant
- * (the total is not kept near edges). Returns `out` (new Float64Array by default); `field` is not
- * mutated. No allocation beyond the kernel and one row buffer.
+ * (the total is not kept near edges). Returns `out` (new Float64Array by default); `field` is only
+ * written when it is passed as `out` (smoothing in place). Allocates the kernel and one work field.
  * @param lengthM standard deviation σ of the Gaussian, m (0 copies the field)
  */
 export function gaussianSmooth(field: Field, grid: Pick<GridGeometry, "nx" | "nz" | "spacingM">, lengthM: number, out: Float64Array = new Float64Array(field.length)): Float64Array {
@@ -141,7 +141,8 @@ export function gaussianSmooth(field: Field, grid: Pick<GridGeometry, "nx" | "nz
   }
   const kernel = new Float64Array(2 * half + 1);
   for (let j = -half; j <= half; j++) kernel[j + half] = Math.exp(-(j * j) / (2 * sigma * sigma));
-  // Along x, row by row, into out.
+  // Along x, row by row, into a work field.
+  const work = new Float64Array(nx * nz);
   for (let iz = 0; iz < nz; iz++) {
     const row = iz * nx;
     for (let ix = 0; ix < nx; ix++) {
@@ -153,23 +154,21 @@ export function gaussianSmooth(field: Field, grid: Pick<GridGeometry, "nx" | "nz
         sum += kernel[j + half] * field[row + ix + j];
         norm += kernel[j + half];
       }
-      out[row + ix] = sum / norm;
+      work[row + ix] = sum / norm;
     }
   }
-  // Along z, column by column, through a column buffer.
-  const column = new Float64Array(nz);
-  for (let ix = 0; ix < nx; ix++) {
-    for (let iz = 0; iz < nz; iz++) column[iz] = out[iz * nx + ix];
-    for (let iz = 0; iz < nz; iz++) {
-      const j0 = Math.max(-half, -iz);
-      const j1 = Math.min(half, nz - 1 - iz);
-      let sum = 0;
-      let norm = 0;
-      for (let j = j0; j <= j1; j++) {
-        sum += kernel[j + half] * column[iz + j];
-        norm += kernel[j + half];
-      }
-      out[iz * nx + ix] = sum / norm;
+  // Along z, a whole row at a time (contiguous memory).
+  for (let iz = 0; iz < nz; iz++) {
+    const j0 = Math.max(-half, -iz);
+    const j1 = Math.min(half, nz - 1 - iz);
+    let norm = 0;
+    for (let j = j0; j <= j1; j++) norm += kernel[j + half];
+    const row = iz * nx;
+    out.fill(0, row, row + nx);
+    for (let j = j0; j <= j1; j++) {
+      const w = kernel[j + half] / norm;
+      const src = (iz + j) * nx;
+      for (let ix = 0; ix < nx; ix++) out[row + ix] += w * work[src + ix];
     }
   }
   return out;

@@ -51,8 +51,11 @@ describe("Gaussian smoothing of the gradient", () => {
     const field = seededRandom(4).fillGaussian(new Float64Array(grid.nx * grid.nz));
     const copy = field.slice();
     expect(Array.from(gaussianSmooth(field, grid, 0))).toEqual(Array.from(field));
-    gaussianSmooth(field, grid, 1);
+    const smoothed = gaussianSmooth(field, grid, 1);
     expect(field).toEqual(copy);
+    // In place (out = field) gives the same numbers.
+    gaussianSmooth(field, grid, 1, field);
+    expect(field).toEqual(smoothed);
   });
 });
 
