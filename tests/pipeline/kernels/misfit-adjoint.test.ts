@@ -136,6 +136,7 @@ describe("misfit values agree with the misfit step (pipeline/kernels/misfit.ts)"
   it("refuses an unknown measure and a window outside the trace", () => {
     expect(() => misfitAndAdjoint({ ...args("least-squares", synthetic, observed), measure: "l1" as InversionMeasure })).toThrow(RangeError);
     expect(() => misfitAndAdjoint({ ...args("least-squares", synthetic, observed), endSample: SAMPLES + 1 })).toThrow(/window/);
+    expect(() => misfitAndAdjoint({ ...args("least-squares", synthetic, observed), weights: new Float32Array([1, -1, 1]) })).toThrow(/weights\[1\]/);
   });
 });
 
