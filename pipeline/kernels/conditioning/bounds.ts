@@ -29,7 +29,7 @@ export interface ModelBounds {
 }
 
 /** Grid placement for messages (an ElasticModel fits); optional. */
-interface Placement {
+export interface Placement {
   spacingM?: number;
   originX?: number;
   originZ?: number;

@@ -74,7 +74,8 @@ export function lineSearchSettings(o: LineSearchOptions = {}): Required<LineSear
   return { c1, c2, maxEvaluations, alphaMax, expansion };
 }
 
-interface Knot {
+/** A point of φ with its slope, for interpolation. */
+export interface Knot {
   alpha: number;
   phi: number;
   dphi: number;
