@@ -78,6 +78,7 @@ function checkArgs(a: MisfitAdjointArgs): void {
   if (a.synthetic.length !== n) throw new RangeError(`synthetic must hold ${n} samples, got ${a.synthetic.length}`);
   if (a.observed.length !== n) throw new RangeError(`observed must hold ${n} samples, got ${a.observed.length}`);
   if (a.weights && a.weights.length !== a.traceCount) throw new RangeError(`weights must hold ${a.traceCount} values, got ${a.weights.length}`);
+  if (a.weights) for (let t = 0; t < a.traceCount; t++) if (!(a.weights[t] >= 0 && Number.isFinite(a.weights[t]))) throw new RangeError(`weights[${t}] must be a number ≥ 0, got ${a.weights[t]}`);
   const first = a.firstSample ?? 0;
   const end = a.endSample ?? a.sampleCount;
   if (!(Number.isInteger(first) && Number.isInteger(end) && first >= 0 && end <= a.sampleCount && first <= end)) {

@@ -1,7 +1,7 @@
 /**
  * Source-wavelet estimation by stabilised least-squares deconvolution in the frequency domain
- * (Pratt 1999, "Seismic waveform inversion in the frequency domain, Part 1", Geophysics 64,
- * eq. 17): with s_t the synthetics of trace t computed with the current wavelet w₀ (or with a unit
+ * (Pratt 1999, "Seismic waveform inversion in the frequency domain, Part 1", Geophysics 64;
+ * the least-squares source estimate of its frequency-domain formulation): with s_t the synthetics of trace t computed with the current wavelet w₀ (or with a unit
  * impulse, w₀ = [1, 0, 0, …]) and d_t the observed traces, the correction filter
  *
  *   C(f) = Σ_t a_t d_t(f) s̄_t(f) / (Σ_t a_t |s_t(f)|² + ε),   ε = waterLevel · max_f Σ_t a_t |s_t(f)|²

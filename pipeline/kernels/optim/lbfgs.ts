@@ -1,11 +1,12 @@
 /**
  * Limited-memory BFGS (Nocedal & Wright 2006, Numerical Optimization, 2nd ed., §7.2) with the
  * two-loop recursion (algorithm 7.4), initial matrix H₀ = γI with γ = sᵀy / yᵀy of the newest pair
- * (eq. 7.20), and a strong Wolfe line search (./line-search.ts, algorithms 3.5 and 3.6).
+ * (eq. 7.20, equation number from memory), and a strong Wolfe line search (./line-search.ts, algorithms 3.5 and 3.6).
  *
  * Resumable by design: {@link LbfgsState} is plain data (typed arrays and numbers, so
  * `structuredClone` or any typed-array serialiser keeps it whole), {@link lbfgsIteration} is one
- * iteration as a separate call that does not mutate its input, and the result depends only on the
+ * iteration as a separate call that never writes into its input state (the new state shares the
+ * unchanged pair arrays with it), and the result depends only on the
  * state, the objective and the options, so an iteration resumed from a stored state gives the same
  * iterate bit for bit.
  *
@@ -100,13 +101,13 @@ function checkGradient(name: string, g: Float64Array, n: number, f: number): voi
 /** Starts the optimiser at x0 with the objective's value and gradient there (copied). */
 export function startLbfgs(x0: Float64Array, first: { f: number; g: Float64Array }): LbfgsState {
   checkGradient("first", first.g, x0.length, first.f);
-  return { x: Float64Array.from(x0), f: first.f, g: Float64Array.from(first.g), s: [], y: [], iteration: 0, evaluations: 1 };
+  return { x: new Float64Array(x0), f: first.f, g: new Float64Array(first.g), s: [], y: [], iteration: 0, evaluations: 1 };
 }
 
 /** Two-loop recursion (N&W algorithm 7.4): returns −H g. */
 function twoLoopDirection(g: Float64Array, s: Float64Array[], y: Float64Array[]): Float64Array {
   const k = s.length;
-  const q = Float64Array.from(g);
+  const q = new Float64Array(g);
   const alpha = new Float64Array(k);
   const rho = new Float64Array(k);
   for (let i = k - 1; i >= 0; i--) {
@@ -134,7 +135,7 @@ function blockedComponents(x: Float64Array, p: Float64Array, project: (x: Float6
   const t = (1e-7 * (1 + maxAbs(x))) / pMax;
   const trial = new Float64Array(x.length);
   for (let i = 0; i < x.length; i++) trial[i] = x[i] + t * p[i];
-  const free = Float64Array.from(trial);
+  const free = new Float64Array(trial);
   project(trial);
   for (let i = 0; i < x.length; i++) if (trial[i] !== free[i]) blocked[i] = 1;
   return blocked;
@@ -208,7 +209,7 @@ export async function lbfgsIteration(state: LbfgsState, objective: Objective, op
     for (let i = 0; i < n; i++) xa[i] = x[i] + alpha * p[i];
     let held: Uint8Array | null = null;
     if (project) {
-      const free = Float64Array.from(xa);
+      const free = new Float64Array(xa);
       project(xa);
       for (let i = 0; i < n; i++) {
         if (xa[i] !== free[i]) {
@@ -217,7 +218,7 @@ export async function lbfgsIteration(state: LbfgsState, objective: Objective, op
         }
       }
     }
-    const { f, g: ga } = await objective(Float64Array.from(xa));
+    const { f, g: ga } = await objective(new Float64Array(xa));
     if (ga.length !== n) throw new RangeError(`objective gradient must hold ${n} values, got ${ga.length}`);
     let dphi = 0;
     let linear = 0;
@@ -225,7 +226,7 @@ export async function lbfgsIteration(state: LbfgsState, objective: Objective, op
       if (!held || !held[i]) dphi += ga[i] * p[i];
       linear += g[i] * (xa[i] - x[i]);
     }
-    return { alpha, phi: Number.isFinite(f) ? f : Number.POSITIVE_INFINITY, dphi, linear, atBound: held !== null, payload: { x: xa, f, g: Float64Array.from(ga) } };
+    return { alpha, phi: Number.isFinite(f) ? f : Number.POSITIVE_INFINITY, dphi, linear, atBound: held !== null, payload: { x: xa, f, g: new Float64Array(ga) } };
   };
 
   const result = await strongWolfeLineSearch(state.f, dphi0, evaluate, 1, search);
@@ -238,8 +239,9 @@ export async function lbfgsIteration(state: LbfgsState, objective: Objective, op
     yNew[i] = next.g[i] - g[i];
   }
   const sy = dot(sNew, yNew);
-  const sPairs = s.map((v) => Float64Array.from(v));
-  const yPairs = y.map((v) => Float64Array.from(v));
+  // Pair arrays are shared with the input state: no iteration ever writes into a state's arrays.
+  const sPairs = s.slice();
+  const yPairs = y.slice();
   if (sy > CURVATURE_EPSILON * Math.sqrt(dot(sNew, sNew) * dot(yNew, yNew))) {
     sPairs.push(sNew);
     yPairs.push(yNew);
@@ -258,11 +260,11 @@ export async function lbfgsIteration(state: LbfgsState, objective: Objective, op
 
 function cloneState(state: LbfgsState): LbfgsState {
   return {
-    x: Float64Array.from(state.x),
+    x: new Float64Array(state.x),
     f: state.f,
-    g: Float64Array.from(state.g),
-    s: state.s.map((v) => Float64Array.from(v)),
-    y: state.y.map((v) => Float64Array.from(v)),
+    g: new Float64Array(state.g),
+    s: state.s.map((v) => new Float64Array(v)),
+    y: state.y.map((v) => new Float64Array(v)),
     iteration: state.iteration,
     evaluations: state.evaluations,
   };
@@ -281,9 +283,9 @@ export async function minimiseLbfgs(
   const { maxIterations, gradientTolerance = 0 } = options;
   if (!Number.isInteger(maxIterations) || maxIterations < 0) throw new RangeError(`maxIterations must be a whole number ≥ 0, got ${maxIterations}`);
   if (!(gradientTolerance >= 0)) throw new RangeError(`gradientTolerance must be ≥ 0, got ${gradientTolerance}`);
-  const start = Float64Array.from(x0);
+  const start = new Float64Array(x0);
   options.project?.(start);
-  const first = await objective(Float64Array.from(start));
+  const first = await objective(new Float64Array(start));
   let state = startLbfgs(start, first);
   const history: LbfgsStepResult[] = [];
   for (let k = 0; k < maxIterations; k++) {

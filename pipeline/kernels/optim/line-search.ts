@@ -74,14 +74,15 @@ export function lineSearchSettings(o: LineSearchOptions = {}): Required<LineSear
   return { c1, c2, maxEvaluations, alphaMax, expansion };
 }
 
-interface Knot {
+/** A point of φ with its slope, for interpolation. */
+export interface Knot {
   alpha: number;
   phi: number;
   dphi: number;
 }
 
 /**
- * Minimiser of the cubic through (a, φa, φ'a) and (b, φb, φ'b) (N&W eq. 3.59), safeguarded to
+ * Minimiser of the cubic through (a, φa, φ'a) and (b, φb, φ'b) (N&W eq. 3.59, equation number from memory), safeguarded to
  * the middle 80 % of the interval; bisection when the cubic has no usable minimiser or a value is
  * not finite.
  */

@@ -54,7 +54,7 @@ function relativeL2(a: Float64Array, b: Float64Array): number {
   return Math.sqrt(num / den);
 }
 
-describe("source-wavelet estimation (Pratt 1999, Geophysics 64, eq. 17)", () => {
+describe("source-wavelet estimation (Pratt 1999, Geophysics 64)", () => {
   const trueWavelet = dampedSinusoid(60, 0.006);
   const g = impulseResponses(3);
   const observed = block(g.map((gi) => convolve(gi, trueWavelet, SAMPLES)));

@@ -1,8 +1,9 @@
 import { describe, expect, it } from "vitest";
 import { lbfgsIteration, minimiseLbfgs, startLbfgs, type LbfgsOptions, type LbfgsState, type Objective } from "../../../../pipeline/kernels/optim/lbfgs";
+import { decodeArtifact, encodeArtifact } from "../../../../pipeline/artifact-codec";
 import { seededRandom } from "../../../helpers/random";
 
-/** Rosenbrock's function 100 (x₂ − x₁²)² + (1 − x₁)², minimum 0 at (1, 1) (Nocedal & Wright 2006, eq. 2.22). */
+/** Rosenbrock's function 100 (x₂ − x₁²)² + (1 − x₁)², minimum 0 at (1, 1) (Rosenbrock 1960, The Computer Journal 3; the standard test of Nocedal & Wright 2006, ch. 2 and 3). */
 const rosenbrock: Objective = async (x) => {
   const [a, b] = x;
   return {
@@ -107,6 +108,15 @@ describe("L-BFGS with a strong Wolfe line search", () => {
     for (let k = 0; k < 5; k++) state = (await lbfgsIteration(state, rosenbrock, options)).state;
     expect(state.iteration).toBe(9);
     expect(Array.from(state.x)).toEqual(Array.from(straight.x));
+    expect(state).toEqual(straight);
+  });
+
+  it("resumes bit for bit from a state written and read by the artifact codec (how checkpoints are stored)", async () => {
+    const options = { initialStep: 1, memory: 4 };
+    const straight = await iterate(new Float64Array([-1.2, 1]), rosenbrock, options, 12);
+    let state = await iterate(new Float64Array([-1.2, 1]), rosenbrock, options, 6);
+    state = decodeArtifact(encodeArtifact(state)) as LbfgsState;
+    for (let k = 0; k < 6; k++) state = (await lbfgsIteration(state, rosenbrock, options)).state;
     expect(state).toEqual(straight);
   });
 
