@@ -19,6 +19,8 @@ import { spectraStep } from "./steps/spectra";
 import { buildModelStep } from "./steps/build-model";
 import { forwardModelStep } from "./steps/forward-model";
 import { misfitStep } from "./steps/misfit";
+import { sourceWaveletStep } from "./steps/source-wavelet";
+import { waveformInversionStep } from "./steps/waveform-inversion";
 
 const STEPS: AnyStepDefinition[] = [
   importRecordsStep,
@@ -33,8 +35,10 @@ const STEPS: AnyStepDefinition[] = [
   lineSourceStep,
   spectraStep,
   buildModelStep,
+  sourceWaveletStep,
   forwardModelStep,
   misfitStep,
+  waveformInversionStep,
 ];
 
 /** All steps in pipeline order. */

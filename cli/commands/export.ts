@@ -3,6 +3,7 @@ import fs from "node:fs";
 import path from "node:path";
 import type { Command } from "commander";
 import { getRun } from "../../db/queries/runs";
+import { listIntermediates } from "../../db/queries/intermediates";
 import { readArtifact } from "../../pipeline/artifact-store";
 import { AppError } from "../../pipeline/errors";
 import { exportArtifact, exportFormatOf, type ExportFormat } from "../../pipeline/export";
@@ -17,9 +18,10 @@ export function registerExport(program: Command): void {
     .option("--slot <slot>", "which output of the step (default: gathers, synthetic or model, whichever it wrote)")
     .requiredOption("--out <file>", "file to write")
     .option("--format <format>", "segy, csv or json (default: by the kind of result)")
+    .option("--iteration <n>", "a step that records iterations (waveform-inversion): the model after iteration n instead of its result")
     .option("--force", "replace the file if it exists")
     .action(
-      action(async (run: string, opts: { step: string; slot?: string; out: string; format?: string; force?: boolean }) => {
+      action(async (run: string, opts: { step: string; slot?: string; out: string; format?: string; force?: boolean; iteration?: string }) => {
         const db = openCliDb();
         const id = parseId(run, "run");
         const detail = getRun(db, id);
@@ -30,11 +32,30 @@ export function registerExport(program: Command): void {
             field: "--step",
           });
         }
-        const slots = Object.keys(step.outputs);
-        if (slots.length === 0) throw new AppError("conflict", `Step ${opts.step} of run ${id} has no results (${step.status})`);
-        const slot = opts.slot ?? ["gathers", "synthetic", "model"].find((s) => slots.includes(s)) ?? slots[0];
-        const hash = step.outputs[slot];
-        if (!hash) throw new AppError("bad-input", `--slot ${slot}: step ${opts.step} wrote ${slots.join(", ")}`, { field: "--slot", choices: slots });
+        let slot: string;
+        let hash: string | undefined;
+        if (opts.iteration !== undefined) {
+          // An iteration's model, recorded while the step ran (it may still be running).
+          const n = parseId(opts.iteration, "iteration");
+          const models = listIntermediates(db, step.id).filter((r) => r.kind === (opts.slot ?? "model"));
+          if (models.length === 0) {
+            throw new AppError("bad-input", `--iteration: step ${opts.step} of run ${id} recorded no ${opts.slot ?? "model"} per iteration`, { field: "--iteration" });
+          }
+          const found = models.find((r) => r.index === n);
+          if (!found) {
+            throw new AppError("bad-input", `--iteration ${n}: step ${opts.step} recorded iterations ${models[0].index} to ${models[models.length - 1].index}`, {
+              field: "--iteration",
+            });
+          }
+          slot = `${found.kind} after iteration ${n}`;
+          hash = found.artifactHash;
+        } else {
+          const slots = Object.keys(step.outputs);
+          if (slots.length === 0) throw new AppError("conflict", `Step ${opts.step} of run ${id} has no results (${step.status})`);
+          slot = opts.slot ?? ["gathers", "synthetic", "model"].find((s) => slots.includes(s)) ?? slots[0];
+          hash = step.outputs[slot];
+          if (!hash) throw new AppError("bad-input", `--slot ${slot}: step ${opts.step} wrote ${slots.join(", ")}`, { field: "--slot", choices: slots });
+        }
         if (opts.format && !["segy", "csv", "json"].includes(opts.format)) {
           throw new AppError("bad-input", `--format ${opts.format}: expected segy, csv or json`, { field: "--format" });
         }
