@@ -1,0 +1,145 @@
+/**
+ * The waveform-inversion step end to end on small SH problems: recovery of a slow block from
+ * surface data (a synthetic recovery test, common practice for checking an FWI code; FIELD.md
+ * "Quality checks"), and a resume after an interruption that ends bit for bit where an
+ * uninterrupted run ends.
+ */
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { waveformInversionParams, waveformInversionStep } from "../../../pipeline/steps/waveform-inversion";
+import { buildModel, paintShapes } from "../../../pipeline/kernels/fd/model-grid";
+import { simulateShot } from "../../../pipeline/kernels/fd/simulation";
+import { decodeArtifact, encodeArtifact } from "../../../pipeline/artifact-codec";
+import { createWorkerPool, type WorkerPool } from "../../../pipeline/workers/pool";
+import type { ElasticModel, Gather, GatherSet } from "../../../pipeline/types";
+import { makeStepContext } from "../../helpers/step-context";
+
+const h = 0.25;
+const grid = { originX: 0, originZ: 0, spacingM: h, nx: 97, nz: 33 };
+const background = buildModel(grid, [{ topM: 0, vp: 400, vs: 200, rho: 1800 }]);
+/** The slow block: x 10–13 m, z 1–3 m, Vs 160 m/s (20 % slow). */
+const block = { kind: "rectangle" as const, x0M: 10, x1M: 13, z0M: 1, z1M: 3, vp: 400, vs: 160, rho: 1800 };
+const truth = paintShapes(buildModel(grid, [{ topM: 0, vp: 400, vs: 200, rho: 1800 }]), [block]);
+const wavelet = { kind: "ricker" as const, peakHz: 30 };
+const output = { intervalS: 0.0005, count: 300, startTimeS: 0 };
+const sources = [2, 7, 12, 17, 22];
+const receiverX = Array.from({ length: 24 }, (_, k) => 0.5 + k);
+
+function observedGathers(model: ElasticModel): GatherSet {
+  const gathers: Gather[] = sources.map((sx, s) => {
+    const shot = { sourceX: sx, sourceZ: 0, receiverX, receiverZ: receiverX.map(() => 0) };
+    const r = simulateShot(model, shot, { mode: "sh", sourceKind: "force-y", component: "y", wavelet, pmlCells: 10, output });
+    return {
+      id: `shot-${s + 1}`,
+      sampleIntervalS: output.intervalS,
+      sampleCount: output.count,
+      startTimeS: 0,
+      traces: receiverX.map((rx, c) => ({
+        sourceFile: `shot-${s + 1}`, channel: c + 1, sourcePoint: s + 1, blow: 0, sourceX: sx, sourceZ: 0,
+        receiverX: rx, receiverZ: 0, offset: rx - sx, stackCount: 1, component: "y" as const, dead: false,
+      })),
+      data: r.traces,
+    };
+  });
+  return { kind: "gathers", gathers };
+}
+
+const settings = (iterations: number) =>
+  waveformInversionParams.parse({
+    mode: "sh",
+    pmlCells: 10,
+    waveletFrom: "ricker",
+    rickerPeakHz: 30,
+    fixedOutsideSpread: false,
+    smoothingM: 0.25,
+    sourceTaperM: 1,
+    receiverTaperM: 0,
+    firstStepFraction: 0.05,
+    stages: [{ lowPassHz: 60, measure: "least-squares", iterations, stopBelowRelativeChange: 0, reestimateWavelet: false }],
+  });
+
+/** A context whose checkpoint goes through the artifact codec, as the runner stores it. */
+function context(pool: WorkerPool) {
+  const ctx = makeStepContext({ pool });
+  ctx.saveCheckpoint = (v) => {
+    ctx.records.checkpoint = decodeArtifact(encodeArtifact(v));
+  };
+  ctx.loadCheckpoint = () => ctx.records.checkpoint;
+  return ctx;
+}
+
+let pool: WorkerPool;
+let observed: GatherSet;
+beforeAll(() => {
+  pool = createWorkerPool(2);
+  observed = observedGathers(truth);
+});
+afterAll(async () => {
+  await pool.close();
+});
+
+describe("waveform-inversion step", () => {
+  it("recovers a slow block from SH surface data: its centre within one cell, its velocity within 10 %", { timeout: 180_000 }, async () => {
+    const ctx = context(pool);
+    const res = await waveformInversionStep.run({ gathers: observed, model: background }, settings(15), ctx);
+    const m = res.outputs.model!;
+    // Centre of the recovered slow anomaly, weighted by its velocity deficit (cells more than 3 % slow).
+    let w = 0;
+    let cx = 0;
+    let cz = 0;
+    for (let j = 0; j < m.nz; j++) {
+      for (let i = 0; i < m.nx; i++) {
+        const d = 1 - m.vs[j * m.nx + i] / 200;
+        if (d < 0.03) continue;
+        w += d;
+        cx += d * i * h;
+        cz += d * j * h;
+      }
+    }
+    expect(w).toBeGreaterThan(0);
+    expect(Math.abs(cx / w - 11.5)).toBeLessThanOrEqual(h);
+    expect(Math.abs(cz / w - 2)).toBeLessThanOrEqual(h);
+    // Mean Vs over the block's cells against the true 160 m/s.
+    let sum = 0;
+    let n = 0;
+    for (let j = 0; j < m.nz; j++) {
+      for (let i = 0; i < m.nx; i++) {
+        const x = i * h;
+        const z = j * h;
+        if (x >= 10 && x <= 13 && z >= 1 && z <= 3) {
+          sum += m.vs[j * m.nx + i];
+          n++;
+        }
+      }
+    }
+    expect(Math.abs(sum / n - 160) / 160).toBeLessThan(0.1);
+    // The misfit fell, iteration by iteration recorded, one model per iteration.
+    const report = res.outputs.report!.data as { stages: Array<{ startMisfit: number; endMisfit: number; iterations: number }> };
+    expect(report.stages[0].endMisfit).toBeLessThan(0.25 * report.stages[0].startMisfit);
+    expect(ctx.records.intermediates.filter((r) => r.kind === "model").map((r) => r.index)).toEqual(
+      Array.from({ length: report.stages[0].iterations }, (_, k) => k + 1),
+    );
+  });
+
+  it("resumes after an interruption at the next iteration and ends with the same model, bit for bit", { timeout: 180_000 }, async () => {
+    const p = settings(4);
+    const whole = await waveformInversionStep.run({ gathers: observed, model: background }, p, context(pool));
+
+    const ctx = context(pool);
+    // Interrupt once the second iteration's model is recorded.
+    const record = ctx.recordIntermediate.bind(ctx);
+    ctx.recordIntermediate = (e) => {
+      const hash = record(e);
+      if (e.kind === "model" && e.index === 2) ctx.abort();
+      return hash;
+    };
+    await expect(waveformInversionStep.run({ gathers: observed, model: background }, p, ctx)).rejects.toMatchObject({ name: "AbortError" });
+    expect((ctx.records.checkpoint as { iteration: number }).iteration).toBe(2);
+
+    // A new attempt with a fresh signal and the saved checkpoint.
+    const again = context(pool);
+    again.records.checkpoint = ctx.records.checkpoint;
+    const resumed = await waveformInversionStep.run({ gathers: observed, model: background }, p, again);
+    expect(again.records.intermediates.filter((r) => r.kind === "model").map((r) => r.index)).toEqual([3, 4]);
+    expect(Buffer.from(resumed.outputs.model!.vs.buffer).equals(Buffer.from(whole.outputs.model!.vs.buffer))).toBe(true);
+  });
+});
