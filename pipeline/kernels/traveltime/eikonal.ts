@@ -131,8 +131,7 @@ export function eikonalTimes(
     return { times, rounds };
   }
 
-  // Factored: T = T0·tau. tau starts at +Inf except near the source, where the medium is taken
-  // as homogeneous (tau = s_node / s0 blends towards the local slowness; exactly 1 at the source).
+  // Factored: T = T0·tau. tau starts at +Inf except at the nodes within one cell of the source.
   const t0 = new Float64Array(n);
   const px = new Float64Array(n);
   const pz = new Float64Array(n);
@@ -156,7 +155,9 @@ export function eikonalTimes(
       const dx = ix * h - sourceX;
       const dz = iz * h - sourceZ;
       if (Math.hypot(dx, dz) <= 1.0000001 * h) {
-        tau[k] = 1;
+        // Straight ray with the slowness varying linearly from source to node (trapezoid rule):
+        // exact for a homogeneous medium, second order in h for a smooth one.
+        tau[k] = (s0 + slowness[k]) / (2 * s0);
         fixed[k] = 1;
       }
     }
