@@ -268,25 +268,42 @@ function sweepFactored(
           const T0 = t0[k];
           const p = px[k];
           const q = pz[k];
-          // Neighbour tau values (NaN where absent or not yet reached).
-          const left = ix > 0 && tau[k - 1] !== Infinity ? tau[k - 1] : NaN;
-          const right = ix < nx - 1 && tau[k + 1] !== Infinity ? tau[k + 1] : NaN;
-          const up = iz > 0 && tau[k - nx] !== Infinity ? tau[k - nx] : NaN;
-          const down = iz < nz - 1 && tau[k + nx] !== Infinity ? tau[k + nx] : NaN;
+          // Upwind neighbour per direction: the one with the earlier time T0·tau (as the plain
+          // Godunov update takes min(T[i−1], T[i+1])); NaN where absent or not yet reached.
+          let sx = 0;
+          let tx = NaN;
+          if (ix > 0 && tau[k - 1] !== Infinity) {
+            sx = 1;
+            tx = tau[k - 1];
+          }
+          if (ix < nx - 1 && tau[k + 1] !== Infinity && (sx === 0 || t0[k + 1] * tau[k + 1] < t0[k - 1] * tx)) {
+            sx = -1;
+            tx = tau[k + 1];
+          }
+          let sz = 0;
+          let tz = NaN;
+          if (iz > 0 && tau[k - nx] !== Infinity) {
+            sz = 1;
+            tz = tau[k - nx];
+          }
+          if (iz < nz - 1 && tau[k + nx] !== Infinity && (sz === 0 || t0[k + nx] * tau[k + nx] < t0[k - nx] * tz)) {
+            sz = -1;
+            tz = tau[k + nx];
+          }
+          if (sx === 0 && sz === 0) continue;
+          // The two-sided update, then the one-sided ones; keep the smallest causal value.
           let best = Infinity;
-          // Two-sided candidates first, then the one-sided ones; keep the smallest causal one.
-          for (let cxn = 0; cxn < 3; cxn++) {
-            const sx = cxn === 0 ? 1 : cxn === 1 ? -1 : 0;
-            const tx = sx === 1 ? left : sx === -1 ? right : NaN;
-            if (sx !== 0 && !(tx === tx)) continue;
-            for (let czn = 0; czn < 3; czn++) {
-              const sz = czn === 0 ? 1 : czn === 1 ? -1 : 0;
-              const tz = sz === 1 ? up : sz === -1 ? down : NaN;
-              if (sz !== 0 && !(tz === tz)) continue;
-              if (sx === 0 && sz === 0) continue;
-              const c = factoredCandidate(s, T0, p, q, h, sx, tx, sz, tz);
-              if (c === c && c < best) best = c;
-            }
+          if (sx !== 0 && sz !== 0) {
+            const c = factoredCandidate(s, T0, p, q, h, sx, tx, sz, tz);
+            if (c === c) best = c;
+          }
+          if (sx !== 0) {
+            const c = factoredCandidate(s, T0, p, q, h, sx, tx, 0, NaN);
+            if (c === c && c < best) best = c;
+          }
+          if (sz !== 0) {
+            const c = factoredCandidate(s, T0, p, q, h, 0, NaN, sz, tz);
+            if (c === c && c < best) best = c;
           }
           if (best < tau[k]) {
             const d = tau[k] === Infinity ? Infinity : (tau[k] - best) * T0;
