@@ -2,6 +2,7 @@ import { describe, expect, it } from "vitest";
 import { firstArrivalTomographyStep } from "../../../pipeline/steps/first-arrival-tomography";
 import { describeParams, listSteps } from "../../../pipeline/registry";
 import { StepInputError } from "../../../pipeline/step";
+import { decodeArtifact, encodeArtifact } from "../../../pipeline/artifact-codec";
 import type { ElasticModel, GatherSet, PickSet, Tomogram } from "../../../pipeline/types";
 import { makeStepContext } from "../../helpers/step-context";
 import { seededRandom } from "../../helpers/random";
@@ -102,6 +103,11 @@ describe("first-arrival-tomography step", () => {
     expect(mid).toBeLessThanOrEqual(12.5);
     expect(res.summary).toMatchObject({ picks: 432, leftOut: 0, sources: 9, startingModel: "gradient" });
     expect(res.series!.map((s) => s.name)).toEqual(["travel-time-rms", "travel-times", "ray-reach-depth"]);
+    // Plain data: the slot survives the artifact codec unchanged (NaN reach depths included).
+    const back = decodeArtifact(encodeArtifact(t)) as Tomogram;
+    expect(back).toEqual(t);
+    expect(back.velocity).toBeInstanceOf(Float32Array);
+    expect(back.rayCount).toBeInstanceOf(Int32Array);
   });
 
   it("leaves flagged picks out unless told to keep them", async () => {
