@@ -40,8 +40,8 @@ export const firstArrivalTomographyParams = z
     smoothingM: z.number().min(0).default(2).describe("Smoothing length, m: weight (smoothingM / spacing)² on the second differences of the departure from the starting model"),
     /** @default 10 */
     damping: z.number().min(0).default(10).describe("Damping of each update of the relative slowness (dimensionless; larger keeps each step closer to the current model)"),
-    /** @default 5 */
-    iterations: z.number().int().min(1).max(30).default(5).describe("Outer iterations (rays re-traced each time)"),
+    /** @default 8 */
+    iterations: z.number().int().min(1).max(30).default(8).describe("Outer iterations (rays re-traced each time)"),
     /** @default 1 */
     pickUncertaintyMs: z.number().positive().default(1).describe("Uncertainty (one standard deviation) of a pick of quality 1, ms"),
     /** @default true */

@@ -66,7 +66,7 @@ function coveredError(t: Tomogram, field: Float32Array): { mean: number; cells: 
 describe("first-arrival-tomography step", () => {
   it("fits closed-form gradient times from the default gradient start and moves Vp towards the truth", async () => {
     const { gathers, picks } = survey();
-    const res = await firstArrivalTomographyStep.run({ picks, gathers }, firstArrivalTomographyStep.params.parse({ pickUncertaintyMs: 0.3 }), makeStepContext());
+    const res = await firstArrivalTomographyStep.run({ picks, gathers }, firstArrivalTomographyStep.params.parse({ pickUncertaintyMs: 0.3, iterations: 5 }), makeStepContext());
     const t = res.outputs.tomogram!;
     expect(t.kind).toBe("tomogram");
     expect(t.wave).toBe("p");
