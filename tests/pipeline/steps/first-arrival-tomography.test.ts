@@ -162,6 +162,19 @@ describe("first-arrival-tomography step", () => {
     expect(firstArrivalTomographyStep.params.safeParse({ wave: "love" }).success).toBe(false);
   });
 
+  it("weights picks by their quality and stops when the run is cancelled", async () => {
+    const { gathers, picks } = survey();
+    const graded: PickSet = { ...picks, picks: picks.picks.map((p, i) => ({ ...p, quality: i % 2 === 0 ? 1 : 0.5 })) };
+    const params = firstArrivalTomographyStep.params.parse({ spacingM: 1, iterations: 1, pickUncertaintyMs: 2 });
+    const res = await firstArrivalTomographyStep.run({ picks: graded, gathers }, params, makeStepContext());
+    // σ = pickUncertaintyMs · (2 − quality): 2 ms at quality 1, 3 ms at quality 0.5.
+    expect(res.outputs.tomogram!.picks[0].uncertaintyS).toBeCloseTo(0.002, 12);
+    expect(res.outputs.tomogram!.picks[1].uncertaintyS).toBeCloseTo(0.003, 12);
+    const ctx = makeStepContext();
+    ctx.abort();
+    await expect(firstArrivalTomographyStep.run({ picks, gathers }, params, ctx)).rejects.toMatchObject({ name: "AbortError" });
+  });
+
   it("is registered right after first-arrivals with every setting defaulted and described", () => {
     const ids = listSteps().map((s) => s.id);
     expect(ids.indexOf("first-arrival-tomography")).toBe(ids.indexOf("first-arrivals") + 1);
