@@ -1,3 +1,6 @@
+import fs from "node:fs";
+import os from "node:os";
+import path from "node:path";
 import { describe, expect, it } from "vitest";
 import { firstArrivalTomographyStep } from "../../../pipeline/steps/first-arrival-tomography";
 import { describeParams, listSteps } from "../../../pipeline/registry";
@@ -7,6 +10,11 @@ import type { ElasticModel, GatherSet, PickSet, Tomogram } from "../../../pipeli
 import { makeStepContext } from "../../helpers/step-context";
 import { seededRandom } from "../../helpers/random";
 import { makeGather } from "./make-gather";
+import { closeDb, getDb } from "../../../db/client";
+import { getRun } from "../../../db/queries/runs";
+import { readArtifactSync } from "../../../pipeline/artifact-store";
+import { executeRun, prepareRunFromFile } from "../../../pipeline/runner";
+import { writeQuillmoorSurvey } from "../../../examples/quillmoor/make-field-data";
 
 const V0 = 450;
 const G = 25; // (m/s)/m
@@ -184,6 +192,53 @@ describe("first-arrival-tomography step", () => {
       expect("default" in d, d.name).toBe(true);
       const unit = /Ms$/.test(d.name) ? "ms" : /Mps$/.test(d.name) ? "m/s" : /M$/.test(d.name) ? "m" : null;
       if (unit) expect(d.description, d.name).toContain(unit);
+    }
+  });
+});
+
+describe("first-arrival-tomography in a pipeline", () => {
+  it("runs after first-arrivals from a pipeline file and writes a tomogram artifact", async () => {
+    const tmp = fs.mkdtempSync(path.join(os.tmpdir(), "tw-tomography-"));
+    const previous = process.env.TRACEWRIGHT_DATA_DIR;
+    process.env.TRACEWRIGHT_DATA_DIR = path.join(tmp, "data");
+    try {
+      const db = getDb();
+      writeQuillmoorSurvey(path.join(tmp, "field"), { sourcePoints: 4, blows: 1, channels: 24, recordLengthS: 0.15 });
+      const file = path.join(tmp, "tomography.yaml");
+      fs.writeFileSync(
+        file,
+        [
+          "name: tomography",
+          "survey: tomography-site",
+          "fieldData: ./field",
+          "geometryTable: ./field/qm1-geometry.csv",
+          "steps:",
+          "  - step: import-records",
+          "  - step: geometry",
+          "  - step: first-arrivals",
+          "    settings: { searchFastestMps: 2500, searchSlowestMps: 300 }",
+          "  - step: first-arrival-tomography",
+          "    settings: { iterations: 2, spacingM: 1, depthM: 10 }",
+          "",
+        ].join("\n"),
+      );
+      const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor: { userId: null, label: "tester", door: "cli" } });
+      const run = await executeRun(db, runId);
+      expect(run.status, run.error).toBe("succeeded");
+      const steps = Object.fromEntries(getRun(db, runId)!.steps.map((st) => [st.label, st]));
+      const picked = (steps["first-arrivals"].summary as { picked: number }).picked;
+      const summary = steps["first-arrival-tomography"].summary as { picks: number; leftOut: number; startRmsMs: number; finalRmsMs: number };
+      expect(summary.picks + summary.leftOut).toBe(picked);
+      const t = readArtifactSync(steps["first-arrival-tomography"].outputs.tomogram) as Tomogram;
+      expect(t.kind).toBe("tomogram");
+      expect(t.picks).toHaveLength(summary.picks);
+      expect(t.iterations).toHaveLength(3);
+      expect(summary.finalRmsMs).toBeLessThan(summary.startRmsMs);
+    } finally {
+      closeDb();
+      if (previous === undefined) delete process.env.TRACEWRIGHT_DATA_DIR;
+      else process.env.TRACEWRIGHT_DATA_DIR = previous;
+      fs.rmSync(tmp, { recursive: true, force: true });
     }
   });
 });
