@@ -183,7 +183,7 @@ export interface Tomogram {
   coverageThresholdM: number;
   /** Per column: depth (m, absolute) of the deepest node with coverage ≥ coverageThresholdM; NaN for none. */
   reachDepthM: Float32Array;
-  /** Final rays: x, z pairs (m, absolute) of every ray concatenated; ray i spans points rayStart[i] … rayStart[i+1]−1 and runs receiver → source. */
+  /** Final rays for drawing (about one point per cell): x, z pairs (m, absolute) of every ray concatenated; ray i spans points rayStart[i] … rayStart[i+1]−1 and runs receiver → source. */
   rayPoints: Float32Array;
   /** Start of each ray in rayPoints (in points), one entry per pick in `picks` that was used, plus one. */
   rayStart: Int32Array;

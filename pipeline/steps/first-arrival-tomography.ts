@@ -156,6 +156,26 @@ function startingGrid(
   return { grid: { nx, nz, spacingM: h }, originX, originZ: 0, start, fromModel: false };
 }
 
+/**
+ * Rays for drawing: every fourth point of the descent (its steps are a quarter cell, so about one
+ * point per cell) plus each ray's last point, moved to profile coordinates.
+ */
+function decimateRays(points: Float64Array, starts: Int32Array, originX: number, originZ: number): { rayPoints: Float32Array; rayStart: Int32Array } {
+  const rays = starts.length - 1;
+  const rayStart = new Int32Array(rays + 1);
+  const kept: number[] = [];
+  for (let r = 0; r < rays; r++) {
+    rayStart[r] = kept.length / 2;
+    const first = starts[r];
+    const last = starts[r + 1] - 1;
+    for (let p = first; p <= last; p++) {
+      if ((p - first) % 4 === 0 || p === last) kept.push(points[2 * p] + originX, points[2 * p + 1] + originZ);
+    }
+  }
+  rayStart[rays] = kept.length / 2;
+  return { rayPoints: Float32Array.from(kept), rayStart };
+}
+
 export const firstArrivalTomographyStep = defineStep({
   id: "first-arrival-tomography",
   version: 1,
@@ -249,8 +269,7 @@ export const firstArrivalTomographyStep = defineStep({
       rayCount: result.rayCount,
       coverageThresholdM: threshold,
       reachDepthM: Float32Array.from(reach, (d) => d + originZ),
-      rayPoints: Float32Array.from(result.rayPoints, (v, i) => v + (i % 2 === 0 ? originX : originZ)),
-      rayStart: result.rayStart,
+      ...decimateRays(result.rayPoints, result.rayStart, originX, originZ),
       picks: used.map((u, i) => ({
         gatherId: u.gatherId,
         traceIndex: u.traceIndex,

@@ -1,7 +1,7 @@
 /**
  * First-arrival travel times on a regular grid by fast sweeping (Zhao 2005, "A fast sweeping
  * method for Eikonal equations", Math. Comp. 74, 603–627) with the first-order Godunov upwind
- * update of that paper (eq. 2.3 and its solution, 2D):
+ * update of that paper in 2D (as recalled, from memory; the tests check it against closed forms):
  *
  *   a = min(T[i−1,j], T[i+1,j]), b = min(T[i,j−1], T[i,j+1]), f = slowness · h,
  *   T̄ = min(a, b) + f                              when |a − b| ≥ f,

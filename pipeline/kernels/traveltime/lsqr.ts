@@ -1,13 +1,13 @@
 /**
  * Sparse matrices in compressed-row form and LSQR (Paige & Saunders 1982, "LSQR: An algorithm for
  * sparse linear equations and sparse least squares", ACM TOMS 8, 43–71): the Golub–Kahan
- * bidiagonalisation with the QR update of section 4 and the damped form of section 4.1 (one extra
- * plane rotation per step), solving
+ * bidiagonalisation with the QR update and the damped form (one extra plane rotation per step),
+ * solving
  *
  *   min ‖A·x − b‖² + damp²·‖x‖².
  *
- * Stopping rules S1 and S2 of the paper (section 6): ‖r‖ ≤ btol·‖b‖ + atol·‖A‖·‖x‖, or
- * ‖Aᵀr‖ / (‖A‖·‖r‖) ≤ atol, with the running estimates of ‖A‖, ‖r‖, ‖Aᵀr‖ of section 5.
+ * Stopping rules S1 and S2 of the paper: ‖r‖ ≤ btol·‖b‖ + atol·‖A‖·‖x‖, or
+ * ‖Aᵀr‖ / (‖A‖·‖r‖) ≤ atol, with the paper's running estimates of ‖A‖, ‖r‖, ‖Aᵀr‖.
  */
 
 /** A sparse matrix in compressed-row form. Row i holds entries rowStart[i] … rowStart[i+1]−1. */
@@ -152,7 +152,7 @@ export function lsqr(a: SparseMatrix, b: Float64Array, options: LsqrOptions = {}
       alpha = norm(v);
       if (alpha > 0) for (let j = 0; j < n; j++) v[j] /= alpha;
     }
-    // Damping rotation (section 4.1), then the plane rotation that eliminates beta.
+    // Damping rotation, then the plane rotation that eliminates beta.
     const rhobar1 = Math.hypot(rhobar, damp);
     const cs1 = rhobar / rhobar1;
     const sn1 = damp / rhobar1;
@@ -174,7 +174,7 @@ export function lsqr(a: SparseMatrix, b: Float64Array, options: LsqrOptions = {}
       xx += x[j] * x[j];
     }
     xnorm = Math.sqrt(xx);
-    // Estimates (section 5): ‖r̄‖² = phibar² + Σψ² (the damping part); ‖Aᵀr̄‖ = phibar·alpha·|c|.
+    // Running estimates: ‖r̄‖² = phibar² + Σψ² (the damping part); ‖Aᵀr̄‖ = |phibar·alpha·c|.
     dampedResidual2 += psi * psi;
     residualNorm = Math.sqrt(phibar * phibar + dampedResidual2);
     const anorm = Math.sqrt(anorm2);

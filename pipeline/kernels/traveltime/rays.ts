@@ -1,7 +1,8 @@
 /**
  * Rays by steepest descent on a first-arrival travel-time field: from the receiver, step against
  * ∇T until the source is reached (the ray is orthogonal to the wavefronts, so it follows −∇T back
- * to the source; e.g. Vidale 1988, BSSA 78, and common practice in travel-time tomography).
+ * to the source: ∇T = s·t̂ with t̂ the ray direction, the eikonal's characteristics; common
+ * practice in grid travel-time tomography).
  *
  * The sensitivity of a travel time to the node slownesses is the ray integral of the bilinear
  * shape functions: with s(x) = Σ_k s_k φ_k(x), t = ∫_ray s dl, so ∂t/∂s_k = ∫_ray φ_k dl (to first

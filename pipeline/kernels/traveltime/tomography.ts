@@ -12,8 +12,9 @@
  * D₂ the second differences along x and z (smoothing: the roughness of the departure from the
  * starting model is penalised, so a smooth starting trend is kept where the data say nothing), and
  * λ = (smoothingM / h)². This is the usual damped and smoothed least-squares form of travel-time
- * tomography (e.g. Aster, Borchers & Thurber, Parameter Estimation and Inverse Problems, ch. 4–5
- * for second-difference regularisation; Paige & Saunders 1982 for LSQR's damping). Velocities
+ * tomography (Tikhonov regularisation with a second-difference roughening matrix, e.g. Aster,
+ * Borchers & Thurber, Parameter Estimation and Inverse Problems, from memory; Paige & Saunders
+ * 1982 for LSQR's damping). Velocities
  * are clipped to the bounds after each update.
  *
  * Layout: node grids `[z][x]`, positions in metres from the grid origin, z positive down.

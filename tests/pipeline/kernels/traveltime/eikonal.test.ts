@@ -93,7 +93,7 @@ describe("eikonal travel times by fast sweeping", () => {
       const coarse = errorAt(1, scheme);
       const fine = errorAt(0.25, scheme);
       // Four times finer: a first-order error falls by about 4 (more than 2.5 allows the log term
-      // of the plain scheme's source error, Zhao 2005 section 4).
+      // of the plain scheme's point-source error: common practice, the reason for the factored form).
       expect(coarse / fine, scheme).toBeGreaterThan(scheme === "factored" ? 3 : 1.5);
     }
     // The factored scheme is the more accurate one on the same grid.

@@ -4,7 +4,7 @@ import { seededRandom } from "../../../helpers/random";
 
 /**
  * Solves (AᵀA + damp²·I)·x = Aᵀb directly: the normal equations of damped least squares
- * (Golub & Van Loan, Matrix Computations, §5.3), by Cholesky factorisation of the symmetric
+ * (Golub & Van Loan, Matrix Computations; section numbers from memory: §5.3), by Cholesky factorisation of the symmetric
  * positive definite matrix (§4.2). Written out here as the independent reference.
  */
 function normalEquations(a: number[][], b: number[], damp: number): number[] {
@@ -68,7 +68,7 @@ describe("LSQR (Paige & Saunders 1982)", () => {
     expect(result.iterations).toBeLessThanOrEqual(16);
     const scale = Math.max(...reference.map(Math.abs));
     for (let j = 0; j < 12; j++) expect(Math.abs(result.x[j] - reference[j]) / scale).toBeLessThan(1e-9);
-    // The residual estimate of section 5 is the true ‖[b; 0] − [A; damp·I]x‖.
+    // The paper's running residual estimate is the true ‖[b; 0] − [A; damp·I]x‖.
     const ax = sparseMultiply(matrix, result.x, new Float64Array(30));
     let r2 = 0;
     for (let i = 0; i < 30; i++) r2 += (b[i] - ax[i]) ** 2;
