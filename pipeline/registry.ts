@@ -12,6 +12,7 @@ import { traceEditStep } from "./steps/trace-edit";
 import { timeWindowStep } from "./steps/time-window";
 import { frequencyFilterStep } from "./steps/frequency-filter";
 import { firstArrivalsStep } from "./steps/first-arrivals";
+import { firstArrivalTomographyStep } from "./steps/first-arrival-tomography";
 import { muteStep } from "./steps/mute";
 import { gainStep } from "./steps/gain";
 import { lineSourceStep } from "./steps/line-source";
@@ -30,6 +31,7 @@ const STEPS: AnyStepDefinition[] = [
   timeWindowStep,
   frequencyFilterStep,
   firstArrivalsStep,
+  firstArrivalTomographyStep,
   muteStep,
   gainStep,
   lineSourceStep,

@@ -152,6 +152,68 @@ export interface ElasticModel {
   rho: Float32Array;
 }
 
+/**
+ * Velocity from first-arrival travel-time tomography (step "first-arrival-tomography") on its own
+ * regular grid, with what tells where to trust it. Node grids are flat row-major `[z][x]`
+ * (row iz = depth originZ + iz*spacingM, column ix = originX + ix*spacingM), as in
+ * {@link ElasticModel}. To blend into a starting model, take `velocity` where `coverageM` is at
+ * least `coverageThresholdM`, i.e. above `reachDepthM` of the column, and the other model below.
+ */
+export interface Tomogram {
+  kind: "tomogram";
+  /** Which velocity the picks measured: "p" (Vp) or "s" (Vs from SH picks). */
+  wave: "p" | "s";
+  nx: number;
+  nz: number;
+  /** Grid spacing, m (square cells). */
+  spacingM: number;
+  /** Position of column 0, m along the profile. */
+  originX: number;
+  /** Depth of row 0, m (0 = surface). */
+  originZ: number;
+  /** Inverted velocity (Vp or Vs as `wave` says), m/s, `[z][x]`. */
+  velocity: Float32Array;
+  /** Starting velocity of the inversion, m/s, `[z][x]`. */
+  startingVelocity: Float32Array;
+  /** Ray length per node cell (each node owns the h×h square around it) in the final model, m, `[z][x]`. */
+  coverageM: Float32Array;
+  /** Number of rays touching each node cell in the final model, `[z][x]`. */
+  rayCount: Int32Array;
+  /** Coverage (m of ray per cell) above which a cell counts as covered. */
+  coverageThresholdM: number;
+  /** Per column: depth (m, absolute) of the deepest node with coverage ≥ coverageThresholdM; NaN for none. */
+  reachDepthM: Float32Array;
+  /** Final rays for drawing (about one point per cell): x, z pairs (m, absolute) of every ray concatenated; ray i spans points rayStart[i] … rayStart[i+1]−1 and runs receiver → source. */
+  rayPoints: Float32Array;
+  /** Start of each ray in rayPoints (in points), one entry per pick in `picks` that was used, plus one. */
+  rayStart: Int32Array;
+  /** Every pick used, in the order of the rays: observed and modelled times, s. */
+  picks: Array<{
+    gatherId: string;
+    traceIndex: number;
+    sourceX: number;
+    receiverX: number;
+    /** Observed first-arrival time, s. */
+    observedS: number;
+    /** Modelled time through the starting model, s. */
+    startingModelledS: number;
+    /** Modelled time through the final model, s. */
+    modelledS: number;
+    /** Uncertainty (one standard deviation) used as the data weight, s. */
+    uncertaintyS: number;
+    /** True when the picker flagged it (used only when the step was told to keep flagged picks). */
+    flagged: boolean;
+  }>;
+  /** Residual per iteration: 0 is the starting model, the last is the final model. */
+  iterations: Array<{
+    iteration: number;
+    /** Root-mean-square of observed − modelled, s. */
+    rmsS: number;
+    /** Root-mean-square residual in units of the pick uncertainties. */
+    weightedRms: number;
+  }>;
+}
+
 /** Wavefield snapshots at chosen times (one shot), flat `[frame][z][x]`. */
 export interface SnapshotSet {
   kind: "snapshots";
@@ -198,6 +260,8 @@ export interface SlotValues {
   wavelet: GatherSet;
   /** A per-step report. */
   report: JsonDocument;
+  /** Velocity from first-arrival travel-time tomography, with ray coverage and fit. */
+  tomogram: Tomogram;
 }
 
 export type SlotName = keyof SlotValues;
