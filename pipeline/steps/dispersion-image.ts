@@ -69,13 +69,13 @@ export const dispersionImageParams = z
     pickMinFrequencyHz: z.number().min(0).default(0).describe("Lowest frequency picked automatically, Hz; 0: the image's lowest"),
     /** @default 0 */
     pickMaxFrequencyHz: z.number().min(0).default(0).describe("Highest frequency picked automatically, Hz; 0: the image's highest"),
-    /** @default 10 */
+    /** @default 8 */
     pickMaxStepPercent: z
       .number()
       .positive()
       .max(100)
-      .default(10)
-      .describe("Continuity: largest change of the pick from one frequency to the next, percent of the previous pick"),
+      .default(8)
+      .describe("Continuity: largest change of the pick from one frequency of the image to the next, percent of the previous pick (scale it with frequencyStepHz)"),
     /** @default 0.5 */
     pickMinRelativeValue: z
       .number()
@@ -83,6 +83,13 @@ export const dispersionImageParams = z
       .max(1)
       .default(0.5)
       .describe("A pick needs an image value of at least this fraction of the row's largest value within the bounds (no unit)"),
+    /** @default 3 */
+    pickMaxGapFrequencies: z
+      .number()
+      .int()
+      .min(1)
+      .default(3)
+      .describe("The automatic pick stops following the curve after this many frequencies in a row without a clear peak (count)"),
     /** @default [] */
     handPicks: z
       .array(handPickSchema)
@@ -173,6 +180,7 @@ export const dispersionImageStep = defineStep({
       maxFrequencyHz: p.pickMaxFrequencyHz > 0 ? p.pickMaxFrequencyHz : p.maxFrequencyHz,
       maxStepFraction: p.pickMaxStepPercent / 100,
       minRelativeValue: p.pickMinRelativeValue,
+      maxGapFrequencies: p.pickMaxGapFrequencies,
     };
     const result: DispersionSet = { kind: "dispersion", ...axes, normalisation: p.normalisation, windows: [] };
     const skipped: string[] = [];

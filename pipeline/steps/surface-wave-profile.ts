@@ -51,6 +51,14 @@ export const surfaceWaveProfileParams = z
       .default(0.5)
       .describe("Depth of investigation as a fraction of the longest wavelength picked (common practice: a third to a half) (no unit)"),
     /** @default 5 */
+    dampingMps: z
+      .number()
+      .min(0)
+      .default(5)
+      .describe(
+        "Damping towards the starting model, m/s per unit of log parameter: a 10 % change of a layer's Vs costs as much as a 0.1·dampingMps residual on one pick, so layers the curve does not constrain stay near the start (0: none)",
+      ),
+    /** @default 5 */
     minPicks: z.number().int().min(2).default(5).describe("Windows with fewer picks are left out (count)"),
   })
   .superRefine((p, ctx) => {
@@ -120,6 +128,7 @@ export const surfaceWaveProfileStep = defineStep({
           maxVsMps: p.maxVsMps,
           maxIterations: p.maxIterations,
           investigationFraction: p.investigationFraction,
+          dampingMps: p.dampingMps,
         });
       } catch (err) {
         if (err instanceof RangeError) throw new StepInputError(`window ${w.id}: ${err.message}`, "dispersion");

@@ -3,7 +3,8 @@
  * profile by damped least squares (Levenberg 1944; Marquardt 1963, J. SIAM 11: the step solves
  * (JᵀJ + λ·diag(JᵀJ))·Δ = −Jᵀr, λ shrinks after an accepted step and grows after a rejected one)
  * with a forward-difference Jacobian. Unknowns: log Vs of each layer and of the half-space, and,
- * when asked, log thickness of each layer (logarithms keep them positive). Vp follows Vs by a
+ * when asked, log thickness of each layer (logarithms keep them positive), optionally damped
+ * towards the starting model (Tikhonov-style rows added to the residuals). Vp follows Vs by a
  * Poisson's ratio ν: Vp = Vs·√((2 − 2ν)/(1 − 2ν)) (from λ = 2μν/(1 − 2ν), any elasticity text);
  * density by a stated rule: a constant, or Gardner's rule ρ = 310·Vp^0.25 kg/m³ with Vp in m/s
  * (Gardner, Gardner & Gregory 1974, Geophysics 39, in SI units).
@@ -36,6 +37,13 @@ export interface CurveInversionOptions {
   maxIterations: number;
   /** Fraction of the longest picked wavelength reported as the depth of investigation. */
   investigationFraction: number;
+  /**
+   * Damping towards the starting model, m/s per unit of log parameter: the objective adds
+   * (dampingMps·(m − m₀))² per parameter, so a 10 % change costs as much as a residual of
+   * 0.1·dampingMps on one pick. Parameters the curve does not constrain (deep layers) stay near
+   * the start instead of running to a bound. Default 0 (none).
+   */
+  dampingMps?: number;
 }
 
 /** Result of {@link invertDispersionCurve}. */
@@ -172,10 +180,20 @@ export function invertDispersionCurve(frequenciesHz: ArrayLike<number>, velociti
   };
 
   const nd = f.length;
+  const damping = o.dampingMps ?? 0;
+  if (!(damping >= 0)) throw new RangeError(`dampingMps must be ≥ 0, got ${damping}`);
+  // Objective: data residuals plus damping rows dampingMps·(m − m₀); `phi` is the whole objective,
+  // `dataPhi` its data part (reported as the rms misfit).
+  const dampingTerm = (m: Float64Array) => {
+    let s = 0;
+    for (let q = 0; q < nParams; q++) s += (damping * (m[q] - m0[q])) ** 2;
+    return s;
+  };
   let m = m0;
   let r = new Float64Array(nd);
-  let phi = residuals(m, r);
-  const history = [Math.sqrt(phi / nd)];
+  let dataPhi = residuals(m, r);
+  let phi = dataPhi + dampingTerm(m);
+  const history = [Math.sqrt(dataPhi / nd)];
   let lambda = 1e-2;
   const J = new Float64Array(nd * nParams);
   const rTry = new Float64Array(nd);
@@ -198,10 +216,11 @@ export function invertDispersionCurve(frequenciesHz: ArrayLike<number>, velociti
     const Jtr = new Float64Array(nParams);
     for (let a = 0; a < nParams; a++) {
       for (let i = 0; i < nd; i++) Jtr[a] += J[i * nParams + a] * r[i];
+      Jtr[a] += damping * damping * (m[a] - m0[a]);
       for (let b = 0; b < nParams; b++) {
         let s = 0;
         for (let i = 0; i < nd; i++) s += J[i * nParams + a] * J[i * nParams + b];
-        JtJ[a * nParams + b] = s;
+        JtJ[a * nParams + b] = s + (a === b ? damping * damping : 0);
       }
     }
     for (;;) {
@@ -214,13 +233,15 @@ export function invertDispersionCurve(frequenciesHz: ArrayLike<number>, velociti
       const mTry = Float64Array.from(m);
       for (let p = 0; p < nParams; p++) mTry[p] += step[p];
       project(mTry);
-      const phiTry = residuals(mTry, rTry);
+      const dataTry = residuals(mTry, rTry);
+      const phiTry = dataTry + dampingTerm(mTry);
       if (phiTry < phi) {
         const rel = (phi - phiTry) / phi;
         m = mTry;
         r = Float64Array.from(rTry);
         phi = phiTry;
-        history.push(Math.sqrt(phi / nd));
+        dataPhi = dataTry;
+        history.push(Math.sqrt(dataPhi / nd));
         lambda = Math.max(lambda / 3, 1e-7);
         if (rel < 1e-4 || Math.sqrt(phi / nd) < 1e-3) {
           converged = true;
@@ -244,7 +265,7 @@ export function invertDispersionCurve(frequenciesHz: ArrayLike<number>, velociti
   return {
     model,
     modelledMps,
-    rmsMisfitMps: Math.sqrt(phi / nd),
+    rmsMisfitMps: Math.sqrt(dataPhi / nd),
     misfitHistoryMps: history,
     iterations,
     converged,

@@ -2,7 +2,8 @@
  * Automatic picking of a dispersion curve on a phase-shift image: the maximum per frequency
  * within user bounds, followed from the frequency with the most distinct peak towards lower and
  * higher frequencies with a continuity constraint (the pick may move by at most a set fraction
- * of the previous pick from one frequency to the next), refined between velocity samples by a
+ * of the previous pick from one frequency to the next, and the walk stops at a gap of several
+ * frequencies without a clear peak), refined between velocity samples by a
  * parabola through the three samples around the maximum (common practice for sub-sample peaks).
  *
  * Image layout: flat `[frequency][velocity]`. Units: Hz, m/s.
@@ -20,6 +21,11 @@ export interface PickOptions {
   maxStepFraction: number;
   /** A pick needs an image value of at least this fraction of the row maximum within the bounds. */
   minRelativeValue: number;
+  /**
+   * The walk away from the anchor stops after this many frequencies in a row without a pick (the
+   * curve may have moved further than the continuity limit allows across a gap). Default 3.
+   */
+  maxGapFrequencies?: number;
 }
 
 /** A picked curve: NaN velocity where no pick was made. */
@@ -109,8 +115,11 @@ export function pickDispersionCurve(
   if (anchor < 0) return { velocitiesMps: vel, values: val };
   record(anchor, bestIn(anchor, o.minVelocityMps, o.maxVelocityMps));
 
+  const maxGap = o.maxGapFrequencies ?? 3;
+  if (!Number.isInteger(maxGap) || maxGap < 1) throw new RangeError(`maxGapFrequencies must be an integer ≥ 1, got ${maxGap}`);
   for (const dir of [-1, 1]) {
     let prev = vel[anchor];
+    let gap = 0;
     for (let q = anchor + dir; q >= 0 && q < nf; q += dir) {
       if (!inBand(q)) break;
       const lo = Math.max(o.minVelocityMps, prev * (1 - o.maxStepFraction));
@@ -119,6 +128,9 @@ export function pickDispersionCurve(
       if (j >= 0 && accept(q, j)) {
         record(q, j);
         prev = vel[q];
+        gap = 0;
+      } else if (++gap >= maxGap) {
+        break;
       }
     }
   }

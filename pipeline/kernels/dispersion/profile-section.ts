@@ -99,8 +99,10 @@ export function profilesToModel(profiles: PlacedProfile[], grid: SectionGrid, ba
         rho[k] = background.rho[k];
         continue;
       }
-      sampleProfile(pL, Math.min(z, pL.depthOfInvestigationM), a);
-      sampleProfile(pR, Math.min(z, pR.depthOfInvestigationM), b);
+      // At and below the depth of investigation: the layer just above it (a layer boundary at
+      // that depth belongs to the unresolved layer below).
+      sampleProfile(pL, z < pL.depthOfInvestigationM ? z : pL.depthOfInvestigationM * (1 - 1e-9), a);
+      sampleProfile(pR, z < pR.depthOfInvestigationM ? z : pR.depthOfInvestigationM * (1 - 1e-9), b);
       vp[k] = (1 - w) * a[0] + w * b[0];
       vs[k] = (1 - w) * a[1] + w * b[1];
       rho[k] = (1 - w) * a[2] + w * b[2];

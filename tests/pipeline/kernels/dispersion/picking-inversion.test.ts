@@ -60,10 +60,20 @@ describe("automatic dispersion picking", () => {
 
   it("leaves frequencies without a clear peak unpicked and refuses bad settings", () => {
     const img = ridgeImage(f, c, [{ curve: fundamental, height: 1, widthMps: 10 }], 0, 3);
-    // Blank out 30 to 35 Hz.
-    for (let q = 0; q < f.length; q++) if (f[q] >= 30 && f[q] <= 35) img.fill(0, q * c.length, (q + 1) * c.length);
+    // Blank out 30 and 31 Hz: a gap of two frequencies is bridged (default: stop after 3).
+    const blank = (image: Float32Array, from: number, to: number) => {
+      for (let q = 0; q < f.length; q++) if (f[q] >= from && f[q] <= to) image.fill(0, q * c.length, (q + 1) * c.length);
+    };
+    blank(img, 30, 31);
     const p = pickDispersionCurve(img, f, c, options);
-    f.forEach((fq, q) => expect(Number.isNaN(p.velocitiesMps[q])).toBe(fq >= 30 && fq <= 35));
+    f.forEach((fq, q) => expect(Number.isNaN(p.velocitiesMps[q]), `${fq} Hz`).toBe(fq >= 30 && fq <= 31));
+    // A gap of six frequencies ends the walk: beyond it nothing is picked on the side away from the anchor.
+    const wide = ridgeImage(f, c, [{ curve: fundamental, height: 1, widthMps: 10 }], 0, 3);
+    blank(wide, 30, 35);
+    const q = pickDispersionCurve(wide, f, c, options);
+    const picked = f.filter((_, i) => Number.isFinite(q.velocitiesMps[i]));
+    expect(picked.every((fq) => fq < 30) || picked.every((fq) => fq > 35)).toBe(true);
+    expect(picked.length).toBeGreaterThan(20);
     expect(() => pickDispersionCurve(img, f, c, { ...options, maxVelocityMps: 50 })).toThrow(/maxVelocityMps/);
     expect(() => pickDispersionCurve(img.subarray(1), f, c, options)).toThrow(/image has/);
   });

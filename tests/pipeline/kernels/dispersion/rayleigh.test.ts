@@ -21,7 +21,6 @@ function rayleighFromCubic(vp: number, vs: number): number {
 
 
 type C = [number, number];
-const cadd = (a: C, b: C): C => [a[0] + b[0], a[1] + b[1]];
 const csub = (a: C, b: C): C => [a[0] - b[0], a[1] - b[1]];
 const cmul = (a: C, b: C): C => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
 const cdiv = (a: C, b: C): C => {
