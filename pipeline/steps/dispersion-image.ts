@@ -90,6 +90,13 @@ export const dispersionImageParams = z
       .min(1)
       .default(3)
       .describe("The automatic pick stops following the curve after this many frequencies in a row without a clear peak (count)"),
+    /** @default "slowest" */
+    pickPeak: z
+      .enum(["slowest", "strongest"])
+      .default("slowest")
+      .describe(
+        'Which peak the automatic pick takes at each frequency: "slowest" the slowest clear peak (the fundamental mode is the slowest Rayleigh mode; common practice), "strongest" the largest value within the bounds',
+      ),
     /** @default [] */
     handPicks: z
       .array(handPickSchema)
@@ -181,6 +188,7 @@ export const dispersionImageStep = defineStep({
       maxStepFraction: p.pickMaxStepPercent / 100,
       minRelativeValue: p.pickMinRelativeValue,
       maxGapFrequencies: p.pickMaxGapFrequencies,
+      preferSlowest: p.pickPeak === "slowest",
     };
     const result: DispersionSet = { kind: "dispersion", ...axes, normalisation: p.normalisation, windows: [] };
     const skipped: string[] = [];

@@ -26,6 +26,8 @@ export interface PickOptions {
    * curve may have moved further than the continuity limit allows across a gap). Default 3.
    */
   maxGapFrequencies?: number;
+  /** Take the slowest clear peak rather than the strongest (the fundamental mode is the slowest). Default false. */
+  preferSlowest?: boolean;
 }
 
 /** A picked curve: NaN velocity where no pick was made. */
@@ -63,8 +65,8 @@ export function pickDispersionCurve(
   const dc = (velocitiesMps[nc - 1] - velocitiesMps[0]) / (nc - 1);
   const inBand = (q: number) => frequenciesHz[q] >= o.minFrequencyHz && frequenciesHz[q] <= o.maxFrequencyHz;
 
-  /** Best index in [lo, hi] velocity window at row q, with its value, or −1. */
-  const bestIn = (q: number, cLo: number, cHi: number): number => {
+  /** Index of the largest value in the [cLo, cHi] velocity window at row q, or −1. */
+  const strongestIn = (q: number, cLo: number, cHi: number): number => {
     let best = -1;
     let bv = -Infinity;
     for (let j = 0; j < nc; j++) {
@@ -79,8 +81,27 @@ export function pickDispersionCurve(
     return best;
   };
   const rowMax = (q: number) => {
-    const j = bestIn(q, o.minVelocityMps, o.maxVelocityMps);
+    const j = strongestIn(q, o.minVelocityMps, o.maxVelocityMps);
     return j < 0 ? 0 : image[q * nc + j];
+  };
+  /**
+   * The pick candidate in the window: the strongest value, or with `preferSlowest` the slowest
+   * local maximum that reaches minRelativeValue of the row maximum (the fundamental mode is the
+   * slowest of the Rayleigh modes, common practice), else the strongest.
+   */
+  const bestIn = (q: number, cLo: number, cHi: number): number => {
+    if (o.preferSlowest) {
+      const floor = o.minRelativeValue * rowMax(q);
+      for (let j = 0; j < nc; j++) {
+        const c = velocitiesMps[j];
+        if (c < cLo || c > cHi) continue;
+        const v = image[q * nc + j];
+        const left = j > 0 ? image[q * nc + j - 1] : -Infinity;
+        const right = j < nc - 1 ? image[q * nc + j + 1] : -Infinity;
+        if (v > 0 && v >= floor && v >= left && v >= right) return j;
+      }
+    }
+    return strongestIn(q, cLo, cHi);
   };
   const accept = (q: number, j: number): boolean => {
     const v = image[q * nc + j];

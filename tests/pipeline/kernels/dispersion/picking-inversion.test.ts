@@ -58,6 +58,17 @@ describe("automatic dispersion picking", () => {
     }
   });
 
+  it("with preferSlowest takes the slower of two clear modes even where the faster one is stronger", () => {
+    const higher = (x: number) => fundamental(x) + 80;
+    const img = ridgeImage(f, c, [{ curve: fundamental, height: 0.7, widthMps: 10 }, { curve: higher, height: 1, widthMps: 10 }], 0.02, 4);
+    const strongest = pickDispersionCurve(img, f, c, options);
+    const slowest = pickDispersionCurve(img, f, c, { ...options, preferSlowest: true });
+    f.forEach((fq, q) => {
+      expect(Math.abs(slowest.velocitiesMps[q] - fundamental(fq)), `${fq} Hz`).toBeLessThan(1.5);
+      expect(Math.abs(strongest.velocitiesMps[q] - higher(fq)), `${fq} Hz`).toBeLessThan(1.5);
+    });
+  });
+
   it("leaves frequencies without a clear peak unpicked and refuses bad settings", () => {
     const img = ridgeImage(f, c, [{ curve: fundamental, height: 1, widthMps: 10 }], 0, 3);
     // Blank out 30 and 31 Hz: a gap of two frequencies is bridged (default: stop after 3).
@@ -118,6 +129,23 @@ describe("inversion of a dispersion curve for a layered Vs profile", () => {
     expect(r.rmsMisfitMps).toBeGreaterThan(1);
     expect(r.rmsMisfitMps).toBeLessThan(3);
     Array.from(truth.vs).slice(0, 2).forEach((v, i) => expect(Math.abs(r.model.vs[i] / v - 1), `layer ${i}`).toBeLessThan(0.03));
+  });
+
+  it("damping keeps a layer the curve cannot see near its starting value, at no cost to the fit", () => {
+    // Picks from 15 Hz: the longest wavelength is about 17 m, the curve reaches ≈8 m; a fourth
+    // layer from 30 m down lies far below, and the curve hardly depends on its Vs.
+    const fHigh = f.filter((x) => x >= 15);
+    const deep = layeredFromVs([160, 260, 420, 420], [3, 6, 21], 0.3, density);
+    const data = rayleighDispersion(deep, fHigh);
+    const start = [170, 250, 400, 900];
+    const run = (dampingMps: number) =>
+      invertDispersionCurve(fHigh, data, {
+        thicknessM: [3, 6, 21], startVsMps: start, freeThickness: false, poissonRatio: 0.3, density, minVsMps: 50, maxVsMps: 3000, maxIterations: 40, investigationFraction: 0.5, dampingMps,
+      });
+    const damped = run(5);
+    expect(Math.abs(damped.model.vs[3] / 900 - 1)).toBeLessThan(0.05);
+    expect(damped.rmsMisfitMps).toBeLessThan(0.5);
+    Array.from(deep.vs).slice(0, 2).forEach((v, i) => expect(Math.abs(damped.model.vs[i] / v - 1), `layer ${i}`).toBeLessThan(0.02));
   });
 
   it("sets Vp by Poisson's ratio and density by Gardner's rule", () => {
