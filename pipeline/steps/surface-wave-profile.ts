@@ -10,7 +10,8 @@
 import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { DispersionCurve, DispersionSet, VelocityProfile, VelocityProfileSet } from "../types";
-import { invertDispersionCurve, type DensityRule } from "../kernels/dispersion/inversion";
+import { invertDispersionCurve, type CurveInversionOptions, type DensityRule } from "../kernels/dispersion/inversion";
+import type { WorkerPool } from "../workers/pool";
 
 export const surfaceWaveProfileParams = z
   .object({
@@ -104,22 +105,23 @@ export const surfaceWaveProfileStep = defineStep({
     };
     const windows = disp.windows.map((w) => ({ ...w }));
     const skipped: Array<{ window: string; reason: string }> = [];
-    for (let i = 0; i < windows.length; i++) {
-      throwIfAborted(ctx.signal);
-      const w = windows[i];
+    // The windows to invert, each with its curve and settings.
+    const jobs: Array<{ index: number; curve: DispersionCurve; options: CurveInversionOptions }> = [];
+    windows.forEach((w, index) => {
       const curve = curveToInvert(w.picks);
       if (!curve || curve.frequenciesHz.length < p.minPicks) {
         const reason = `${curve ? curve.frequenciesHz.length : 0} picks of mode 0, fewer than minPicks ${p.minPicks}`;
         skipped.push({ window: w.id, reason });
         ctx.log.warn(`window ${w.id}: ${reason}; left out`);
-        continue;
+        return;
       }
       let longest = 0;
       curve.frequenciesHz.forEach((f, k) => (longest = Math.max(longest, curve.velocitiesMps[k] / f)));
       const thicknessM = p.layerThicknessesM.length > 0 ? p.layerThicknessesM : growingThicknesses(p.layerCount, p.investigationFraction * longest);
-      let res;
-      try {
-        res = invertDispersionCurve(curve.frequenciesHz, curve.velocitiesMps, {
+      jobs.push({
+        index,
+        curve,
+        options: {
           thicknessM,
           freeThickness: p.freeThickness,
           poissonRatio: p.poissonRatio,
@@ -129,11 +131,38 @@ export const surfaceWaveProfileStep = defineStep({
           maxIterations: p.maxIterations,
           investigationFraction: p.investigationFraction,
           dampingMps: p.dampingMps,
-        });
-      } catch (err) {
-        if (err instanceof RangeError) throw new StepInputError(`window ${w.id}: ${err.message}`, "dispersion");
-        throw err;
-      }
+        },
+      });
+    });
+    // Several windows and a pool of two or more workers: one window per task, in parallel.
+    const pool = ctx.pool as WorkerPool | undefined;
+    const remote = pool !== undefined && pool.size >= 2 && jobs.length >= 2;
+    let done = 0;
+    const results = await Promise.all(
+      jobs.map(async (job) => {
+        throwIfAborted(ctx.signal);
+        const id = windows[job.index].id;
+        try {
+          const res = remote
+            ? await pool.run(
+                "invertDispersionCurveTask",
+                { frequenciesHz: Float64Array.from(job.curve.frequenciesHz), velocitiesMps: Float64Array.from(job.curve.velocitiesMps), options: job.options },
+                { signal: ctx.signal },
+              )
+            : invertDispersionCurve(job.curve.frequenciesHz, job.curve.velocitiesMps, job.options);
+          ctx.progress(++done / jobs.length, id);
+          return res;
+        } catch (err) {
+          const message = err instanceof Error ? err.message : String(err);
+          if (err instanceof RangeError || (err instanceof Error && err.name === "RangeError")) throw new StepInputError(`window ${id}: ${message}`, "dispersion");
+          throw err;
+        }
+      }),
+    );
+    for (let q = 0; q < jobs.length; q++) {
+      const { index, curve } = jobs[q];
+      const w = windows[index];
+      const res = results[q];
       const modelled: DispersionCurve = { mode: 0, origin: "modelled", frequenciesHz: Float64Array.from(curve.frequenciesHz), velocitiesMps: res.modelledMps };
       w.modelled = modelled;
       const profile: VelocityProfile = {
@@ -154,7 +183,6 @@ export const surfaceWaveProfileStep = defineStep({
       };
       out.profiles.push(profile);
       ctx.log.info(`window ${w.id} at ${w.centreX.toFixed(1)} m: rms misfit ${res.rmsMisfitMps.toFixed(2)} m/s after ${res.iterations} steps; depth of investigation ${res.depthOfInvestigationM.toFixed(1)} m`);
-      ctx.progress((i + 1) / windows.length, w.id);
     }
     if (out.profiles.length === 0) {
       throw new StepInputError(`no window has ${p.minPicks} or more picks of the fundamental mode: pick by hand or widen the pick bounds of dispersion-image`, "minPicks");

@@ -15,6 +15,7 @@ import type { DispersionSet, Gather, GatherSet, VelocityProfileSet } from "../..
 import { makeStepContext } from "../../helpers/step-context";
 import { seededRandom } from "../../helpers/random";
 import { makeGather } from "./make-gather";
+import { createWorkerPool } from "../../../pipeline/workers/pool";
 
 const DT = 0.001;
 const NS = 1000; // 1 s records: whole-hertz components are orthogonal over the record
@@ -138,6 +139,20 @@ describe("surface-wave-profile step and build-model from the profiles", () => {
     expect(over.outputs.model!.vs[cell(2, 39)]).toBe(800);
     expect(over.outputs.model!.vs[cell(2, 1)]).toBeCloseTo(set.profiles[0].vs[0], 3);
   }, 30000);
+
+  it("gives the same profiles through the worker pool (one window per task) as in-process", async () => {
+    const image = await dispersionImageStep.run({ gathers: gathers() }, dispersionImageStep.params.parse({ ...imageSettings, windowReceivers: 24, windowStepReceivers: 24 }), makeStepContext());
+    const params = surfaceWaveProfileStep.params.parse({ layerCount: 3 });
+    const local = await surfaceWaveProfileStep.run({ dispersion: image.outputs.dispersion }, params, makeStepContext());
+    const pool = createWorkerPool(2);
+    try {
+      const remote = await surfaceWaveProfileStep.run({ dispersion: image.outputs.dispersion }, params, makeStepContext({ pool }));
+      // Same kernel, same inputs, same order of operations: identical artifacts.
+      expect(encodeArtifact(remote.outputs.velocityProfiles)).toEqual(encodeArtifact(local.outputs.velocityProfiles));
+    } finally {
+      await pool.close();
+    }
+  }, 60000);
 
   it("build-model keeps today's parameters and cache keys, and asks for profiles when told to use them", async () => {
     const today = buildModelStep.params.parse({ grid: { widthM: 40, depthM: 15 } });
