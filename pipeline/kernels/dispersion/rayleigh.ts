@@ -9,7 +9,9 @@
  * compound-matrix (delta-matrix) idea of Dunkin (1965, BSSA 55): only the 2 × 2 minors of the
  * two-column solution matter. Instead of Dunkin's closed-form 6 × 6 layer matrix, the loss of
  * precision of the Thomson–Haskell product at high frequency is avoided the way Gram–Schmidt
- * orthonormalisation methods do it: each layer is split into sublayers across which no solution
+ * orthonormalisation methods do it (e.g. Wang 1999, BSSA 89, "A simple orthonormalization method
+ * for stable and efficient computation of Green's functions"; reference from memory): each layer
+ * is split into sublayers across which no solution
  * grows by more than e³, and after each sublayer the two columns are orthonormalised with a
  * positive-diagonal factor, which changes the minors by a positive factor only (their zeros and
  * signs stay, so bracketing of roots stays valid).
