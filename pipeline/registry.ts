@@ -17,6 +17,8 @@ import { muteStep } from "./steps/mute";
 import { gainStep } from "./steps/gain";
 import { lineSourceStep } from "./steps/line-source";
 import { spectraStep } from "./steps/spectra";
+import { dispersionImageStep } from "./steps/dispersion-image";
+import { surfaceWaveProfileStep } from "./steps/surface-wave-profile";
 import { buildModelStep } from "./steps/build-model";
 import { forwardModelStep } from "./steps/forward-model";
 import { misfitStep } from "./steps/misfit";
@@ -36,6 +38,8 @@ const STEPS: AnyStepDefinition[] = [
   gainStep,
   lineSourceStep,
   spectraStep,
+  dispersionImageStep,
+  surfaceWaveProfileStep,
   buildModelStep,
   sourceWaveletStep,
   forwardModelStep,

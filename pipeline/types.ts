@@ -236,6 +236,101 @@ export interface JsonDocument {
   data: unknown;
 }
 
+/**
+ * One dispersion curve: phase velocity against frequency for one mode. Picks that were not made
+ * (no clear maximum) are left out, so both arrays have the same length and increase in frequency.
+ */
+export interface DispersionCurve {
+  /** Mode number: 0 the fundamental Rayleigh mode, 1 the first higher mode, ... */
+  mode: number;
+  /** "automatic" (picked by the step), "hand" (given in the step's settings) or "modelled" (a 1D result's forward curve). */
+  origin: "automatic" | "hand" | "modelled";
+  /** Frequencies, Hz. */
+  frequenciesHz: Float64Array;
+  /** Phase velocities, m/s. */
+  velocitiesMps: Float64Array;
+}
+
+/**
+ * Dispersion images by the phase-shift method (Park, Miller & Xia 1998), one per window of
+ * receivers along the line, on shared axes, with their picks. Everything a drawing needs: the
+ * image grid, its axes, the picked curves and, once surface-wave-profile has run, the modelled
+ * curve of each window's 1D result.
+ */
+export interface DispersionSet {
+  kind: "dispersion";
+  /** Frequency axis, Hz (rows of each image). */
+  frequenciesHz: Float64Array;
+  /** Trial phase-velocity axis, m/s (columns of each image). */
+  velocitiesMps: Float64Array;
+  /** "per-frequency": each image row divided by its maximum (values in [0, 1]); "none": mean coherence over the stacked shots, in [0, 1]. */
+  normalisation: "per-frequency" | "none";
+  windows: Array<{
+    /** Stable label, e.g. "W01". */
+    id: string;
+    /** Position of the window along the line (middle of its receivers), m. */
+    centreX: number;
+    /** First and last receiver position of the window, m. */
+    receiverX0: number;
+    receiverX1: number;
+    /** Gathers (shots) that contributed, and how many traces in all. */
+    gatherIds: string[];
+    traceCount: number;
+    /** Smallest and largest |offset| used, m. */
+    minOffsetM: number;
+    maxOffsetM: number;
+    /** Image, flat `[frequency][velocity]`, frequencies × velocities values. */
+    image: Float32Array;
+    /**
+     * Picked curves: the automatic fundamental-mode pick, and hand picks from the step's settings
+     * when given (the inversion uses the hand pick of mode 0 when there is one).
+     */
+    picks: DispersionCurve[];
+    /** Forward-modelled curve of this window's 1D Vs result (written by surface-wave-profile). */
+    modelled?: DispersionCurve;
+  }>;
+}
+
+/** One 1D layered profile from the inversion of a window's dispersion curve. */
+export interface VelocityProfile {
+  /** Window id in the `dispersion` slot, e.g. "W01". */
+  windowId: string;
+  /** Position along the line, m. */
+  centreX: number;
+  /** Layer thicknesses, m, top down; the last entry (the half-space) is 0. */
+  thicknessM: Float64Array;
+  /** S velocity per layer (last: half-space), m/s. */
+  vs: Float64Array;
+  /** P velocity per layer from Vs by the step's rule, m/s. */
+  vp: Float64Array;
+  /** Density per layer by the step's rule, kg/m³. */
+  rho: Float64Array;
+  /** The curve inverted (hand or automatic pick of mode 0). */
+  observed: DispersionCurve;
+  /** The 1D result's forward curve at the observed frequencies. */
+  modelled: DispersionCurve;
+  /** Root-mean-square of modelled − observed, m/s. */
+  rmsMisfitMps: number;
+  /** rms misfit after each accepted model update (first: the starting model), m/s. */
+  misfitHistoryMps: number[];
+  iterations: number;
+  converged: boolean;
+  /** Longest wavelength picked, m. */
+  longestWavelengthM: number;
+  /** Depth the curve constrains, m: a set fraction (a third to a half, common practice) of the longest wavelength. */
+  depthOfInvestigationM: number;
+}
+
+/** 1D Vs profiles along the line from surface-wave dispersion, with their fits. */
+export interface VelocityProfileSet {
+  kind: "velocity-profiles";
+  /** How Vp was set from Vs, in words (e.g. "Poisson's ratio 0.3"). */
+  vpRule: string;
+  /** How density was set, in words (e.g. "constant 1800 kg/m³" or "Gardner et al. 1974"). */
+  densityRule: string;
+  profiles: VelocityProfile[];
+}
+
 /** Every slot a pipeline carries, by name. A step declares which it reads and writes. */
 export interface SlotValues {
   /** Raw field files of the dataset (filled by the runner). */
@@ -262,6 +357,10 @@ export interface SlotValues {
   report: JsonDocument;
   /** Velocity from first-arrival travel-time tomography, with ray coverage and fit. */
   tomogram: Tomogram;
+  /** Dispersion images with picks (dispersion-image; modelled curves added by surface-wave-profile). */
+  dispersion: DispersionSet;
+  /** 1D Vs profiles from the dispersion curves (surface-wave-profile). */
+  velocityProfiles: VelocityProfileSet;
 }
 
 export type SlotName = keyof SlotValues;

@@ -3,15 +3,17 @@
  * file: layers with vertical gradients, then shapes with their own properties (rectangles,
  * ellipses, polygons: a backfilled trench, a void, a boulder), or a CSV grid given inline
  * (`csvGrid`, columns x, z, vp, vs, rho; files are read by the CLI with modelFromCsv) with shapes
- * drawn on top. Cells are checked before the model is written: Vs > 0, Vp/Vs > √2, density > 0.
+ * drawn on top, or (`from`) the 1D Vs profiles of surface-wave-profile interpolated along the line.
+ * Cells are checked before the model is written: Vs > 0, Vp/Vs > √2, density > 0.
  */
 import { z } from "zod";
 import { defineStep, StepInputError } from "../step";
-import type { ElasticModel, GatherSet } from "../types";
+import type { ElasticModel, GatherSet, VelocityProfileSet } from "../types";
 import { checkModelCells } from "../kernels/fd/checks";
 import { FdSetupError } from "../kernels/fd/errors";
 import { buildModel, countShapeCells, modelFromCsv, paintShapes, shapeBounds, type GridDescription, type ShapeDescription } from "../kernels/fd/model-grid";
 import { AppError } from "../errors";
+import { profilesToModel } from "../kernels/dispersion/profile-section";
 
 const velocity = (what: string) => z.number().describe(`${what}, m/s`);
 const density = z.number().describe("Density, kg/m³");
@@ -84,10 +86,22 @@ export const buildModelParams = z
       .string()
       .optional()
       .describe("Inline CSV grid with header x,z,vp,vs,rho (m, m/s, kg/m³) used instead of grid and layers; shapes are drawn on top"),
+    /**
+     * Where the background comes from. Optional rather than defaulted so that the cache keys of
+     * pipelines written before it existed stay as they were.
+     * @default "layers"
+     */
+    from: z
+      .enum(["layers", "velocity-profiles", "velocity-profiles-over-layers"])
+      .optional()
+      .describe(
+        'Background of the grid (default "layers"): "layers" the typed layers; "velocity-profiles" the 1D Vs profiles of surface-wave-profile interpolated along the line, each continued below its depth of investigation from its value there; "velocity-profiles-over-layers" the profiles down to their depth of investigation and the typed layers below. Shapes are drawn on top in every case',
+      ),
   })
   .superRefine((p, ctx) => {
     const issue = (path: (string | number)[], message: string) => ctx.addIssue({ code: "custom", path, message });
     const g = p.grid;
+    if (p.csvGrid && p.from !== undefined && p.from !== "layers") issue(["from"], `from "${p.from}" cannot be combined with csvGrid`);
     if (!p.csvGrid) {
       if (g.widthM === undefined && g.nx === undefined && !g.fromSpread) issue(["grid", "widthM"], "give grid.widthM, grid.nx or grid.fromSpread");
       if (g.depthM === undefined && g.nz === undefined) issue(["grid", "depthM"], "give grid.depthM or grid.nz");
@@ -168,14 +182,26 @@ export function resolveGrid(p: BuildModelParams, gathers?: GatherSet): GridDescr
   return { originX, originZ: g.originZM, spacingM: h, nx, nz };
 }
 
+/** The background from the 1D profiles of surface-wave-profile (see profilesToModel). */
+function modelFromProfiles(set: VelocityProfileSet | undefined, grid: GridDescription, below?: ElasticModel): ElasticModel {
+  if (!set || set.profiles.length === 0) {
+    throw new StepInputError('from "velocity-profiles" needs the 1D profiles of a surface-wave-profile step earlier in the pipeline.', "from");
+  }
+  return profilesToModel(
+    set.profiles.map((pr) => ({ x: pr.centreX, thicknessM: pr.thicknessM, vp: pr.vp, vs: pr.vs, rho: pr.rho, depthOfInvestigationM: pr.depthOfInvestigationM })),
+    grid,
+    below,
+  );
+}
+
 export const buildModelStep = defineStep({
   id: "build-model",
   version: 1,
   title: "Build model",
   description:
-    "Builds an elastic model grid (Vp, Vs, density on a regular grid with origin and spacing) from layers with vertical gradients and shapes (rectangle, ellipse, polygon) with their own properties, or from an inline CSV grid (x, z, vp, vs, rho). Refuses cells with Vs ≤ 0, Vp/Vs ≤ √2 or density ≤ 0, naming the cell.",
+    "Builds an elastic model grid (Vp, Vs, density on a regular grid with origin and spacing) from layers with vertical gradients and shapes (rectangle, ellipse, polygon) with their own properties, or from an inline CSV grid (x, z, vp, vs, rho), or from the surface-wave 1D profiles along the line (optionally over the layers below their depth of investigation). Refuses cells with Vs ≤ 0, Vp/Vs ≤ √2 or density ≤ 0, naming the cell.",
   reads: [],
-  optionalReads: ["gathers"],
+  optionalReads: ["gathers", "velocityProfiles"],
   writes: ["model"],
   params: buildModelParams,
   async run(input, p, ctx) {
@@ -192,6 +218,9 @@ export const buildModelStep = defineStep({
     } else {
       grid = resolveGrid(p, input.gathers);
       model = buildModel(grid, p.layers, []);
+      if (p.from === "velocity-profiles" || p.from === "velocity-profiles-over-layers") {
+        model = modelFromProfiles(input.velocityProfiles, grid, p.from === "velocity-profiles-over-layers" ? model : undefined);
+      }
     }
     const shapes = p.shapes as ShapeDescription[];
     shapes.forEach((s, i) => {
@@ -220,6 +249,7 @@ export const buildModelStep = defineStep({
       summary: {
         nx: model.nx, nz: model.nz, spacingM: model.spacingM, originX: model.originX, originZ: model.originZ,
         vpMax, vsMin, vsMax, shapes: shapes.length,
+        ...(p.from ? { from: p.from } : {}),
       },
     };
   },

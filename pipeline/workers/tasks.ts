@@ -152,3 +152,12 @@ import { shotGradient, type ShotGradientInput } from "../kernels/fwi/shot-gradie
 export function shotGradientTask(arg: ShotGradientInput) {
   return shotGradient(arg);
 }
+
+// ---- Surface-wave profiles: one window's dispersion curve inverted per task ----
+
+import { invertDispersionCurve, type CurveInversionOptions, type CurveInversionResult } from "../kernels/dispersion/inversion";
+
+/** Inverts one picked dispersion curve for a layered Vs profile (see kernels/dispersion/inversion.ts). */
+export function invertDispersionCurveTask(arg: { frequenciesHz: Float64Array; velocitiesMps: Float64Array; options: CurveInversionOptions }): CurveInversionResult {
+  return invertDispersionCurve(arg.frequenciesHz, arg.velocitiesMps, arg.options);
+}
