@@ -56,6 +56,8 @@ export interface SimulationOptions {
   pmlSmoothingCells?: number;
   /** When this shared flag becomes non-zero the run stops with an AbortError (checked every 64 steps). */
   cancelFlag?: Int32Array;
+  /** Shared progress: element 0 receives the number of steps done at each cancel check (every 64 steps). */
+  stepCounter?: Int32Array;
 }
 
 /** Positions of one shot, m (z positive down). */
@@ -501,12 +503,16 @@ export function throwIfCancelled(flag: Int32Array | undefined): void {
 
 /**
  * The time loop: `steps` kernel steps with hooks before and after each, the shared cancel flag
- * checked every 64 steps (an AbortError then).
+ * checked every 64 steps (an AbortError then), the steps done so far stored in `stepCounter`
+ * at each check.
  */
-export function runTimeSteps(kernel: FdKernel, steps: number, hooks: StepHooks, cancelFlag?: Int32Array): void {
+export function runTimeSteps(kernel: FdKernel, steps: number, hooks: StepHooks, cancelFlag?: Int32Array, stepCounter?: Int32Array): void {
   const { beforeStep, afterStep } = hooks;
   for (let n = 0; n < steps; n++) {
-    if ((n & 63) === 0) throwIfCancelled(cancelFlag);
+    if ((n & 63) === 0) {
+      if (stepCounter) Atomics.store(stepCounter, 0, n);
+      throwIfCancelled(cancelFlag);
+    }
     beforeStep?.(n);
     kernel.step();
     afterStep?.(n);
@@ -596,7 +602,9 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
       },
     },
     opts.cancelFlag,
+    opts.stepCounter,
   );
+  if (opts.stepCounter) Atomics.store(opts.stepCounter, 0, steps);
 
   return {
     traces: resampleRecords(raw, nrec, steps, dt, setup.output),
