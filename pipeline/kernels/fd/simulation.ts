@@ -10,7 +10,7 @@ import type { ElasticModel } from "../../types";
 import { checkGridAccuracy, checkModelCells, chooseTimeStep } from "./checks";
 import { planLayout, type FdLayout, type WaveMode } from "./layout";
 import { FLUSH_BELOW, createReferenceKernel, type FdKernel } from "./reference-kernel";
-import { resampleBandLimited, resampleBandLimitedTranspose } from "../resample";
+import { resampleBandLimitedTraces, resampleBandLimitedTranspose } from "../resample";
 import { FdSetupError } from "./errors";
 import { ricker, sampleWavelet, waveletBand, type SourceWavelet } from "./wavelet";
 import { createWasmKernel } from "./wasm-kernel";
@@ -526,9 +526,7 @@ export const rawStartS = (dt: number) => 0.5 * dt;
 export function resampleRecords(raw: Float32Array, nrec: number, steps: number, dt: number, output: FdSetup["output"]): Float32Array {
   const { intervalS, count, startTimeS } = output;
   const traces = new Float32Array(nrec * count);
-  for (let r = 0; r < nrec; r++) {
-    resampleBandLimited(raw, rawStartS(dt), dt, startTimeS, intervalS, count, traces, r * count, r * steps, steps);
-  }
+  resampleBandLimitedTraces(raw, rawStartS(dt), dt, startTimeS, intervalS, count, traces, steps, nrec);
   return traces;
 }
 
@@ -539,9 +537,7 @@ export function resampleRecords(raw: Float32Array, nrec: number, steps: number, 
 export function resampleRecordsTranspose(traces: ArrayLike<number>, nrec: number, steps: number, dt: number, output: FdSetup["output"]): Float64Array {
   const { intervalS, count, startTimeS } = output;
   const raw = new Float64Array(nrec * steps);
-  for (let r = 0; r < nrec; r++) {
-    resampleBandLimitedTranspose(traces, rawStartS(dt), dt, startTimeS, intervalS, count, raw, r * steps, steps, r * count);
-  }
+  resampleBandLimitedTranspose(traces, rawStartS(dt), dt, startTimeS, intervalS, count, raw, steps, nrec);
   return raw;
 }
 

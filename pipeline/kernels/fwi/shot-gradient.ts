@@ -310,31 +310,37 @@ export function shotGradient(input: ShotGradientInput): ShotGradientOutput {
    */
   const row0 = layout.org;
   const row1 = layout.org + r;
+  const o = layout.offsets;
+  const [f0, f1, f2, f3, f4, m0, m1, m2, m3, m4] = [o.f0, o.f1, o.f2, o.f3, o.f4, o.m0, o.m1, o.m2, o.m3, o.m4];
   const surfaceCorrection = (half: "velocity" | "stress") => {
-    const o = layout.offsets;
-    for (let i = 0; i < layout.nx; i++) {
-      if (mode === "psv") {
-        const [vx, vz, sxx, szz, sxz] = [o.f0, o.f1, o.f2, o.f3, o.f4];
-        if (half === "velocity") {
-          mem[vx + row1 + i] = f32(mem[vx + row1 + i] - f32(mem[o.m0 + row1 + i] * f32(c2 * mem[sxz + row0 + i])));
-          mem[vz + row0 + i] = f32(mem[vz + row0 + i] - f32(mem[o.m1 + row0 + i] * f32(c2 * mem[szz + row1 + i])));
-        } else {
-          const pvx = mem[vx + row1 + i];
-          const pvz = mem[vz + row0 + i];
-          mem[sxz + row0 + i] = f32(mem[sxz + row0 + i] - f32(mem[o.m4 + row0 + i] * f32(c2 * pvx)));
-          mem[sxx + row1 + i] = f32(mem[sxx + row1 + i] - f32(mem[o.m3 + row1 + i] * f32(c2 * pvz)));
-          mem[szz + row1 + i] = f32(mem[szz + row1 + i] - f32(mem[o.m2 + row1 + i] * f32(c2 * pvz)));
-          mem[szz + row0 - r + i] = -mem[szz + row1 + i];
-          mem[sxz + row0 - r + i] = -mem[sxz + row0 + i];
+    const ncol = layout.nx;
+    if (mode === "psv") {
+      // f0 vx, f1 vz, f2 σxx, f3 σzz, f4 σxz; m0, m1 buoyancies, m2 λ+2μ, m3 λ, m4 μ (all × dt/h).
+      if (half === "velocity") {
+        for (let i = 0; i < ncol; i++) {
+          mem[f0 + row1 + i] = f32(mem[f0 + row1 + i] - f32(mem[m0 + row1 + i] * f32(c2 * mem[f4 + row0 + i])));
+          mem[f1 + row0 + i] = f32(mem[f1 + row0 + i] - f32(mem[m1 + row0 + i] * f32(c2 * mem[f3 + row1 + i])));
         }
       } else {
-        const [vy, syz] = [o.f0, o.f2];
-        if (half === "velocity") {
-          mem[vy + row1 + i] = f32(mem[vy + row1 + i] - f32(mem[o.m0 + row1 + i] * f32(c2 * mem[syz + row0 + i])));
-        } else {
-          mem[syz + row0 + i] = f32(mem[syz + row0 + i] - f32(mem[o.m2 + row0 + i] * f32(c2 * mem[vy + row1 + i])));
-          mem[syz + row0 - r + i] = -mem[syz + row0 + i];
+        for (let i = 0; i < ncol; i++) {
+          const pvx = mem[f0 + row1 + i];
+          const pvz = mem[f1 + row0 + i];
+          mem[f4 + row0 + i] = f32(mem[f4 + row0 + i] - f32(mem[m4 + row0 + i] * f32(c2 * pvx)));
+          mem[f2 + row1 + i] = f32(mem[f2 + row1 + i] - f32(mem[m3 + row1 + i] * f32(c2 * pvz)));
+          mem[f3 + row1 + i] = f32(mem[f3 + row1 + i] - f32(mem[m2 + row1 + i] * f32(c2 * pvz)));
+          mem[f3 + row0 - r + i] = -mem[f3 + row1 + i];
+          mem[f4 + row0 - r + i] = -mem[f4 + row0 + i];
         }
+      }
+    } else if (half === "velocity") {
+      // f0 vy, f2 σyz; m0 buoyancy, m2 μ on σyz.
+      for (let i = 0; i < ncol; i++) {
+        mem[f0 + row1 + i] = f32(mem[f0 + row1 + i] - f32(mem[m0 + row1 + i] * f32(c2 * mem[f2 + row0 + i])));
+      }
+    } else {
+      for (let i = 0; i < ncol; i++) {
+        mem[f2 + row0 + i] = f32(mem[f2 + row0 + i] - f32(mem[m2 + row0 + i] * f32(c2 * mem[f0 + row1 + i])));
+        mem[f2 + row0 - r + i] = -mem[f2 + row0 + i];
       }
     }
   };
