@@ -21,7 +21,7 @@
  * receivers with B·W⁻¹·Pᵀ·Rᵀ·∂J/∂d (the transpose of read-out and resampling of the adjoint
  * source ∂J/∂d from misfitAndAdjoint). So the adjoint solve uses the same WebAssembly kernel,
  * with two terms per surface column taken out around each step (where a stress image above the
- * free surface meets the c2 = −1/24 coefficient; see `surfaceCorrection`). What is not exactly
+ * free surface meets the c2 = −1/24 coefficient; see `surfaceCorrectionPsv`). What is not exactly
  * transposed: the memory terms of the absorbing strips (waves there leave the model).
  *
  * Gradients with respect to the solver's coefficients (sums over the steps n):
@@ -499,7 +499,9 @@ export function shotGradient(input: ShotGradientInput): ShotGradientOutput {
       for (let k = 0; k < cells; k++) illum[k] += store[at + k] * store[at + k];
     }
   }
-  result.illumination = Float32Array.from(illum, (x) => x * K * dt);
+  const illumination = new Float32Array(cells);
+  for (let k = 0; k < cells; k++) illumination[k] = illum[k] * K * dt;
+  result.illumination = illumination;
   result.adjointSolves = 1;
 
   // ---- Adjoint source at the solver's steps: Rᵀ·∂J/∂d, scaled to a peak of 1 (undone at the end) ----
