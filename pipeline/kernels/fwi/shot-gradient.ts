@@ -366,28 +366,36 @@ function toModelGradient(model: ElasticModel, mode: WaveMode, surface: boolean, 
   const gRho = new Float64Array(cells);
   const muOf = (k: number) => model.rho[k] * model.vs[k] * model.vs[k];
   const cl = (mz: number, mx: number) => Math.min(nz - 1, mz) * nx + Math.min(nx - 1, mx);
-  /** μ_h = n / Σ 1/μ_q; ∂μ_h/∂μ_q = μ_h² / (n μ_q²). */
-  const harmonic = (ks: number[], grad: number) => {
-    let inv = 0;
-    for (const k of ks) inv += 1 / muOf(k);
-    const mh = ks.length / inv;
-    for (const k of ks) gMu[k] += (grad * s * mh * mh) / (ks.length * muOf(k) ** 2);
+  /** μ_h = n / Σ 1/μ_q over the n cells a, b (, c, d); ∂μ_h/∂μ_q = μ_h² / (n μ_q²). */
+  const harmonic = (grad: number, a: number, b: number, c = -1, d = -1) => {
+    const n = c < 0 ? 2 : 4;
+    const ma = muOf(a);
+    const mb = muOf(b);
+    const mc = c < 0 ? 0 : muOf(c);
+    const md = d < 0 ? 0 : muOf(d);
+    const mh = n / (1 / ma + 1 / mb + (c < 0 ? 0 : 1 / mc + 1 / md));
+    const f = (grad * s * mh * mh) / n;
+    gMu[a] += f / (ma * ma);
+    gMu[b] += f / (mb * mb);
+    if (c >= 0) {
+      gMu[c] += f / (mc * mc);
+      gMu[d] += f / (md * md);
+    }
   };
-  /** Buoyancy dt/(h·ρ̄) of a velocity point, ρ̄ the mean of cells ks: ∂B/∂ρ̄ = −B/ρ̄. */
-  const buoyancy = (ks: number[], grad: number) => {
-    let rbar = 0;
-    for (const k of ks) rbar += model.rho[k];
-    rbar /= ks.length;
+  /** Buoyancy dt/(h·ρ̄) of a velocity point, ρ̄ the mean of cells a and b: ∂B/∂ρ̄ = −B/ρ̄. */
+  const buoyancy = (grad: number, a: number, b: number) => {
+    const rbar = (model.rho[a] + model.rho[b]) / 2;
     const dRbar = (-grad * (s / rbar)) / rbar;
-    for (const k of ks) gRho[k] += dRbar / ks.length;
+    gRho[a] += dRbar / 2;
+    gRho[b] += dRbar / 2;
   };
   for (let mz = 0; mz < nz; mz++) {
     for (let mx = 0; mx < nx; mx++) {
       const k = mz * nx + mx;
       if (mode === "psv") {
         const [gM, gL, gS] = g.stiffness;
-        buoyancy([k, cl(mz, mx + 1)], g.buoyancy[0][k]);
-        buoyancy([k, cl(mz + 1, mx)], g.buoyancy[1][k]);
+        buoyancy(g.buoyancy[0][k], k, cl(mz, mx + 1));
+        buoyancy(g.buoyancy[1][k], k, cl(mz + 1, mx));
         const lam = model.rho[k] * (model.vp[k] ** 2 - 2 * model.vs[k] ** 2);
         const mu = muOf(k);
         if (surface && mz === 0) {
@@ -398,11 +406,11 @@ function toModelGradient(model: ElasticModel, mode: WaveMode, surface: boolean, 
           gLam[k] += s * (gM[k] + gL[k]);
           gMu[k] += 2 * s * gM[k];
         }
-        harmonic([k, cl(mz, mx + 1), cl(mz + 1, mx), cl(mz + 1, mx + 1)], gS[k]);
+        harmonic(gS[k], k, cl(mz, mx + 1), cl(mz + 1, mx), cl(mz + 1, mx + 1));
       } else {
-        buoyancy([k], g.buoyancy[0][k]);
-        harmonic([k, cl(mz, mx + 1)], g.stiffness[0][k]);
-        harmonic([k, cl(mz + 1, mx)], g.stiffness[1][k]);
+        buoyancy(g.buoyancy[0][k], k, k);
+        harmonic(g.stiffness[0][k], k, cl(mz, mx + 1));
+        harmonic(g.stiffness[1][k], k, cl(mz + 1, mx));
       }
     }
   }
