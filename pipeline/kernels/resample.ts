@@ -177,11 +177,58 @@ export function resampleBandLimited(
 }
 
 /**
- * Transpose of {@link resampleBandLimited} as a linear map from the `srcLength` input samples to
- * the `count` output samples: adds to `srcOut[srcOffset + n]` the sum over output samples k of
- * weight(k, n)·`dst[dstOffset + k]`, with exactly the weights the forward map uses. The inversion
- * injects an adjoint source given at the output sampling through it, so the gradient is that of
- * the resampled traces (the adjoint of a linear operator is its transpose).
+ * {@link resampleBandLimited} of `traceCount` traces at once, flat `[trace][sample]` on both sides
+ * (`srcLength` input samples per trace), the weights computed once per output sample: the same
+ * float64 operations in the same order, so the same samples.
+ */
+export function resampleBandLimitedTraces(
+  src: ArrayLike<number>,
+  srcStartS: number,
+  srcDtS: number,
+  dstStartS: number,
+  dstDtS: number,
+  count: number,
+  out: Float32Array | Float64Array,
+  srcLength: number,
+  traceCount: number,
+): Float32Array | Float64Array {
+  if (!(srcDtS > 0)) throw new RangeError(`srcDtS must be > 0, got ${srcDtS}`);
+  if (!(dstDtS > 0)) throw new RangeError(`dstDtS must be > 0, got ${dstDtS}`);
+  if (!Number.isInteger(count) || count < 0) throw new RangeError(`count must be an integer ≥ 0, got ${count}`);
+  if (out.length < traceCount * count) throw new RangeError(`out too short: ${out.length} < ${traceCount * count}`);
+  if (src.length < traceCount * srcLength) throw new RangeError(`src too short: ${src.length} < ${traceCount * srcLength}`);
+  const period = Math.max(srcDtS, dstDtS);
+  const gain = srcDtS / period;
+  const halfWidth = LANCZOS_LOBES * period;
+  const span = 2 * Math.ceil(halfWidth / srcDtS) + 2;
+  const w1 = new Float64Array(span);
+  const w2 = new Float64Array(span);
+  for (let k = 0; k < count; k++) {
+    const t = dstStartS + k * dstDtS;
+    const lo = Math.max(0, Math.ceil((t - halfWidth - srcStartS) / srcDtS));
+    const hi = Math.min(srcLength - 1, Math.floor((t + halfWidth - srcStartS) / srcDtS));
+    for (let n = lo; n <= hi; n++) {
+      const x = (t - (srcStartS + n * srcDtS)) / period;
+      w1[n - lo] = sinc(x);
+      w2[n - lo] = sinc(x / LANCZOS_LOBES);
+    }
+    for (let tr = 0; tr < traceCount; tr++) {
+      const base = tr * srcLength;
+      let s = 0;
+      for (let n = lo; n <= hi; n++) s += src[base + n] * w1[n - lo] * w2[n - lo];
+      out[tr * count + k] = s * gain;
+    }
+  }
+  return out;
+}
+
+/**
+ * Transpose of {@link resampleBandLimited} as a linear map from `srcLength` input samples to
+ * `count` output samples, for `traceCount` traces at once: adds to `srcOut[t·srcLength + n]` the
+ * sum over output samples k of weight(k, n)·`dst[t·count + k]`, with exactly the weights the
+ * forward map uses (computed once per output sample). The inversion injects an adjoint source
+ * given at the output sampling through it, so the gradient is that of the resampled traces (the
+ * adjoint of a linear operator is its transpose).
  */
 export function resampleBandLimitedTranspose(
   dst: ArrayLike<number>,
@@ -191,27 +238,31 @@ export function resampleBandLimitedTranspose(
   dstDtS: number,
   count: number,
   srcOut: Float64Array | Float32Array,
-  srcOffset: number,
   srcLength: number,
-  dstOffset = 0,
+  traceCount = 1,
 ): Float64Array | Float32Array {
   if (!(srcDtS > 0)) throw new RangeError(`srcDtS must be > 0, got ${srcDtS}`);
   if (!(dstDtS > 0)) throw new RangeError(`dstDtS must be > 0, got ${dstDtS}`);
   if (!Number.isInteger(count) || count < 0) throw new RangeError(`count must be an integer ≥ 0, got ${count}`);
-  if (dst.length < dstOffset + count) throw new RangeError(`dst too short: ${dst.length} < ${dstOffset + count}`);
-  if (srcOut.length < srcOffset + srcLength) throw new RangeError(`srcOut too short: ${srcOut.length} < ${srcOffset + srcLength}`);
+  if (dst.length < traceCount * count) throw new RangeError(`dst too short: ${dst.length} < ${traceCount * count}`);
+  if (srcOut.length < traceCount * srcLength) throw new RangeError(`srcOut too short: ${srcOut.length} < ${traceCount * srcLength}`);
   const period = Math.max(srcDtS, dstDtS);
   const gain = srcDtS / period;
   const halfWidth = LANCZOS_LOBES * period;
+  const weights = new Float64Array(2 * Math.ceil(halfWidth / srcDtS) + 2);
   for (let k = 0; k < count; k++) {
-    const a = dst[dstOffset + k];
-    if (a === 0) continue;
     const t = dstStartS + k * dstDtS;
     const lo = Math.max(0, Math.ceil((t - halfWidth - srcStartS) / srcDtS));
     const hi = Math.min(srcLength - 1, Math.floor((t + halfWidth - srcStartS) / srcDtS));
     for (let n = lo; n <= hi; n++) {
       const x = (t - (srcStartS + n * srcDtS)) / period;
-      srcOut[srcOffset + n] += a * gain * sinc(x) * sinc(x / LANCZOS_LOBES);
+      weights[n - lo] = gain * sinc(x) * sinc(x / LANCZOS_LOBES);
+    }
+    for (let tr = 0; tr < traceCount; tr++) {
+      const a = dst[tr * count + k];
+      if (a === 0) continue;
+      const base = tr * srcLength;
+      for (let n = lo; n <= hi; n++) srcOut[base + n] += a * weights[n - lo];
     }
   }
   return srcOut;

@@ -130,10 +130,25 @@ export function spectraTraceBlock(arg: {
 
 import { simulateShot, timeKernelSteps, type ShotPositions, type SimulationOptions } from "../kernels/fd/simulation";
 import type { ElasticModel } from "../types";
+import { shotGradient, type ShotGradientInput, type ShotGradientOutput } from "../kernels/fwi/shot-gradient";
 
 /** Models one shot (pipeline/kernels/fd/simulation.ts); traces `[receiver][sample]` come back. */
 export function modelShotTask(arg: { model: ElasticModel; shot: ShotPositions; options: SimulationOptions }) {
   return simulateShot(arg.model, arg.shot, arg.options);
+}
+
+/**
+ * Misfit, synthetics and (when asked) the adjoint-state gradient of one shot
+ * (pipeline/kernels/fwi/shot-gradient.ts). The result's arrays (synthetics, per-trace misfits,
+ * gradients, illumination) move back to the caller instead of being copied.
+ */
+export function shotGradientTask(arg: ShotGradientInput): ShotGradientOutput {
+  const out = shotGradient(arg);
+  const arrays = [out.synthetic, out.traceMisfits, out.gradient?.vp, out.gradient?.vs, out.gradient?.rho, out.illumination];
+  const buffers = arrays.filter((a) => a !== undefined).map((a) => a.buffer as ArrayBuffer);
+  // A Transferable in piscina's sense: the value, and the buffers to move with it.
+  const movable = { [Piscina.transferableSymbol]: buffers, [Piscina.valueSymbol]: out } as unknown as Parameters<typeof Piscina.move>[0];
+  return Piscina.move(movable) as unknown as ShotGradientOutput;
 }
 
 /** Times solver steps on a homogeneous model in this worker (the solver bench). */

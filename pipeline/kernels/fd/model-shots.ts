@@ -108,8 +108,13 @@ export async function modelShots(
         cancelFlag: cancel,
       };
       const shot = shotPositions(t);
+      // With the shared cancel flag a running shot stops itself within 64 steps and its worker stays
+      // up; the signal goes to the pool only where there is no flag (it ends the worker thread).
       const res = control.pool
-        ? await control.pool.run("modelShotTask", { model, shot, options: opts }, { signal: control.signal })
+        ? await control.pool.run("modelShotTask", { model, shot, options: opts }, cancel ? undefined : { signal: control.signal }).catch((err: unknown) => {
+            aborted();
+            throw err;
+          })
         : simulateShot(model, shot, opts);
       done++;
       control.onShot?.(done, templates.length, t.id);

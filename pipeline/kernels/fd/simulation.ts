@@ -10,7 +10,7 @@ import type { ElasticModel } from "../../types";
 import { checkGridAccuracy, checkModelCells, chooseTimeStep } from "./checks";
 import { planLayout, type FdLayout, type WaveMode } from "./layout";
 import { FLUSH_BELOW, createReferenceKernel, type FdKernel } from "./reference-kernel";
-import { resampleBandLimited, resampleBandLimitedTranspose } from "../resample";
+import { resampleBandLimitedTraces, resampleBandLimitedTranspose } from "../resample";
 import { FdSetupError } from "./errors";
 import { ricker, sampleWavelet, waveletBand, type SourceWavelet } from "./wavelet";
 import { createWasmKernel } from "./wasm-kernel";
@@ -56,6 +56,8 @@ export interface SimulationOptions {
   pmlSmoothingCells?: number;
   /** When this shared flag becomes non-zero the run stops with an AbortError (checked every 64 steps). */
   cancelFlag?: Int32Array;
+  /** Shared progress: element 0 receives the number of steps done at each cancel check (every 64 steps). */
+  stepCounter?: Int32Array;
 }
 
 /** Positions of one shot, m (z positive down). */
@@ -501,12 +503,16 @@ export function throwIfCancelled(flag: Int32Array | undefined): void {
 
 /**
  * The time loop: `steps` kernel steps with hooks before and after each, the shared cancel flag
- * checked every 64 steps (an AbortError then).
+ * checked every 64 steps (an AbortError then), the steps done so far stored in `stepCounter`
+ * at each check.
  */
-export function runTimeSteps(kernel: FdKernel, steps: number, hooks: StepHooks, cancelFlag?: Int32Array): void {
+export function runTimeSteps(kernel: FdKernel, steps: number, hooks: StepHooks, cancelFlag?: Int32Array, stepCounter?: Int32Array): void {
   const { beforeStep, afterStep } = hooks;
   for (let n = 0; n < steps; n++) {
-    if ((n & 63) === 0) throwIfCancelled(cancelFlag);
+    if ((n & 63) === 0) {
+      if (stepCounter) Atomics.store(stepCounter, 0, n);
+      throwIfCancelled(cancelFlag);
+    }
     beforeStep?.(n);
     kernel.step();
     afterStep?.(n);
@@ -520,9 +526,7 @@ export const rawStartS = (dt: number) => 0.5 * dt;
 export function resampleRecords(raw: Float32Array, nrec: number, steps: number, dt: number, output: FdSetup["output"]): Float32Array {
   const { intervalS, count, startTimeS } = output;
   const traces = new Float32Array(nrec * count);
-  for (let r = 0; r < nrec; r++) {
-    resampleBandLimited(raw, rawStartS(dt), dt, startTimeS, intervalS, count, traces, r * count, r * steps, steps);
-  }
+  resampleBandLimitedTraces(raw, rawStartS(dt), dt, startTimeS, intervalS, count, traces, steps, nrec);
   return traces;
 }
 
@@ -533,9 +537,7 @@ export function resampleRecords(raw: Float32Array, nrec: number, steps: number, 
 export function resampleRecordsTranspose(traces: ArrayLike<number>, nrec: number, steps: number, dt: number, output: FdSetup["output"]): Float64Array {
   const { intervalS, count, startTimeS } = output;
   const raw = new Float64Array(nrec * steps);
-  for (let r = 0; r < nrec; r++) {
-    resampleBandLimitedTranspose(traces, rawStartS(dt), dt, startTimeS, intervalS, count, raw, r * steps, steps, r * count);
-  }
+  resampleBandLimitedTranspose(traces, rawStartS(dt), dt, startTimeS, intervalS, count, raw, steps, nrec);
   return raw;
 }
 
@@ -596,7 +598,9 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
       },
     },
     opts.cancelFlag,
+    opts.stepCounter,
   );
+  if (opts.stepCounter) Atomics.store(opts.stepCounter, 0, steps);
 
   return {
     traces: resampleRecords(raw, nrec, steps, dt, setup.output),

@@ -21,7 +21,7 @@
  * receivers with B·W⁻¹·Pᵀ·Rᵀ·∂J/∂d (the transpose of read-out and resampling of the adjoint
  * source ∂J/∂d from misfitAndAdjoint). So the adjoint solve uses the same WebAssembly kernel,
  * with two terms per surface column taken out around each step (where a stress image above the
- * free surface meets the c2 = −1/24 coefficient; see `surfaceCorrection`). What is not exactly
+ * free surface meets the c2 = −1/24 coefficient; see `surfaceCorrectionPsv`). What is not exactly
  * transposed: the memory terms of the absorbing strips (waves there leave the model).
  *
  * Gradients with respect to the solver's coefficients (sums over the steps n):
@@ -53,6 +53,7 @@ import {
   sourceTimeFunction,
   throwIfCancelled,
   type FdSetup,
+  type ReceiverStencil,
   type ShotPositions,
   type SimulationOptions,
   type SourceKind,
@@ -105,6 +106,8 @@ export interface ShotGradientOutput {
   storedWavefieldBytes: number;
 }
 
+const f32 = Math.fround;
+
 /** Fraction of the wavelet's peak amplitude spectrum above which it counts as carried. */
 const BAND_FLOOR = 1e-3;
 
@@ -142,12 +145,287 @@ function clearWavefield(setup: FdSetup): void {
   if (psi.length > 0) mem.fill(0, Math.min(...psi), layout.totalBytes / 4);
 }
 
-/** Buffer offsets of the arrays the correlation reads, by mode. */
-function arrays(setup: FdSetup) {
-  const o = setup.layout.offsets;
-  return setup.mode === "psv"
-    ? { vel: [o.f0, o.f1], buoy: [o.m0, o.m1], sxx: o.f2, szz: o.f3, sxz: o.f4, cM: o.m2, cL: o.m3, cMu: o.m4 }
-    : { vel: [o.f0], buoy: [o.m0], sxy: o.f1, syz: o.f2, cMx: o.m1, cMz: o.m2 };
+/**
+ * Where the model cells sit in the kernel buffer: cell (mz, mx) of the model is at buffer offset
+ * `first + mz·rowFloats + mx` inside each grid array.
+ */
+interface CellGrid {
+  nx: number;
+  nz: number;
+  first: number;
+  rowFloats: number;
+}
+
+function cellGrid(setup: FdSetup): CellGrid {
+  const L = setup.layout;
+  return { nx: setup.model.nx, nz: setup.model.nz, first: L.org + L.rowOffset * L.rowFloats + L.colOffset, rowFloats: L.rowFloats };
+}
+
+/** Copies one grid array on the model cells into `out[at …]`, `[z][x]`. */
+function copyCells(mem: Float32Array, field: number, g: CellGrid, out: Float32Array, at: number): void {
+  for (let mz = 0; mz < g.nz; mz++) {
+    const from = field + g.first + mz * g.rowFloats;
+    for (let mx = 0; mx < g.nx; mx++) out[at + mz * g.nx + mx] = mem[from + mx];
+  }
+}
+
+/**
+ * P-SV strain rates as the kernel forms them, on the model cells: ∂vx/∂x and ∂vz/∂z at σxx, σzz
+ * (i, j), ∂vx/∂z + ∂vz/∂x at σxz (i+½, j+½); into `out` at `at`, `at + cells`, `at + 2·cells`.
+ */
+function strainRatesPsv(mem: Float32Array, vx: number, vz: number, g: CellGrid, out: Float32Array, at: number): void {
+  const r = g.rowFloats;
+  const cells = g.nx * g.nz;
+  for (let mz = 0; mz < g.nz; mz++) {
+    for (let mx = 0; mx < g.nx; mx++) {
+      const c = g.first + mz * r + mx;
+      const k = at + mz * g.nx + mx;
+      out[k] = FD_C1 * (mem[vx + c] - mem[vx + c - 1]) + FD_C2 * (mem[vx + c + 1] - mem[vx + c - 2]);
+      out[k + cells] = FD_C1 * (mem[vz + c] - mem[vz + c - r]) + FD_C2 * (mem[vz + c + r] - mem[vz + c - 2 * r]);
+      out[k + 2 * cells] =
+        FD_C1 * (mem[vx + c + r] - mem[vx + c]) + FD_C2 * (mem[vx + c + 2 * r] - mem[vx + c - r]) +
+        FD_C1 * (mem[vz + c + 1] - mem[vz + c]) + FD_C2 * (mem[vz + c + 2] - mem[vz + c - 1]);
+    }
+  }
+}
+
+/** SH strain rates on the model cells: ∂vy/∂x at σxy (i+½, j), ∂vy/∂z at σyz (i, j+½). */
+function strainRatesSh(mem: Float32Array, vy: number, g: CellGrid, out: Float32Array, at: number): void {
+  const r = g.rowFloats;
+  const cells = g.nx * g.nz;
+  for (let mz = 0; mz < g.nz; mz++) {
+    for (let mx = 0; mx < g.nx; mx++) {
+      const c = g.first + mz * r + mx;
+      const k = at + mz * g.nx + mx;
+      out[k] = FD_C1 * (mem[vy + c + 1] - mem[vy + c]) + FD_C2 * (mem[vy + c + 2] - mem[vy + c - 1]);
+      out[k + cells] = FD_C1 * (mem[vy + c + r] - mem[vy + c]) + FD_C2 * (mem[vy + c + 2 * r] - mem[vy + c - r]);
+    }
+  }
+}
+
+/**
+ * P-SV stiffness gradients at one kept step: b = −W·C⁻¹·q with q the adjoint stresses in the
+ * buffer (2×2 block [[λ+2μ, λ], [λ, λ+2μ]] on σxx, σzz; σxx alone with the surface modulus and
+ * W = ½ on a free-surface row), times the forward strain rates `e` (at `at`), times `weight`.
+ * gM, gL, gMu: per cell, the coefficients of λ+2μ, λ and μ (all × dt/h).
+ */
+function correlatePsvStress(
+  mem: Float32Array, o: FdSetup["layout"]["offsets"], g: CellGrid, surface: boolean,
+  e: Float32Array, at: number, weight: number, gM: Float64Array, gL: Float64Array, gMu: Float64Array,
+): void {
+  const cells = g.nx * g.nz;
+  for (let mz = 0; mz < g.nz; mz++) {
+    const onSurface = surface && mz === 0;
+    for (let mx = 0; mx < g.nx; mx++) {
+      const c = g.first + mz * g.rowFloats + mx;
+      const k = mz * g.nx + mx;
+      const exx = e[at + k];
+      const qxx = mem[o.f2 + c];
+      const l = mem[o.m3 + c];
+      if (onSurface) {
+        gL[k] += weight * ((-0.5 * qxx) / l) * exx;
+      } else {
+        const ezz = e[at + cells + k];
+        const m = mem[o.m2 + c];
+        const qzz = mem[o.f3 + c];
+        const det = m * m - l * l;
+        const bxx = -(m * qxx - l * qzz) / det;
+        const bzz = -(m * qzz - l * qxx) / det;
+        gM[k] += weight * (bxx * exx + bzz * ezz);
+        gL[k] += weight * (bxx * ezz + bzz * exx);
+      }
+      const mu = mem[o.m4 + c];
+      if (mu > 0) gMu[k] += (weight * -mem[o.f4 + c] * e[at + 2 * cells + k]) / mu;
+    }
+  }
+}
+
+/** SH stiffness gradients at one kept step: μ on σxy (W = ½ on a free-surface row) and on σyz. */
+function correlateShStress(
+  mem: Float32Array, o: FdSetup["layout"]["offsets"], g: CellGrid, surface: boolean,
+  e: Float32Array, at: number, weight: number, gMx: Float64Array, gMz: Float64Array,
+): void {
+  const cells = g.nx * g.nz;
+  for (let mz = 0; mz < g.nz; mz++) {
+    const wxy = surface && mz === 0 ? 0.5 : 1;
+    for (let mx = 0; mx < g.nx; mx++) {
+      const c = g.first + mz * g.rowFloats + mx;
+      const k = mz * g.nx + mx;
+      const mux = mem[o.m1 + c];
+      const muz = mem[o.m2 + c];
+      if (mux > 0) gMx[k] += (weight * -wxy * mem[o.f1 + c] * e[at + k]) / mux;
+      if (muz > 0) gMz[k] += (weight * -mem[o.f2 + c] * e[at + cells + k]) / muz;
+    }
+  }
+}
+
+/**
+ * Buoyancy gradient of one velocity component at a kept step: += weight·W/B²·v_n·(p_n − p_{n+1}),
+ * with v_n the kept forward velocities (at `at`), p_n in the buffer and p_{n+1} in `before`
+ * (at `beforeAt`); W = ½ on a free-surface row when `halfOnSurface`.
+ */
+function correlateBuoyancy(
+  mem: Float32Array, field: number, buoy: number, g: CellGrid, halfOnSurface: boolean,
+  v: Float32Array, at: number, before: Float32Array, beforeAt: number, weight: number, gB: Float64Array,
+): void {
+  for (let mz = 0; mz < g.nz; mz++) {
+    const w = halfOnSurface && mz === 0 ? 0.5 * weight : weight;
+    for (let mx = 0; mx < g.nx; mx++) {
+      const c = g.first + mz * g.rowFloats + mx;
+      const k = mz * g.nx + mx;
+      const bv = mem[buoy + c];
+      gB[k] += (w * v[at + k] * (mem[field + c] - before[beforeAt + k])) / (bv * bv);
+    }
+  }
+}
+
+/** Adds the adjoint source of step n at the read-out points: p += B·W⁻¹·w·(Rᵀ ∂J/∂d)[r, n]. */
+function injectAdjoint(mem: Float32Array, rec: ReceiverStencil, scale: Float64Array, adj: Float64Array, steps: number, n: number): void {
+  const nrec = rec.start.length - 1;
+  for (let rr = 0; rr < nrec; rr++) {
+    const a = adj[rr * steps + n];
+    if (a === 0) continue;
+    for (let k = rec.start[rr]; k < rec.start[rr + 1]; k++) {
+      const idx = rec.index[k];
+      mem[idx] = f32(mem[idx] + f32(scale[k] * a));
+    }
+  }
+}
+
+/**
+ * The stress images above the free surface make the solver's divergence D differ from the
+ * negative transpose of its strain rate E by Δ = c2 in two places (P-SV: vx row 1 from σxz row 0,
+ * vz row 0 from σzz row 1; SH: vy row 1 from σyz row 0), where an image σ(−z) = −σ(z) meets the
+ * c2 term. The adjoint needs D − Δ in its velocity half and E − W⁻¹ΔᵀW in its stress half: these
+ * terms are taken out before (velocity half) and after (stress half) each kernel step, over the
+ * whole row (absorbing columns included), and the images above the surface renewed.
+ */
+function surfaceCorrectionPsv(mem: Float32Array, L: FdSetup["layout"], half: "velocity" | "stress"): void {
+  const o = L.offsets;
+  const row0 = L.org;
+  const row1 = L.org + L.rowFloats;
+  const up = row0 - L.rowFloats;
+  // f0 vx, f1 vz, f2 σxx, f3 σzz, f4 σxz; m0, m1 buoyancies, m2 λ+2μ, m3 λ, m4 μ (all × dt/h).
+  const { f0, f1, f2, f3, f4, m0, m1, m2, m3, m4 } = o;
+  const c2 = FD_C2;
+  if (half === "velocity") {
+    for (let i = 0; i < L.nx; i++) {
+      mem[f0 + row1 + i] = f32(mem[f0 + row1 + i] - f32(mem[m0 + row1 + i] * f32(c2 * mem[f4 + row0 + i])));
+      mem[f1 + row0 + i] = f32(mem[f1 + row0 + i] - f32(mem[m1 + row0 + i] * f32(c2 * mem[f3 + row1 + i])));
+    }
+    return;
+  }
+  for (let i = 0; i < L.nx; i++) {
+    const pvx = mem[f0 + row1 + i];
+    const pvz = mem[f1 + row0 + i];
+    mem[f4 + row0 + i] = f32(mem[f4 + row0 + i] - f32(mem[m4 + row0 + i] * f32(c2 * pvx)));
+    mem[f2 + row1 + i] = f32(mem[f2 + row1 + i] - f32(mem[m3 + row1 + i] * f32(c2 * pvz)));
+    mem[f3 + row1 + i] = f32(mem[f3 + row1 + i] - f32(mem[m2 + row1 + i] * f32(c2 * pvz)));
+    mem[f3 + up + i] = -mem[f3 + row1 + i];
+    mem[f4 + up + i] = -mem[f4 + row0 + i];
+  }
+}
+
+/** SH form of {@link surfaceCorrectionPsv}: f0 vy, f2 σyz; m0 buoyancy, m2 μ on σyz. */
+function surfaceCorrectionSh(mem: Float32Array, L: FdSetup["layout"], half: "velocity" | "stress"): void {
+  const { f0, f2, m0, m2 } = L.offsets;
+  const row0 = L.org;
+  const row1 = L.org + L.rowFloats;
+  const up = row0 - L.rowFloats;
+  const c2 = FD_C2;
+  if (half === "velocity") {
+    for (let i = 0; i < L.nx; i++) {
+      mem[f0 + row1 + i] = f32(mem[f0 + row1 + i] - f32(mem[m0 + row1 + i] * f32(c2 * mem[f2 + row0 + i])));
+    }
+    return;
+  }
+  for (let i = 0; i < L.nx; i++) {
+    mem[f2 + row0 + i] = f32(mem[f2 + row0 + i] - f32(mem[m2 + row0 + i] * f32(c2 * mem[f0 + row1 + i])));
+    mem[f2 + up + i] = -mem[f2 + row0 + i];
+  }
+}
+
+/** Gradients of the kernel's coefficients, per model cell (float64). */
+interface CoefficientGradients {
+  /** Buoyancy of each velocity component (P-SV vx, vz; SH vy). */
+  buoyancy: Float64Array[];
+  /** Stiffness: P-SV λ+2μ, λ, μ on σxz; SH μ on σxy, μ on σyz. */
+  stiffness: Float64Array[];
+}
+
+/**
+ * Coefficient gradients → λ, μ, ρ of the cells (through the staggered averages: arithmetic ρ on
+ * velocity points, harmonic μ on shear-stress points, the surface modulus M − λ²/M on a free-surface
+ * row; neighbours beyond the model edge are the edge cells, as the set-up extends them) → Vp, Vs, ρ.
+ */
+function toModelGradient(model: ElasticModel, mode: WaveMode, surface: boolean, s: number, g: CoefficientGradients, factor: number) {
+  const { nx, nz } = model;
+  const cells = nx * nz;
+  const gLam = new Float64Array(cells);
+  const gMu = new Float64Array(cells);
+  const gRho = new Float64Array(cells);
+  const muOf = (k: number) => model.rho[k] * model.vs[k] * model.vs[k];
+  const cl = (mz: number, mx: number) => Math.min(nz - 1, mz) * nx + Math.min(nx - 1, mx);
+  /** μ_h = n / Σ 1/μ_q over the n cells a, b (, c, d); ∂μ_h/∂μ_q = μ_h² / (n μ_q²). */
+  const harmonic = (grad: number, a: number, b: number, c = -1, d = -1) => {
+    const n = c < 0 ? 2 : 4;
+    const ma = muOf(a);
+    const mb = muOf(b);
+    const mc = c < 0 ? 0 : muOf(c);
+    const md = d < 0 ? 0 : muOf(d);
+    const mh = n / (1 / ma + 1 / mb + (c < 0 ? 0 : 1 / mc + 1 / md));
+    const f = (grad * s * mh * mh) / n;
+    gMu[a] += f / (ma * ma);
+    gMu[b] += f / (mb * mb);
+    if (c >= 0) {
+      gMu[c] += f / (mc * mc);
+      gMu[d] += f / (md * md);
+    }
+  };
+  /** Buoyancy dt/(h·ρ̄) of a velocity point, ρ̄ the mean of cells a and b: ∂B/∂ρ̄ = −B/ρ̄. */
+  const buoyancy = (grad: number, a: number, b: number) => {
+    const rbar = (model.rho[a] + model.rho[b]) / 2;
+    const dRbar = (-grad * (s / rbar)) / rbar;
+    gRho[a] += dRbar / 2;
+    gRho[b] += dRbar / 2;
+  };
+  for (let mz = 0; mz < nz; mz++) {
+    for (let mx = 0; mx < nx; mx++) {
+      const k = mz * nx + mx;
+      if (mode === "psv") {
+        const [gM, gL, gS] = g.stiffness;
+        buoyancy(g.buoyancy[0][k], k, cl(mz, mx + 1));
+        buoyancy(g.buoyancy[1][k], k, cl(mz + 1, mx));
+        const lam = model.rho[k] * (model.vp[k] ** 2 - 2 * model.vs[k] ** 2);
+        const mu = muOf(k);
+        if (surface && mz === 0) {
+          const M = lam + 2 * mu;
+          gLam[k] += s * (1 - lam / M) ** 2 * gL[k];
+          gMu[k] += s * 2 * (1 + (lam * lam) / (M * M)) * gL[k];
+        } else {
+          gLam[k] += s * (gM[k] + gL[k]);
+          gMu[k] += 2 * s * gM[k];
+        }
+        harmonic(gS[k], k, cl(mz, mx + 1), cl(mz + 1, mx), cl(mz + 1, mx + 1));
+      } else {
+        buoyancy(g.buoyancy[0][k], k, k);
+        harmonic(g.stiffness[0][k], k, cl(mz, mx + 1));
+        harmonic(g.stiffness[1][k], k, cl(mz + 1, mx));
+      }
+    }
+  }
+  const out = { vp: new Float32Array(cells), vs: new Float32Array(cells), rho: new Float32Array(cells) };
+  for (let k = 0; k < cells; k++) {
+    const vp = model.vp[k];
+    const vs = model.vs[k];
+    const rk = model.rho[k];
+    const gl = gLam[k] * factor;
+    const gm = gMu[k] * factor;
+    out.vp[k] = mode === "psv" ? 2 * rk * vp * gl : 0;
+    out.vs[k] = 2 * rk * vs * (gm - 2 * gl);
+    out.rho[k] = gRho[k] * factor + (vp * vp - 2 * vs * vs) * gl + vs * vs * gm;
+  }
+  return out;
 }
 
 /**
@@ -158,15 +436,16 @@ function arrays(setup: FdSetup) {
 export function shotGradient(input: ShotGradientInput): ShotGradientOutput {
   checkInput(input);
   const { model, shot } = input;
-  const opts = simulationOptions(input);
-  const setup = prepareSimulation(model, shot, opts);
+  const setup = prepareSimulation(model, shot, simulationOptions(input));
   const { mem, dt, steps, layout, mode } = setup;
+  const o = layout.offsets;
   const nrec = shot.receiverX.length;
-  const { nx, nz } = model;
-  const cells = nx * nz;
-  const r = layout.rowFloats;
-  const cellIndex = (mz: number, mx: number) => layout.org + (mz + layout.rowOffset) * r + mx + layout.colOffset;
+  const cells = model.nx * model.nz;
+  const grid = cellGrid(setup);
   const surface = setup.freeSurface;
+  const velocities = mode === "psv" ? [o.f0, o.f1] : [o.f0];
+  const buoyancies = mode === "psv" ? [o.m0, o.m1] : [o.m0];
+  const nv = velocities.length;
 
   const src = sourceInjection(setup, shot.sourceX, shot.sourceZ);
   const stf = sourceTimeFunction(setup, input.simulation.wavelet, src.atStress);
@@ -176,49 +455,8 @@ export function shotGradient(input: ShotGradientInput): ShotGradientOutput {
   // Kept forward wavefield: per kept step the velocity components, then the strain rates.
   const K = input.wantGradient ? keepEverySteps(input.simulation.wavelet, dt) : 0;
   const kept = input.wantGradient ? Math.ceil(steps / K) : 0;
-  const fieldsPerStep = mode === "psv" ? 5 : 3;
-  const store = new Float32Array(kept * fieldsPerStep * cells);
-  const A = arrays(setup);
-  const c1 = FD_C1;
-  const c2 = FD_C2;
-
-  /** Velocities and strain rates E·v of the current wavefield into the store at slot `slot`. */
-  const keep = (slot: number) => {
-    let base = slot * fieldsPerStep * cells;
-    for (const f of A.vel) {
-      for (let mz = 0; mz < nz; mz++) {
-        const from = f + cellIndex(mz, 0);
-        store.set(mem.subarray(from, from + nx), base + mz * nx);
-      }
-      base += cells;
-    }
-    if ("sxx" in A) {
-      const [vx, vz] = A.vel;
-      for (let mz = 0; mz < nz; mz++) {
-        for (let mx = 0; mx < nx; mx++) {
-          const c = cellIndex(mz, mx);
-          const k = mz * nx + mx;
-          // At σxx, σzz (i, j): ∂vx/∂x and ∂vz/∂z; at σxz (i+½, j+½): ∂vx/∂z + ∂vz/∂x (as the kernel).
-          store[base + k] = c1 * (mem[vx + c] - mem[vx + c - 1]) + c2 * (mem[vx + c + 1] - mem[vx + c - 2]);
-          store[base + cells + k] = c1 * (mem[vz + c] - mem[vz + c - r]) + c2 * (mem[vz + c + r] - mem[vz + c - 2 * r]);
-          store[base + 2 * cells + k] =
-            c1 * (mem[vx + c + r] - mem[vx + c]) + c2 * (mem[vx + c + 2 * r] - mem[vx + c - r]) +
-            c1 * (mem[vz + c + 1] - mem[vz + c]) + c2 * (mem[vz + c + 2] - mem[vz + c - 1]);
-        }
-      }
-    } else {
-      const vy = A.vel[0];
-      for (let mz = 0; mz < nz; mz++) {
-        for (let mx = 0; mx < nx; mx++) {
-          const c = cellIndex(mz, mx);
-          const k = mz * nx + mx;
-          // At σxy (i+½, j): ∂vy/∂x; at σyz (i, j+½): ∂vy/∂z.
-          store[base + k] = c1 * (mem[vy + c + 1] - mem[vy + c]) + c2 * (mem[vy + c + 2] - mem[vy + c - 1]);
-          store[base + cells + k] = c1 * (mem[vy + c + r] - mem[vy + c]) + c2 * (mem[vy + c + 2 * r] - mem[vy + c - r]);
-        }
-      }
-    }
-  };
+  const perStep = (mode === "psv" ? 5 : 3) * cells;
+  const store = new Float32Array(kept * perStep);
 
   // ---- Forward solve ----
   runTimeSteps(
@@ -231,7 +469,11 @@ export function shotGradient(input: ShotGradientInput): ShotGradientOutput {
       },
       afterStep(n) {
         recordReceivers(mem, rec, raw, n, steps);
-        if (K > 0 && n % K === 0) keep(n / K);
+        if (K === 0 || n % K !== 0) return;
+        const at = (n / K) * perStep;
+        for (let q = 0; q < nv; q++) copyCells(mem, velocities[q], grid, store, at + q * cells);
+        if (mode === "psv") strainRatesPsv(mem, o.f0, o.f1, grid, store, at + nv * cells);
+        else strainRatesSh(mem, o.f0, grid, store, at + nv * cells);
       },
     },
     input.cancelFlag,
@@ -257,227 +499,67 @@ export function shotGradient(input: ShotGradientInput): ShotGradientOutput {
   };
   if (!input.wantGradient) return result;
 
-  // ---- Adjoint source at the solver's steps: Pᵀ·Rᵀ·∂J/∂d, scaled to a peak of 1 (undone at the end) ----
-  const adjRaw = resampleRecordsTranspose(mis.adjoint, nrec, steps, dt, setup.output);
-  let peak = 0;
-  for (let k = 0; k < adjRaw.length; k++) peak = Math.max(peak, Math.abs(adjRaw[k]));
-  const illumination = new Float32Array(cells);
+  // Illumination: Σ over kept steps of the squared velocities, times K·dt.
   const illum = new Float64Array(cells);
   for (let s = 0; s < kept; s++) {
-    const base = s * fieldsPerStep * cells;
-    for (const [q] of A.vel.entries()) {
-      for (let k = 0; k < cells; k++) illum[k] += store[base + q * cells + k] ** 2;
+    for (let q = 0; q < nv; q++) {
+      const at = s * perStep + q * cells;
+      for (let k = 0; k < cells; k++) illum[k] += store[at + k] * store[at + k];
     }
   }
+  const illumination = new Float32Array(cells);
   for (let k = 0; k < cells; k++) illumination[k] = illum[k] * K * dt;
   result.illumination = illumination;
   result.adjointSolves = 1;
-  const zero = () => ({ vp: new Float32Array(cells), vs: new Float32Array(cells), rho: new Float32Array(cells) });
+
+  // ---- Adjoint source at the solver's steps: Rᵀ·∂J/∂d, scaled to a peak of 1 (undone at the end) ----
+  const adjRaw = resampleRecordsTranspose(mis.adjoint, nrec, steps, dt, setup.output);
+  let peak = 0;
+  for (let k = 0; k < adjRaw.length; k++) peak = Math.max(peak, Math.abs(adjRaw[k]));
   if (peak === 0) {
-    result.gradient = zero();
+    result.gradient = { vp: new Float32Array(cells), vs: new Float32Array(cells), rho: new Float32Array(cells) };
     return result;
   }
-  const scale = 1 / peak;
-  // Injection weights B·W⁻¹ at each read-out point (W = ½ on surface nodes of vx / vy).
-  const velField = rec.index.length > 0 ? A.vel[A.vel.length === 1 ? 0 : setup.component === "x" ? 0 : 1] : 0;
-  const velBuoy = A.buoy[A.vel.indexOf(velField)];
-  const surfaceWeighted = (field: number) => surface && field === A.vel[0];
-  const inRow0 = (idx: number) => {
-    const rel = idx - layout.org;
-    return rel >= 0 && rel < r;
-  };
+  // Injection weights B·W⁻¹·w at each read-out point (W = ½ on surface nodes of vx / vy), over the peak.
+  const q0 = mode === "psv" && setup.component === "z" ? 1 : 0;
+  const recField = velocities[q0];
   const adjScale = new Float64Array(rec.index.length);
   for (let k = 0; k < rec.index.length; k++) {
-    const idx = rec.index[k];
-    const c = idx - velField;
-    const w = surfaceWeighted(velField) && inRow0(c) ? 2 : 1;
-    adjScale[k] = mem[velBuoy + c] * w * rec.weight[k] * scale;
+    const c = rec.index[k] - recField;
+    const onSurfaceNode = surface && q0 === 0 && c - layout.org >= 0 && c - layout.org < layout.rowFloats;
+    adjScale[k] = (mem[buoyancies[q0] + c] * (onSurfaceNode ? 2 : 1) * rec.weight[k]) / peak;
   }
-  const f32 = Math.fround;
 
-  // Coefficient gradients (float64), one array per coefficient, per model cell.
-  const gB = A.vel.map(() => new Float64Array(cells));
-  const gC = Array.from({ length: mode === "psv" ? 3 : 2 }, () => new Float64Array(cells));
-  const pPrev = new Float32Array(A.vel.length * cells);
-
-  /**
-   * The stress images above the free surface make the solver's divergence D differ from the
-   * negative transpose of its strain rate E by Δ = c2 in two places (P-SV: vx row 1 from σxz row 0,
-   * vz row 0 from σzz row 1; SH: vy row 1 from σyz row 0), where an image σ(−z) = −σ(z) meets the
-   * c2 term. The adjoint needs D − Δ in its velocity half and E − W⁻¹ΔᵀW in its stress half, so
-   * these terms are taken out around each kernel step (over the whole row, absorbing columns
-   * included), and the images above the surface renewed.
-   */
-  const row0 = layout.org;
-  const row1 = layout.org + r;
-  const surfaceCorrection = (half: "velocity" | "stress") => {
-    const o = layout.offsets;
-    for (let i = 0; i < layout.nx; i++) {
-      if (mode === "psv") {
-        const [vx, vz, sxx, szz, sxz] = [o.f0, o.f1, o.f2, o.f3, o.f4];
-        if (half === "velocity") {
-          mem[vx + row1 + i] = f32(mem[vx + row1 + i] - f32(mem[o.m0 + row1 + i] * f32(c2 * mem[sxz + row0 + i])));
-          mem[vz + row0 + i] = f32(mem[vz + row0 + i] - f32(mem[o.m1 + row0 + i] * f32(c2 * mem[szz + row1 + i])));
-        } else {
-          const pvx = mem[vx + row1 + i];
-          const pvz = mem[vz + row0 + i];
-          mem[sxz + row0 + i] = f32(mem[sxz + row0 + i] - f32(mem[o.m4 + row0 + i] * f32(c2 * pvx)));
-          mem[sxx + row1 + i] = f32(mem[sxx + row1 + i] - f32(mem[o.m3 + row1 + i] * f32(c2 * pvz)));
-          mem[szz + row1 + i] = f32(mem[szz + row1 + i] - f32(mem[o.m2 + row1 + i] * f32(c2 * pvz)));
-          mem[szz + row0 - r + i] = -mem[szz + row1 + i];
-          mem[sxz + row0 - r + i] = -mem[sxz + row0 + i];
-        }
-      } else {
-        const [vy, syz] = [o.f0, o.f2];
-        if (half === "velocity") {
-          mem[vy + row1 + i] = f32(mem[vy + row1 + i] - f32(mem[o.m0 + row1 + i] * f32(c2 * mem[syz + row0 + i])));
-        } else {
-          mem[syz + row0 + i] = f32(mem[syz + row0 + i] - f32(mem[o.m2 + row0 + i] * f32(c2 * mem[vy + row1 + i])));
-          mem[syz + row0 - r + i] = -mem[syz + row0 + i];
-        }
-      }
-    }
+  const grads: CoefficientGradients = {
+    buoyancy: velocities.map(() => new Float64Array(cells)),
+    stiffness: Array.from({ length: mode === "psv" ? 3 : 2 }, () => new Float64Array(cells)),
   };
+  const before = new Float32Array(nv * cells);
+  const correct = mode === "psv" ? surfaceCorrectionPsv : surfaceCorrectionSh;
+  const [g0, g1, g2] = grads.stiffness;
 
   clearWavefield(setup);
-  const cancel = input.cancelFlag;
   for (let n = steps - 1, it = 0; n >= 0; n--, it++) {
-    if ((it & 63) === 0) throwIfCancelled(cancel);
+    if ((it & 63) === 0) throwIfCancelled(input.cancelFlag);
     const keptHere = n % K === 0;
-    const slot = n / K;
+    const at = keptHere ? (n / K) * perStep : 0;
     if (keptHere) {
-      const base = slot * fieldsPerStep * cells;
-      const eBase = base + A.vel.length * cells;
-      // Stress coefficients: b_n = −W·C⁻¹ q_n with q_n the adjoint stresses now in the buffer.
-      for (let mz = 0; mz < nz; mz++) {
-        const onSurface = surface && mz === 0;
-        for (let mx = 0; mx < nx; mx++) {
-          const c = cellIndex(mz, mx);
-          const k = mz * nx + mx;
-          if (A.sxx !== undefined) {
-            const exx = store[eBase + k];
-            const ezz = store[eBase + cells + k];
-            const exz = store[eBase + 2 * cells + k];
-            const m = mem[A.cM + c];
-            const l = mem[A.cL + c];
-            const qxx = mem[A.sxx + c];
-            if (onSurface) {
-              // σxx alone, with the surface modulus held in the λ array (half cell: W = ½).
-              const bxx = (-0.5 * qxx) / l;
-              gC[1][k] += K * bxx * exx;
-            } else {
-              const qzz = mem[A.szz + c];
-              const det = m * m - l * l;
-              const bxx = -(m * qxx - l * qzz) / det;
-              const bzz = -(m * qzz - l * qxx) / det;
-              gC[0][k] += K * (bxx * exx + bzz * ezz);
-              gC[1][k] += K * (bxx * ezz + bzz * exx);
-            }
-            const mu = mem[A.cMu + c];
-            if (mu > 0) gC[2][k] += (K * -mem[A.sxz + c] * exz) / mu;
-          } else {
-            const mux = mem[A.cMx + c];
-            const muz = mem[A.cMz + c];
-            const wxy = onSurface ? 0.5 : 1;
-            if (mux > 0) gC[0][k] += (K * -wxy * mem[A.sxy + c] * store[eBase + k]) / mux;
-            if (muz > 0) gC[1][k] += (K * -mem[A.syz + c] * store[eBase + cells + k]) / muz;
-          }
-        }
-      }
-      // p_{n+1}: the adjoint velocities before this step's injection.
-      A.vel.forEach((f, q) => {
-        for (let mz = 0; mz < nz; mz++) {
-          const from = f + cellIndex(mz, 0);
-          pPrev.set(mem.subarray(from, from + nx), q * cells + mz * nx);
-        }
-      });
+      // b_n from q_n (the adjoint stresses now in the buffer) against E·v_n.
+      if (mode === "psv") correlatePsvStress(mem, o, grid, surface, store, at + nv * cells, K, g0, g1, g2);
+      else correlateShStress(mem, o, grid, surface, store, at + nv * cells, K, g0, g1);
+      // p_{n+1}: the adjoint velocities before this step.
+      for (let q = 0; q < nv; q++) copyCells(mem, velocities[q], grid, before, q * cells);
     }
-    for (let rr = 0; rr < nrec; rr++) {
-      const a = adjRaw[rr * steps + n];
-      if (a === 0) continue;
-      for (let k = rec.start[rr]; k < rec.start[rr + 1]; k++) {
-        const idx = rec.index[k];
-        mem[idx] = f32(mem[idx] + f32(adjScale[k] * a));
-      }
-    }
-    if (surface) surfaceCorrection("velocity");
+    injectAdjoint(mem, rec, adjScale, adjRaw, steps, n);
+    if (surface) correct(mem, layout, "velocity");
     setup.kernel.step();
-    if (surface) surfaceCorrection("stress");
+    if (surface) correct(mem, layout, "stress");
     if (keptHere) {
-      // Buoyancy: ∂J/∂B_k += K·W_k/B_k² · v_n·(p_n − p_{n+1}).
-      const base = slot * fieldsPerStep * cells;
-      A.vel.forEach((f, q) => {
-        const b = A.buoy[q];
-        const g = gB[q];
-        for (let mz = 0; mz < nz; mz++) {
-          const w = surface && mz === 0 && q === 0 ? 0.5 : 1;
-          for (let mx = 0; mx < nx; mx++) {
-            const c = cellIndex(mz, mx);
-            const k = mz * nx + mx;
-            const bv = mem[b + c];
-            g[k] += (K * w * store[base + q * cells + k] * (mem[f + c] - pPrev[q * cells + k])) / (bv * bv);
-          }
-        }
-      });
-    }
-  }
-
-  // ---- Coefficients → λ, μ, ρ of the cells → Vp, Vs, ρ ----
-  const s = dt / setup.h;
-  const gLam = new Float64Array(cells);
-  const gMu = new Float64Array(cells);
-  const gRho = new Float64Array(cells);
-  const cl = (mz: number, mx: number) => Math.min(nz - 1, mz) * nx + Math.min(nx - 1, mx);
-  const rho = (k: number) => model.rho[k];
-  const muOf = (k: number) => model.rho[k] * model.vs[k] * model.vs[k];
-  const lamOf = (k: number) => model.rho[k] * (model.vp[k] * model.vp[k] - 2 * model.vs[k] * model.vs[k]);
-  /** Harmonic mean of μ over cells `ks` and its derivative added to gMu with weight g. */
-  const harmonic = (ks: number[], g: number) => {
-    let inv = 0;
-    for (const k of ks) inv += 1 / muOf(k);
-    const mh = ks.length / inv;
-    for (const k of ks) gMu[k] += (g * s * mh * mh) / (ks.length * muOf(k) ** 2);
-  };
-  for (let mz = 0; mz < nz; mz++) {
-    for (let mx = 0; mx < nx; mx++) {
-      const k = mz * nx + mx;
-      if (mode === "psv") {
-        // Buoyancy of vx (i+½, j) and vz (i, j+½): dt/(h·ρ̄), ρ̄ the mean of two cells.
-        for (const [q, k2] of [[0, cl(mz, mx + 1)], [1, cl(mz + 1, mx)]] as const) {
-          const rbar = (rho(k) + rho(k2)) / 2;
-          const dRbar = (-gB[q][k] * (s / rbar)) / rbar;
-          gRho[k] += dRbar / 2;
-          gRho[k2] += dRbar / 2;
-        }
-        const lam = lamOf(k);
-        const mu = muOf(k);
-        if (surface && mz === 0) {
-          const M = lam + 2 * mu;
-          gLam[k] += s * (1 - lam / M) ** 2 * gC[1][k];
-          gMu[k] += s * 2 * (1 + (lam * lam) / (M * M)) * gC[1][k];
-        } else {
-          gLam[k] += s * (gC[0][k] + gC[1][k]);
-          gMu[k] += 2 * s * gC[0][k];
-        }
-        harmonic([k, cl(mz, mx + 1), cl(mz + 1, mx), cl(mz + 1, mx + 1)], gC[2][k]);
-      } else {
-        gRho[k] += -gB[0][k] * (s / rho(k)) / rho(k);
-        harmonic([k, cl(mz, mx + 1)], gC[0][k]);
-        harmonic([k, cl(mz + 1, mx)], gC[1][k]);
+      for (let q = 0; q < nv; q++) {
+        correlateBuoyancy(mem, velocities[q], buoyancies[q], grid, surface && q === 0, store, at + q * cells, before, q * cells, K, grads.buoyancy[q]);
       }
     }
   }
-  const g = zero();
-  for (let k = 0; k < cells; k++) {
-    const vp = model.vp[k];
-    const vs = model.vs[k];
-    const rk = model.rho[k];
-    const gl = gLam[k] * peak;
-    const gm = gMu[k] * peak;
-    g.vp[k] = mode === "psv" ? 2 * rk * vp * gl : 0;
-    g.vs[k] = 2 * rk * vs * (gm - 2 * gl);
-    g.rho[k] = gRho[k] * peak + (vp * vp - 2 * vs * vs) * gl + vs * vs * gm;
-  }
-  result.gradient = g;
+  result.gradient = toModelGradient(model, mode, surface, dt / setup.h, grads, peak);
   return result;
 }

@@ -78,7 +78,7 @@ describe("solver pieces", () => {
 
   it("resample with a transpose that passes the dot-product test", () => {
     // ⟨R x, y⟩ = ⟨x, Rᵀ y⟩ for random x and y (the dot-product test of a linear operator and its
-    // adjoint; Claerbout 1992, Earth Soundings Analysis, ch. 1). Both sums in float64 of the same
+    // adjoint; Claerbout 1992, Earth Soundings Analysis: Processing versus Inversion; common practice). Both sums in float64 of the same
     // weights: agreement to 1e-12 relative.
     const rnd = mulberry32(11);
     const nrec = 3;
