@@ -156,18 +156,6 @@ export function solverBenchTask(arg: Parameters<typeof timeKernelSteps>[0]) {
   return timeKernelSteps(arg);
 }
 
-// ---- Waveform inversion: one shot's misfit, synthetics and gradient per task ----
-
-import { shotGradient, type ShotGradientInput } from "../kernels/fwi/shot-gradient";
-
-/**
- * One shot of the inversion (pipeline/kernels/fwi/shot-gradient.ts). The result (a few hundred
- * kB: synthetics, three gradients, illumination) is copied back by structured clone.
- */
-export function shotGradientTask(arg: ShotGradientInput) {
-  return shotGradient(arg);
-}
-
 // ---- Surface-wave profiles: one window's dispersion curve inverted per task ----
 
 import { invertDispersionCurve, type CurveInversionOptions, type CurveInversionResult } from "../kernels/dispersion/inversion";
