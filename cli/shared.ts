@@ -3,7 +3,7 @@ import { getDb, type Db } from "../db/client";
 import { getUserByEmail } from "../db/queries/users";
 import type { Actor } from "../db/queries/audit";
 import { AppError, toAppError } from "../pipeline/errors";
-import { markInterruptedRuns } from "../pipeline/runner";
+import { markInterruptedRuns } from "../pipeline/run-lease";
 import { ROLES, type Door, type Role } from "../db/schema";
 
 /** Opens the database (migrating it) and marks runs left by dead processes as interrupted. */
