@@ -277,11 +277,12 @@ function resolveInputs(
     } else {
       const byLabel = earlier.find((e) => e.label === ref);
       const byId = earlier.filter((e) => e.stepId === ref && e.label !== ref);
+      const sameId = earlier.filter((e) => e.stepId === ref);
+      const choices = sameId.map((_, k) => `${ref}#${k + 1}`);
       if (byLabel && byId.length > 0) {
-        fail(at, `"${ref}" is ambiguous: the label of one earlier step and the step id of ${byId.map((e) => e.label).join(", ")}; write ${ref}#<n> or a distinct label`);
+        fail(at, `"${ref}" is ambiguous: the label of one earlier step and the step id of ${byId.map((e) => e.label).join(", ")}; write ${choices.join(" or ")}, or a distinct label`, undefined, choices);
       }
       if (!byLabel && byId.length > 1) {
-        const choices = byId.map((_, k) => `${ref}#${k + 1}`);
         fail(at, `"${ref}" is ambiguous: ${byId.length} earlier ${ref} steps (${byId.map((e) => e.label).join(", ")}); write ${choices.join(" or ")}, or a label`, undefined, choices);
       }
       target = byLabel ?? byId[0];
