@@ -84,7 +84,7 @@ export function planRerun(
   const from = labels.indexOf(fromLabel);
   if (from < 0) {
     throw new AppError("bad-input", `Run ${parentRunId} has no step "${fromLabel}"; its steps: ${labels.join(", ")}`, {
-      field: "fromStep",
+      field: "fromLabel",
       choices: labels,
     });
   }

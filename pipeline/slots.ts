@@ -24,10 +24,16 @@ export class SlotTable {
   private readonly latest = new Map<SlotName, SlotEntry>();
   private readonly byStep = new Map<string, Map<SlotName, SlotEntry>>();
   private readonly decoded = new Map<string, unknown>();
+  /** Values not read from the artifact store (the dataset's field files), by hash. */
+  private readonly entries = new Map<string, SlotEntry>();
 
   /** A slot the runner fills itself (field files, geometry table). */
   setRunnerSlot(slot: SlotName, hash: string, load?: () => unknown): void {
-    this.latest.set(slot, load ? { hash, load } : this.artifact(hash));
+    if (load) {
+      let value: unknown;
+      this.entries.set(hash, { hash, load: () => (value ??= load()) });
+    }
+    this.latest.set(slot, this.artifact(hash));
   }
 
   /** Records the outputs (slot → artifact hash) of the step labelled `label`; `values` are already decoded ones. */
@@ -71,6 +77,8 @@ export class SlotTable {
   }
 
   private artifact(hash: string): SlotEntry {
+    const own = this.entries.get(hash);
+    if (own) return own;
     return {
       hash,
       load: () => {
