@@ -91,6 +91,8 @@ describe("running and caching", () => {
 
   it("a second run of the same pipeline is served entirely from the cache", async () => {
     const file = writePipeline("three", THREE_STEPS);
+    await executeRun(db, createRun(db, { source: "pipeline-file", pipelinePath: file, actor }).runId);
+    for (const k of Object.keys(calls)) delete calls[k];
     const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     await executeRun(db, runId);
     expect(calls).toEqual({});
@@ -116,7 +118,7 @@ describe("running and caching", () => {
   });
 
   it("a rerun refuses overrides before its start step and unknown settings, naming them", () => {
-    const runId = listRuns(db, { pipelineName: "engine-check", pageSize: 1 }).rows[0].id;
+    const runId = createRun(db, { source: "pipeline-file", pipelinePath: writePipeline("three", THREE_STEPS), actor }).runId;
     expect(() => createRun(db, { source: "rerun", parentRunId: runId, fromLabel: "second-scale", overrides: { "first-scale": { factor: 1 } }, actor }).runId).toThrow(
       /first-scale: this step comes before second-scale/,
     );
@@ -173,13 +175,15 @@ steps:
   - step: test-make-traces
     settings: { value: 9 }
   - step: test-wait
-    settings: { ms: 20000 }
+    settings: { ms: 60000, startedFlagFile: ${JSON.stringify(path.join(tmp, "cancel-started.flag"))} }
   - step: test-scale
 `,
     );
     const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     const running = executeRun(db, runId, { cancelPollMs: 50 });
-    await new Promise((r) => setTimeout(r, 300));
+    // Cancel once the waiting step has started (its flag file appears), not after a fixed time.
+    const deadline = Date.now() + 30_000;
+    while (!fs.existsSync(path.join(tmp, "cancel-started.flag")) && Date.now() < deadline) await new Promise((r) => setTimeout(r, 20));
     requestCancel(db, runId, actor);
     const outcome = await running;
     expect(outcome.status).toBe("cancelled");
