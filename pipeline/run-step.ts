@@ -98,9 +98,17 @@ export async function computeStep(
     loadCheckpoint: recorder.loadCheckpoint,
   };
   let result: StepResult;
+  const outputs: Record<string, string> = {};
   try {
     result = await step.run(input, params as never, ctx);
     checkStepOutputs(step, result.outputs);
+    lease.ensureOwned();
+    for (const [slot, value] of Object.entries(result.outputs)) {
+      if (value === undefined) continue;
+      const written = writeArtifact(value);
+      registerArtifact(db, { hash: written.hash, kind: slot, path: written.relativePath, sizeBytes: written.sizeBytes, producedByRunStepId: row.id });
+      outputs[slot] = written.hash;
+    }
   } catch (err) {
     const e = lease.signal.aborted ? toAppError(abortError()) : toAppError(err);
     const status = e.code === "cancelled" ? "cancelled" : "failed";
@@ -112,14 +120,6 @@ export async function computeStep(
     }
     events.onStepEnd?.({ position: row.position, label: row.label, status, cacheHit: false, durationMs: Date.now() - started, error: message });
     throw status === "cancelled" ? e : new AppError(e.code === "internal" ? "step-failed" : e.code, message, e.details, { cause: err });
-  }
-  lease.ensureOwned();
-  const outputs: Record<string, string> = {};
-  for (const [slot, value] of Object.entries(result.outputs)) {
-    if (value === undefined) continue;
-    const written = writeArtifact(value);
-    registerArtifact(db, { hash: written.hash, kind: slot, path: written.relativePath, sizeBytes: written.sizeBytes, producedByRunStepId: row.id });
-    outputs[slot] = written.hash;
   }
   const durationMs = Date.now() - started;
   const series = recorder.mergeSeries(result.series);

@@ -13,6 +13,7 @@ import { getPipelineVersion } from "../db/queries/pipelines";
 import { getDataset } from "../db/queries/datasets";
 import { getRunRecord, getRunStepRecords, setRunGeometryTable, type RunRecord } from "../db/queries/run-records";
 import { canonicalJson } from "./artifact-codec";
+import { ensureDiskReserve } from "./artifact-store";
 import { stepCacheKey } from "./cache";
 import { AppError, toAppError } from "./errors";
 import { createRunLogger } from "./logger";
@@ -67,6 +68,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   const steps = getRunStepRecords(db, runId);
   const events = opts.events ?? {};
   const lease = claimRun(db, run, opts);
+  ensureDiskReserve();
   const runLog = createRunLogger(db, runId, null, { echo: (level, message) => events.onLog?.({ label: null, level, message }) });
   events.onRunStart?.({ runId, steps: steps.map((s) => ({ label: s.label, stepId: s.stepId })) });
   let pool = opts.pool;
