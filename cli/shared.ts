@@ -55,6 +55,8 @@ export function resolveActor(
 /** Prints an error as a person-readable message and sets the exit code. Never a stack trace. */
 export function reportError(err: unknown): void {
   const e = toAppError(err);
+  // With --json, scripts get the error as JSON on stdout too (and the message on stderr as always).
+  if (process.argv.includes("--json")) printJson({ error: { code: e.code, message: e.message, ...e.details } });
   process.stderr.write(`tracewright: ${e.message}\n`);
   if (e.details.expected && !e.message.includes(e.details.expected)) process.stderr.write(`  expected: ${e.details.expected}\n`);
   if (e.code === "internal" && process.env.TRACEWRIGHT_DEBUG) process.stderr.write(`${(err as Error)?.stack}\n`);
