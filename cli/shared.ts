@@ -3,13 +3,22 @@ import { getDb, type Db } from "../db/client";
 import { getUserByEmail } from "../db/queries/users";
 import type { Actor } from "../db/queries/audit";
 import { AppError, toAppError } from "../pipeline/errors";
-import { markInterruptedRuns } from "../pipeline/runner";
+import { cleanTemporaryArtifacts } from "../pipeline/artifact-store";
+import { markInterruptedRuns } from "../pipeline/run-lease";
 import { ROLES, type Door, type Role } from "../db/schema";
 
-/** Opens the database (migrating it) and marks runs left by dead processes as interrupted. */
+/**
+ * Opens the database (migrating it), marks runs left by dead processes as interrupted and
+ * deletes the temporary artifact files they left.
+ */
 export function openCliDb(): Db {
   const db = getDb();
   const marked = markInterruptedRuns(db);
+  try {
+    cleanTemporaryArtifacts();
+  } catch {
+    // a read-only command must work even when the artifact folder cannot be cleaned
+  }
   if (marked.length > 0) {
     process.stderr.write(
       `Marked ${marked.length === 1 ? "run" : "runs"} ${marked.join(", ")} as interrupted (the process running ${marked.length === 1 ? "it" : "them"} stopped). Resume with: tracewright resume <run>\n`,
@@ -46,6 +55,8 @@ export function resolveActor(
 /** Prints an error as a person-readable message and sets the exit code. Never a stack trace. */
 export function reportError(err: unknown): void {
   const e = toAppError(err);
+  // With --json, scripts get the error as JSON on stdout too (and the message on stderr as always).
+  if (process.argv.includes("--json")) printJson({ error: { code: e.code, message: e.message, ...e.details } });
   process.stderr.write(`tracewright: ${e.message}\n`);
   if (e.details.expected && !e.message.includes(e.details.expected)) process.stderr.write(`  expected: ${e.details.expected}\n`);
   if (e.code === "internal" && process.env.TRACEWRIGHT_DEBUG) process.stderr.write(`${(err as Error)?.stack}\n`);

@@ -3,6 +3,8 @@
  * the CLI prints the message and exits with `exitCode`, route handlers answer JSON with
  * `httpStatus`, server actions return field errors.
  */
+import { RecordError } from "../db/errors";
+
 export type AppErrorCode =
   | "bad-input" // a file, field or option is malformed; names where and what was expected
   | "bad-file" // a field file is malformed or truncated (file name and byte offset)
@@ -82,6 +84,7 @@ export class FileFormatError extends AppError {
 /** Turns anything thrown into an AppError, keeping AppErrors as they are. */
 export function toAppError(err: unknown): AppError {
   if (err instanceof AppError) return err;
+  if (err instanceof RecordError) return new AppError(err.code, err.message, err.field ? { field: err.field } : {}, { cause: err });
   if (err instanceof Error && err.name === "AbortError") return new AppError("cancelled", "The run was cancelled.");
   if (err instanceof Error && err.name === "StepInputError") return new AppError("bad-input", err.message, {
     field: (err as Error & { field?: string }).field,

@@ -8,7 +8,8 @@ import path from "node:path";
 import { z } from "zod";
 import { LineCounter, parseDocument, isMap, type Document, type Node } from "yaml";
 import { AppError } from "./errors";
-import { getStep, listSteps, paramsJsonSchema } from "./registry";
+import { getStep, listSteps } from "./registry";
+import { findUnknownSetting } from "./settings";
 import { RUNNER_SLOTS, type SlotName } from "./types";
 
 const LABEL = /^[a-z][a-z0-9-]{0,47}$/;
@@ -21,6 +22,10 @@ const stepEntrySchema = z
       .regex(LABEL, "a label of lower-case letters, digits and dashes, starting with a letter")
       .optional(),
     settings: z.record(z.string(), z.unknown()).optional(),
+    input: z
+      .record(z.string(), z.string().min(1))
+      .optional()
+      .describe("where a slot comes from when not the latest value: { slot: <label> or <step id>#<n> }"),
   })
   .strict();
 
@@ -46,6 +51,11 @@ export interface ResolvedStep {
   stepId: string;
   version: number;
   params: Record<string, unknown>;
+  /**
+   * Inputs named in the file ({ slot: label of the earlier step that wrote it }); absent when the
+   * step reads the latest value of every slot (the default, and every file written before).
+   */
+  inputs?: Record<string, string>;
 }
 
 /** A validated pipeline, paths made absolute. */
@@ -153,6 +163,7 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
 
   const known = new Set<SlotName>(RUNNER_SLOTS.filter((s) => (s === "geometryTable" ? !!file.geometryTable : !!file.fieldData)));
   const labels = new Set<string>();
+  const earlier: Array<{ label: string; stepId: string; writes: SlotName[] }> = [];
   const steps: ResolvedStep[] = file.steps.map((entry, i) => {
     let step;
     try {
@@ -182,26 +193,24 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
       }
     }
     if (entry.step === "import-records" && settings.onBadFile === undefined) settings.onBadFile = file.onBadFile;
-    const props = paramsJsonSchema(step).properties ?? {};
-    const validNames = Object.keys(props);
-    for (const key of Object.keys(entry.settings ?? {})) {
-      if (!validNames.includes(key)) {
-        fail(
-          ["steps", i, "settings", key],
-          `unknown setting "${key}" for step ${step.id}; valid settings: ${validNames.join(", ") || "(none)"}`,
-          undefined,
-          validNames,
-          true,
-        );
-      }
+    const unknown = findUnknownSetting(step, Object.keys(entry.settings ?? {}));
+    if (unknown) {
+      fail(
+        ["steps", i, "settings", unknown.key],
+        `unknown setting "${unknown.key}" for step ${step.id}; valid settings: ${unknown.valid.join(", ") || "(none)"}`,
+        undefined,
+        unknown.valid,
+        true,
+      );
     }
     const parsed = step.params.safeParse(settings);
     if (!parsed.success) {
       const issue = parsed.error.issues[0];
       fail(["steps", i, "settings", ...issue.path], expectedFromIssue(issue), issue.message);
     }
+    const inputs = entry.input ? resolveInputs(entry.input, i, step, earlier, file.steps, fail) : undefined;
     for (const slot of step.reads) {
-      if (!known.has(slot)) {
+      if (!known.has(slot) && !inputs?.[slot]) {
         const hint =
           slot === "geometryTable"
             ? "add geometryTable: <csv file> at the top of the pipeline file"
@@ -212,7 +221,9 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
       }
     }
     for (const slot of step.writes) known.add(slot);
-    return { label, stepId: step.id, version: step.version, params: parsed.data as Record<string, unknown> };
+    earlier.push({ label, stepId: step.id, writes: step.writes });
+    const resolvedStep: ResolvedStep = { label, stepId: step.id, version: step.version, params: parsed.data as Record<string, unknown> };
+    return inputs ? { ...resolvedStep, inputs } : resolvedStep;
   });
 
   return {
@@ -225,6 +236,68 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
     onBadFile: file.onBadFile,
     steps,
   };
+}
+
+type Fail = (parts: ReadonlyArray<PropertyKey>, message: string, expected?: string, choices?: string[], useKeyLine?: boolean) => never;
+
+const OCCURRENCE = /^([a-z][a-z0-9-]*)#([1-9][0-9]*)$/;
+
+/**
+ * Resolves `input: { slot: ref }` of step `i` to labels of earlier steps. A ref is a label, or
+ * `<step id>#<n>` (the n-th step of that id in the file), or a bare step id that occurs once
+ * before. Refuses slots the step does not read, refs that name nothing, a later step, a step that
+ * does not write the slot, or more than one step.
+ */
+function resolveInputs(
+  input: Record<string, string>,
+  i: number,
+  step: { id: string; reads: SlotName[]; optionalReads?: SlotName[] },
+  earlier: ReadonlyArray<{ label: string; stepId: string; writes: SlotName[] }>,
+  all: ReadonlyArray<{ step: string }>,
+  fail: Fail,
+): Record<string, string> {
+  const readable = [...step.reads, ...(step.optionalReads ?? [])];
+  const out: Record<string, string> = {};
+  for (const [slot, ref] of Object.entries(input)) {
+    const at = ["steps", i, "input", slot];
+    if (!readable.includes(slot as SlotName)) {
+      fail(at, `step ${step.id} does not read "${slot}"; it reads: ${readable.join(", ") || "(nothing)"}`, undefined, readable, true);
+    }
+    let target: { label: string; stepId: string; writes: SlotName[] } | undefined;
+    const occurrence = OCCURRENCE.exec(ref);
+    if (occurrence) {
+      const [, id, nText] = occurrence;
+      const n = Number(nText);
+      const positions = all.map((s, k) => (s.step === id ? k : -1)).filter((k) => k >= 0);
+      if (positions.length < n) {
+        fail(at, `"${ref}": the file has ${positions.length === 0 ? "no" : `only ${positions.length}`} ${id} step${positions.length === 1 ? "" : "s"}`);
+      }
+      if (positions[n - 1] >= i) fail(at, `"${ref}" comes at or after this step; an input must come from an earlier step`);
+      target = earlier[positions[n - 1]];
+    } else {
+      const byLabel = earlier.find((e) => e.label === ref);
+      const byId = earlier.filter((e) => e.stepId === ref && e.label !== ref);
+      const sameId = earlier.filter((e) => e.stepId === ref);
+      const choices = sameId.map((_, k) => `${ref}#${k + 1}`);
+      if (byLabel && byId.length > 0) {
+        fail(at, `"${ref}" is ambiguous: the label of one earlier step and the step id of ${byId.map((e) => e.label).join(", ")}; write ${choices.join(" or ")}, or a distinct label`, undefined, choices);
+      }
+      if (!byLabel && byId.length > 1) {
+        fail(at, `"${ref}" is ambiguous: ${byId.length} earlier ${ref} steps (${byId.map((e) => e.label).join(", ")}); write ${choices.join(" or ")}, or a label`, undefined, choices);
+      }
+      target = byLabel ?? byId[0];
+      if (!target) {
+        const later = all.slice(i).some((s) => s.step === ref);
+        const names = earlier.map((e) => e.label);
+        fail(at, later ? `"${ref}" comes at or after this step; an input must come from an earlier step` : `no earlier step is labelled "${ref}"; earlier steps: ${names.join(", ") || "(none)"}`, undefined, names);
+      }
+    }
+    if (!target!.writes.includes(slot as SlotName)) {
+      fail(at, `${target!.label} (${target!.stepId}) does not write "${slot}"; it writes: ${target!.writes.join(", ")}`);
+    }
+    out[slot] = target!.label;
+  }
+  return out;
 }
 
 /** Reads and validates a pipeline file from disk. */
@@ -240,42 +313,5 @@ export function loadPipelineFile(file: string): { resolved: ResolvedPipeline; te
   return { resolved, text, absolutePath };
 }
 
-function isPlainObject(v: unknown): v is Record<string, unknown> {
-  return typeof v === "object" && v !== null && !Array.isArray(v) && !ArrayBuffer.isView(v);
-}
-
-/**
- * Settings with overrides applied: a setting that holds an object is merged key by key (so
- * `grid: { depthM: 30 }` changes the depth and keeps the rest); anything else is replaced.
- */
-export function mergeSettings(base: Record<string, unknown>, overrides: Record<string, unknown>): Record<string, unknown> {
-  const out: Record<string, unknown> = { ...base };
-  for (const [k, v] of Object.entries(overrides)) {
-    out[k] = isPlainObject(v) && isPlainObject(base[k]) ? mergeSettings(base[k] as Record<string, unknown>, v) : v;
-  }
-  return out;
-}
-
-/**
- * Re-validates a step's parameters with overrides applied (reruns). Returns complete params.
- * Throws AppError naming `<label>.<param>`.
- */
-export function applyOverrides(step: ResolvedStep, overrides: Record<string, unknown>): Record<string, unknown> {
-  const def = getStep(step.stepId);
-  const valid = Object.keys(paramsJsonSchema(def).properties ?? {});
-  for (const key of Object.keys(overrides)) {
-    if (!valid.includes(key)) {
-      throw new AppError("bad-input", `${step.label}.${key}: unknown setting; valid settings of ${def.id}: ${valid.join(", ")}`, {
-        field: `${step.label}.${key}`,
-        choices: valid,
-      });
-    }
-  }
-  const parsed = def.params.safeParse(mergeSettings(step.params, overrides));
-  if (!parsed.success) {
-    const issue = parsed.error.issues[0];
-    const field = [step.label, ...issue.path.map(String)].join(".");
-    throw new AppError("bad-input", `${field}: ${issue.message}`, { field, expected: issue.message });
-  }
-  return parsed.data as Record<string, unknown>;
-}
+/** The settings merge lives with the other setting rules (pipeline/settings.ts). */
+export { mergeSettings } from "./settings";

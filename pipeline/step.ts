@@ -54,6 +54,8 @@ export interface StepResult {
   summary?: Record<string, unknown>;
   /** Curves to chart. */
   series?: StepSeries[];
+  /** Field files the step refused (the run went on without them); the runner records them with the run. */
+  rejectedFiles?: Array<{ file: string; reason: string }>;
 }
 
 /** Input slots handed to run(): required slots are present, optional ones may be undefined. */

@@ -15,7 +15,8 @@ import { getRun } from "../db/queries/runs";
 import { isIgnoredName, scanFolder } from "./dataset-folder";
 import { toAppError } from "./errors";
 import { loadPipelineFile } from "./pipeline-file";
-import { createRunFromRegistration, executeRun, registerPipelineAndDataset, type Actor, type RunEvents, type RunOutcome } from "./runner";
+import { createRun, registerPipelineAndDataset } from "./run-create";
+import { executeRun, type Actor, type RunEvents, type RunOutcome } from "./runner";
 import type { WorkerPool } from "./workers/pool";
 
 export interface WatchOptions {
@@ -108,7 +109,7 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
         );
         return;
       }
-      runId = createRunFromRegistration(db, reg, opts.actor);
+      runId = createRun(db, { source: "registration", registration: reg, actor: opts.actor }).runId;
     } catch (err) {
       note(folder, "rejected", toAppError(err).message);
       return;

@@ -3,9 +3,8 @@
  * models, snapshots, picks, mutes and spectra. Artifacts are immutable (content-addressed),
  * so decoded values are kept in a small in-process cache.
  */
-import { eq } from "drizzle-orm";
 import { getDb } from "@/db/client";
-import { artifacts } from "@/db/schema";
+import { isArtifactRecorded } from "@/db/queries/artifacts";
 import { readArtifact } from "@/pipeline/artifact-store";
 import { AppError } from "@/pipeline/errors";
 import type { ElasticModel, GatherSet, JsonDocument, MuteSet, PickSet, SnapshotSet, SpectrumSet } from "@/pipeline/types";
@@ -26,8 +25,7 @@ export async function loadArtifact(hash: string): Promise<unknown> {
     cache.set(hash, hit);
     return hit;
   }
-  const row = getDb().select({ hash: artifacts.hash }).from(artifacts).where(eq(artifacts.hash, hash)).get();
-  if (!row) throw new AppError("not-found", `No artifact ${hash.slice(0, 12)}… is recorded.`, { field: "hash" });
+  if (!isArtifactRecorded(getDb(), hash)) throw new AppError("not-found", `No artifact ${hash.slice(0, 12)}… is recorded.`, { field: "hash" });
   const value = await readArtifact(hash);
   cache.set(hash, value);
   while (cache.size > CACHE_SIZE) cache.delete(cache.keys().next().value as string);

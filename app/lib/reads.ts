@@ -64,6 +64,7 @@ export function readRun(id: number): RunView | null {
     params: s.params,
     inputs: s.inputs,
     outputs: s.outputs,
+    inputSources: s.inputSources,
     summary: s.summary,
     series: s.series,
     error: s.error,

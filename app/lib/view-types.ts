@@ -50,6 +50,8 @@ export interface StepView {
   params: Record<string, unknown>;
   inputs: Record<string, string>;
   outputs: Record<string, string>;
+  /** Where each input came from (label of the step that wrote it) and whether the pipeline file named it. */
+  inputSources: Record<string, { from: string; explicit: boolean }>;
   summary: Record<string, unknown> | null;
   series: Array<{ name: string; xLabel: string; yLabel: string; points: Array<{ x: number; y: number; group?: string }> }>;
   error: string | null;

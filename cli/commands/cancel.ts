@@ -1,6 +1,6 @@
 /** `tracewright cancel`: ask a queued or running run to stop. */
 import type { Command } from "commander";
-import { requestCancel } from "../../pipeline/runner";
+import { requestCancel } from "../../pipeline/run-create";
 import { action, openCliDb, parseId, resolveActor } from "../shared";
 
 export function registerCancel(program: Command): void {

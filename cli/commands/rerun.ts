@@ -2,7 +2,7 @@
 import type { Command } from "commander";
 import { parse as parseYaml } from "yaml";
 import { AppError } from "../../pipeline/errors";
-import { createRerun } from "../../pipeline/runner";
+import { createRun } from "../../pipeline/run-create";
 import { executeInTerminal } from "../execute";
 import { action, openCliDb, parseId, resolveActor } from "../shared";
 
@@ -54,7 +54,7 @@ export function registerRerun(program: Command): void {
         const db = openCliDb();
         const actor = resolveActor(db, opts.as);
         const overrides = opts.set.reduce((acc, s) => parseOverride(s, acc), {} as Record<string, Record<string, unknown>>);
-        const runId = createRerun(db, { parentRunId: parseId(run, "run"), fromLabel: opts.from, overrides, actor });
+        const { runId } = createRun(db, { source: "rerun", parentRunId: parseId(run, "run"), fromLabel: opts.from, overrides, actor });
         if (!opts.json) process.stderr.write(`rerun of run ${run} from ${opts.from} as run ${runId}\n`);
         await executeInTerminal(db, runId, opts);
       }),

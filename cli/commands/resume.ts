@@ -1,6 +1,6 @@
 /** `tracewright resume` and `tracewright execute-run`: continue an unfinished run; execute a queued one. */
 import type { Command } from "commander";
-import { prepareResume } from "../../pipeline/runner";
+import { prepareResume } from "../../pipeline/run-create";
 import { executeInTerminal } from "../execute";
 import { action, openCliDb, parseId, resolveActor } from "../shared";
 

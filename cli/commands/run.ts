@@ -1,6 +1,6 @@
 /** `tracewright run`: run a pipeline file on its field folder (or another). */
 import type { Command } from "commander";
-import { prepareRunFromFile } from "../../pipeline/runner";
+import { createRun } from "../../pipeline/run-create";
 import { executeInTerminal } from "../execute";
 import { action, openCliDb, resolveActor } from "../shared";
 
@@ -17,7 +17,7 @@ export function registerRun(program: Command): void {
       action(async (file: string, opts: { fieldData?: string; as?: string; json?: boolean; verbose?: boolean }) => {
         const db = openCliDb();
         const actor = resolveActor(db, opts.as);
-        const prepared = prepareRunFromFile(db, { pipelinePath: file, fieldDataOverride: opts.fieldData, actor });
+        const prepared = createRun(db, { source: "pipeline-file", pipelinePath: file, fieldDataOverride: opts.fieldData, actor });
         if (!opts.json) {
           process.stderr.write(
             `${prepared.resolved.name} v${prepared.pipelineVersion} on ${prepared.dataset.folderPath || "(no field data)"} (${prepared.dataset.fileCount} files, ${prepared.dataset.contentHash.slice(0, 12)})\n`,

@@ -134,6 +134,7 @@ export function registerRuns(program: Command): void {
               durationMs: s.durationMs,
               params: s.params,
               inputs: s.inputs,
+              inputSources: s.inputSources,
               outputs: s.outputs,
               summary: s.summary,
               error: s.error,
@@ -162,7 +163,10 @@ export function registerRuns(program: Command): void {
           const hit = s.cacheHit ? `cached from run ${s.cacheSourceRunId}` : "";
           out(`  ${s.position + 1}. ${s.label} (${s.stepId} v${s.stepVersion})  ${s.status}  ${formatDuration(s.durationMs)}  ${hit}`);
           out(`     settings ${JSON.stringify(s.params)}`);
-          for (const [slot, h] of Object.entries(s.inputs)) out(`     in  ${slot.padEnd(14)} ${h.slice(0, 16)}`);
+          for (const [slot, h] of Object.entries(s.inputs)) {
+            const src = s.inputSources[slot];
+            out(`     in  ${slot.padEnd(14)} ${h.slice(0, 16)}${src ? `  from ${src.from}${src.explicit ? " (named in the file)" : ""}` : ""}`);
+          }
           for (const [slot, h] of Object.entries(s.outputs)) out(`     out ${slot.padEnd(14)} ${h}`);
           if (s.summary) out(`     summary ${JSON.stringify(s.summary)}`);
           for (const x of intermediates.get(s.id) ?? []) {

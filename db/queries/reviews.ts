@@ -2,7 +2,7 @@
 import { desc, eq } from "drizzle-orm";
 import type { Db } from "../client";
 import { reviews, runs, users } from "../schema";
-import { AppError } from "../../pipeline/errors";
+import { RecordError } from "../errors";
 
 export type ReviewDecision = "approved" | "returned";
 
@@ -44,16 +44,16 @@ export function addReview(
   input: { runId: number; reviewerUserId: number; decision: ReviewDecision; comment: string },
 ): ReviewRow {
   const run = db.select({ id: runs.id, status: runs.status }).from(runs).where(eq(runs.id, input.runId)).get();
-  if (!run) throw new AppError("not-found", `No run with id ${input.runId}.`, { field: "runId" });
+  if (!run) throw new RecordError("not-found", `No run with id ${input.runId}.`, "runId");
   if (run.status !== "succeeded" && run.status !== "failed") {
-    throw new AppError("conflict", `Run ${input.runId} is ${run.status}; only finished runs can be reviewed.`);
+    throw new RecordError("conflict", `Run ${input.runId} is ${run.status}; only finished runs can be reviewed.`);
   }
   if (input.decision === "approved" && run.status !== "succeeded") {
-    throw new AppError("conflict", `Run ${input.runId} failed; a failed run can be sent back but not approved.`, { field: "decision" });
+    throw new RecordError("conflict", `Run ${input.runId} failed; a failed run can be sent back but not approved.`, "decision");
   }
   const comment = input.comment.trim();
   if (input.decision === "returned" && comment.length === 0) {
-    throw new AppError("bad-input", "Say what needs changing when sending a run back.", { field: "comment" });
+    throw new RecordError("bad-input", "Say what needs changing when sending a run back.", "comment");
   }
   const row = db
     .insert(reviews)

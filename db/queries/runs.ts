@@ -163,6 +163,11 @@ export interface RunStepDetail extends Omit<RunStepRow, "paramsJson" | "inputsJs
   series: Array<{ name: string; xLabel: string; yLabel: string; points: Array<{ x: number; y: number; group?: string }> }>;
   /** The run that computed the outputs of a cache hit. */
   cacheSourceRunId: number | null;
+  /**
+   * Where each input came from: the label of the step that wrote it (or "field data",
+   * "geometry table"), and whether the pipeline file named it (`input:`) or it was the latest value.
+   */
+  inputSources: Record<string, { from: string; explicit: boolean }>;
 }
 
 export interface RunDetail extends Omit<RunRow, "stepsDone" | "stepsTotal" | "cacheHits"> {
@@ -190,6 +195,7 @@ export function getRun(db: Db, id: number): RunDetail | null {
       folder: datasets.folderPath,
       profileName: profiles.name,
       source: pipelineVersions.sourceText,
+      definitionJson: pipelineVersions.definitionJson,
       userName: users.name,
       userEmail: users.email,
     })
@@ -213,6 +219,8 @@ export function getRun(db: Db, id: number): RunDetail | null {
       : [],
   );
   const children = db.select({ id: runs.id }).from(runs).where(eq(runs.parentRunId, id)).orderBy(asc(runs.id)).all();
+  const definition = JSON.parse(extra.definitionJson) as { steps?: Array<{ label: string; inputs?: Record<string, string> }> };
+  const named = new Map((definition.steps ?? []).map((d) => [d.label, d.inputs]));
   return {
     ...(r as Omit<RunRow, "stepsDone" | "stepsTotal" | "cacheHits">),
     overrides: JSON.parse(extra.overridesJson),
@@ -222,7 +230,7 @@ export function getRun(db: Db, id: number): RunDetail | null {
     pipelineSource: extra.source,
     startedByName: extra.userName,
     startedByEmail: extra.userEmail,
-    steps: steps.map(({ paramsJson, inputsJson, outputsJson, summaryJson, seriesJson, ...s }) => ({
+    steps: steps.map(({ paramsJson, inputsJson, outputsJson, summaryJson, seriesJson, ...s }, i) => ({
       ...s,
       params: JSON.parse(paramsJson),
       inputs: JSON.parse(inputsJson),
@@ -230,6 +238,7 @@ export function getRun(db: Db, id: number): RunDetail | null {
       summary: summaryJson ? JSON.parse(summaryJson) : null,
       series: seriesJson ? JSON.parse(seriesJson) : [],
       cacheSourceRunId: s.cacheSourceStepId ? (sourceRuns.get(s.cacheSourceStepId) ?? null) : null,
+      inputSources: inputSourcesOf(steps, i, named.get(s.label)),
     })),
     rejectedFiles: db
       .select({ name: rejectedFiles.name, reason: rejectedFiles.reason })
@@ -238,6 +247,28 @@ export function getRun(db: Db, id: number): RunDetail | null {
       .all(),
     childRunIds: children.map((c) => c.id),
   };
+}
+
+const RUNNER_SOURCES: Record<string, string> = { fieldFiles: "field data", geometryTable: "geometry table" };
+
+/** Where the inputs of step `i` came from: named in the file, else the latest earlier step that wrote that artifact. */
+function inputSourcesOf(steps: RunStepRow[], i: number, named: Record<string, string> | undefined) {
+  const out: Record<string, { from: string; explicit: boolean }> = {};
+  for (const [slot, hash] of Object.entries(JSON.parse(steps[i].inputsJson) as Record<string, string>)) {
+    if (named?.[slot]) {
+      out[slot] = { from: named[slot], explicit: true };
+      continue;
+    }
+    let from = RUNNER_SOURCES[slot] ?? "?";
+    for (let k = i - 1; k >= 0; k--) {
+      if ((JSON.parse(steps[k].outputsJson) as Record<string, string>)[slot] === hash) {
+        from = steps[k].label;
+        break;
+      }
+    }
+    out[slot] = { from, explicit: false };
+  }
+  return out;
 }
 
 export type LogRow = typeof stepLogs.$inferSelect;

@@ -6,7 +6,7 @@ import { asc, eq } from "drizzle-orm";
 import bcrypt from "bcryptjs";
 import type { Db } from "../client";
 import { users, type Role } from "../schema";
-import { AppError } from "../../pipeline/errors";
+import { RecordError } from "../errors";
 
 /** A user as shown to people (no password hash). */
 export interface UserRow {
@@ -64,11 +64,11 @@ export async function verifyCredentials(db: Db, email: string, password: string)
   return ok ? toRow(u) : null;
 }
 
-/** Adds a user with a bcrypt-hashed password. Throws AppError "conflict" when the email is taken. */
+/** Adds a user with a bcrypt-hashed password. Throws RecordError "conflict" when the email is taken. */
 export function createUser(db: Db, input: { email: string; name: string; role: Role; password: string }): UserRow {
   const email = normaliseEmail(input.email);
   if (getUserByEmail(db, email)) {
-    throw new AppError("conflict", `A user with the email ${email} already exists.`, { field: "email" });
+    throw new RecordError("conflict", `A user with the email ${email} already exists.`, "email");
   }
   const passwordHash = bcrypt.hashSync(input.password, BCRYPT_ROUNDS);
   const u = db.insert(users).values({ email, name: input.name.trim(), role: input.role, passwordHash }).returning().get();
@@ -77,7 +77,7 @@ export function createUser(db: Db, input: { email: string; name: string; role: R
 
 function requireUser(db: Db, id: number): UserRow {
   const u = getUserById(db, id);
-  if (!u) throw new AppError("not-found", `No user with id ${id}.`, { field: "userId" });
+  if (!u) throw new RecordError("not-found", `No user with id ${id}.`, "userId");
   return u;
 }
 

@@ -8,7 +8,7 @@ import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { GatherSet, PickSet } from "../types";
 import { aicPicks, flagOffsetOutliers, staLtaPicks, type PickSearchWindow } from "../kernels/pickers";
-import { runTraceBlocks } from "./trace-blocks";
+import { runTraceBlocks } from "../workers/trace-blocks";
 
 export const firstArrivalsParams = z
   .object({

@@ -7,7 +7,7 @@ import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { Gather, GatherSet } from "../types";
 import { filterTraces, mainsHumLines, planFrequencyFilter, type FrequencyFilterDesign } from "../kernels/filter";
-import { transformTraceBlocks } from "./trace-blocks";
+import { transformTraceBlocks } from "../workers/trace-blocks";
 
 export const frequencyFilterParams = z
   .object({

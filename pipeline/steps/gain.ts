@@ -7,7 +7,7 @@ import { z } from "zod";
 import { defineStep, throwIfAborted } from "../step";
 import type { Gather, GatherSet } from "../types";
 import { agcTraces, normaliseTraces, timePowerTraces } from "../kernels/gain";
-import { runTraceBlocks } from "./trace-blocks";
+import { runTraceBlocks } from "../workers/trace-blocks";
 
 export const gainParams = z
   .object({

@@ -115,6 +115,7 @@ export const importRecordsStep = defineStep({
     return {
       outputs: { gathers: { kind: "gathers", gathers }, report: { kind: "json", role: "import", data: report } },
       summary: { filesRead: report.read.length, filesRejected: report.rejected.length, filesIgnored: report.ignored.length, gathers: gathers.length, traces },
+      rejectedFiles: report.rejected.map((r) => ({ file: r.file, reason: r.reason })),
     };
   },
 });

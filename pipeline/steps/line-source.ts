@@ -8,7 +8,7 @@ import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { Gather, GatherSet } from "../types";
 import { lineSourceTraces } from "../kernels/line-source";
-import { transformTraceBlocks } from "./trace-blocks";
+import { transformTraceBlocks } from "../workers/trace-blocks";
 
 export const lineSourceParams = z.object({
   /** @default "direct-wave" */

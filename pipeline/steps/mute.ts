@@ -7,7 +7,7 @@ import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { Gather, GatherSet, MuteSet, PickSet } from "../types";
 import { applyMutes, linearMuteLine, type MuteLines } from "../kernels/mute";
-import { runTraceBlocks } from "./trace-blocks";
+import { runTraceBlocks } from "../workers/trace-blocks";
 
 const windowSpec = z
   .object({

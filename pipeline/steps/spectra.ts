@@ -6,7 +6,7 @@ import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { GatherSet, SpectrumSet } from "../types";
 import { amplitudeSpectra, meanSpectrum, spectrumFrequencies } from "../kernels/spectrum";
-import { runTraceBlocks } from "./trace-blocks";
+import { runTraceBlocks } from "../workers/trace-blocks";
 
 export const spectraParams = z.object({
   /** @default 5 */

@@ -6,7 +6,7 @@ import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { Gather, GatherSet } from "../types";
 import { resampleTraces, shiftTraces, type TimeGrid } from "../kernels/resample";
-import { transformTraceBlocks } from "./trace-blocks";
+import { transformTraceBlocks } from "../workers/trace-blocks";
 
 export const timeWindowParams = z
   .object({

@@ -17,7 +17,7 @@ vi.mock("next/headers", () => ({
 import { closeDb, getDb } from "@/db/client";
 import { seedDemoUsers } from "@/db/seed";
 import { getUserByEmail } from "@/db/queries/users";
-import { executeRun, prepareRunFromFile } from "@/pipeline/runner";
+import { createRun, executeRun } from "@/pipeline/runner";
 import { readArtifactSync } from "@/pipeline/artifact-store";
 import { registerEngineTestSteps } from "../helpers/engine-steps";
 import * as intermediatesRoute from "@/app/api/runs/[runId]/steps/[stepLabel]/intermediates/route";
@@ -52,7 +52,7 @@ steps:
     settings: { iterations: 3 }
 `,
   );
-  runId = prepareRunFromFile(db, { pipelinePath: file, actor: { userId: null, label: "tester", door: "cli" } }).runId;
+  runId = createRun(db, { source: "pipeline-file", pipelinePath: file, actor: { userId: null, label: "tester", door: "cli" } }).runId;
   await executeRun(db, runId);
 });
 

@@ -26,7 +26,7 @@ import { getUserByEmail } from "@/db/queries/users";
 import { listAudit } from "@/db/queries/audit";
 import { getRun } from "@/db/queries/runs";
 import { readArtifactSync } from "@/pipeline/artifact-store";
-import { executeRun, prepareRunFromFile } from "@/pipeline/runner";
+import { createRun, executeRun } from "@/pipeline/runner";
 import { launchInBackground } from "@/pipeline/launch";
 import type { GatherSet } from "@/pipeline/types";
 import { decodeWire } from "@/app/lib/trace-wire";
@@ -80,7 +80,7 @@ steps:
     settings: { factor: 3 }
 `,
   );
-  const prepared = prepareRunFromFile(db, { pipelinePath: file, actor: { userId: null, label: "tester", door: "cli" } });
+  const prepared = createRun(db, { source: "pipeline-file", pipelinePath: file, actor: { userId: null, label: "tester", door: "cli" } });
   runId = prepared.runId;
   await executeRun(db, runId);
   gathersHash = getRun(db, runId)!.steps[1].outputs.gathers;

@@ -203,9 +203,33 @@ export const iterateStep = defineStep({
   },
 });
 
+export const poisonStep = defineStep({
+  id: "test-poison",
+  version: 1,
+  title: "poison one sample",
+  description: "test step: puts a non-finite value into one sample of one trace, as a faulty step would",
+  reads: ["gathers"],
+  writes: ["gathers"],
+  params: z.object({
+    trace: z.number().int().nonnegative().default(1).describe("0-based trace index"),
+    sample: z.number().int().nonnegative().default(0).describe("0-based sample index"),
+    what: z.enum(["nan", "infinity"]).default("nan").describe("value written"),
+  }),
+  async run(input, p) {
+    count("test-poison");
+    const set = input.gathers!;
+    const gathers = set.gathers.map((g, k) => {
+      const data = g.data.slice();
+      if (k === 0) data[p.trace * g.sampleCount + p.sample] = p.what === "nan" ? NaN : -Infinity;
+      return { ...g, data };
+    });
+    return { outputs: { gathers: { kind: "gathers", gathers } } };
+  },
+});
+
 /** Registers the test steps once per process. */
 export function registerEngineTestSteps(): void {
-  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles, readTable, readLabel, iterateStep]) {
+  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles, readTable, readLabel, iterateStep, poisonStep]) {
     if (!listSteps().some((x) => x.id === s.id)) registerStep(s);
   }
 }

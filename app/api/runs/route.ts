@@ -5,7 +5,8 @@ import { answer, parseOr400 } from "@/app/lib/api";
 import { readRunList } from "@/app/lib/reads";
 import { runFilterSchema, toDbFilter } from "@/app/lib/run-filter";
 import { requirePermission, webActor } from "@/app/lib/session";
-import { launchInBackground, queueRun } from "@/pipeline/launch";
+import { launchInBackground } from "@/pipeline/launch";
+import { createRun } from "@/pipeline/run-create";
 
 export const dynamic = "force-dynamic";
 export const runtime = "nodejs";
@@ -29,7 +30,7 @@ export async function POST(req: Request) {
   return answer(async () => {
     const user = await requirePermission("runs.start");
     const body = parseOr400(startSchema, await req.json().catch(() => null), "body");
-    const { runId } = queueRun(getDb(), { ...body, actor: webActor(user) });
+    const { runId } = createRun(getDb(), { source: "pipeline-version", ...body, actor: webActor(user) });
     launchInBackground(runId);
     return NextResponse.json({ runId }, { status: 202 });
   });

@@ -48,7 +48,7 @@ export function StepPanel({ run, step, canRerun, live }: { run: RunView; step: S
             <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Inputs and outputs</h3>
             <dl className="grid grid-cols-[auto_1fr] gap-x-3 gap-y-0.5 text-xs">
               {Object.entries(step.inputs).map(([slot, hash]) => (
-                <div key={`in-${slot}`} className="contents"><dt className="muted">in · {slot}</dt><dd className="font-mono" title={hash}>{shortHash(hash)}</dd></div>
+                <div key={`in-${slot}`} className="contents"><dt className="muted">in · {slot}</dt><dd className="font-mono" title={hash}>{shortHash(hash)}{step.inputSources?.[slot] ? <span className="muted"> from {step.inputSources[slot].from}{step.inputSources[slot].explicit ? " (named in the file)" : ""}</span> : null}</dd></div>
               ))}
               {Object.entries(step.outputs).map(([slot, hash]) => (
                 <div key={`out-${slot}`} className="contents"><dt className="muted">out · {slot}</dt><dd className="font-mono" title={hash}>{shortHash(hash)}</dd></div>

@@ -15,12 +15,11 @@ import { getRun, listRuns } from "../../../db/queries/runs";
 import { listAudit } from "../../../db/queries/audit";
 import { hasArtifact, readArtifactSync } from "../../../pipeline/artifact-store";
 import {
-  createRerun,
+  createRun,
   executeRun,
   HEARTBEAT_STALE_MS,
   markInterruptedRuns,
   prepareResume,
-  prepareRunFromFile,
   requestCancel,
 } from "../../../pipeline/runner";
 import { calls, registerEngineTestSteps } from "../../helpers/engine-steps";
@@ -69,7 +68,7 @@ beforeEach(() => {
 describe("running and caching", () => {
   it("runs every step, records it and stores content-addressed artifacts", async () => {
     const file = writePipeline("three", THREE_STEPS);
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     const outcome = await executeRun(db, runId);
     expect(outcome.status).toBe("succeeded");
     const detail = getRun(db, runId)!;
@@ -92,7 +91,9 @@ describe("running and caching", () => {
 
   it("a second run of the same pipeline is served entirely from the cache", async () => {
     const file = writePipeline("three", THREE_STEPS);
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    await executeRun(db, createRun(db, { source: "pipeline-file", pipelinePath: file, actor }).runId);
+    for (const k of Object.keys(calls)) delete calls[k];
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     await executeRun(db, runId);
     expect(calls).toEqual({});
     expect(getRun(db, runId)!.steps.every((s) => s.cacheHit)).toBe(true);
@@ -100,10 +101,10 @@ describe("running and caching", () => {
 
   it("a rerun of the last step with a changed setting recomputes only that step", async () => {
     const file = writePipeline("three", THREE_STEPS);
-    const { runId: parent } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId: parent } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     await executeRun(db, parent);
     for (const k of Object.keys(calls)) delete calls[k];
-    const child = createRerun(db, { parentRunId: parent, fromLabel: "second-scale", overrides: { "second-scale": { factor: 5 } }, actor });
+    const child = createRun(db, { source: "rerun", parentRunId: parent, fromLabel: "second-scale", overrides: { "second-scale": { factor: 5 } }, actor }).runId;
     const outcome = await executeRun(db, child);
     expect(outcome.status).toBe("succeeded");
     expect(calls).toEqual({ "test-scale": 1 });
@@ -117,26 +118,26 @@ describe("running and caching", () => {
   });
 
   it("a rerun refuses overrides before its start step and unknown settings, naming them", () => {
-    const runId = listRuns(db, { pipelineName: "engine-check", pageSize: 1 }).rows[0].id;
-    expect(() => createRerun(db, { parentRunId: runId, fromLabel: "second-scale", overrides: { "first-scale": { factor: 1 } }, actor })).toThrow(
+    const runId = createRun(db, { source: "pipeline-file", pipelinePath: writePipeline("three", THREE_STEPS), actor }).runId;
+    expect(() => createRun(db, { source: "rerun", parentRunId: runId, fromLabel: "second-scale", overrides: { "first-scale": { factor: 1 } }, actor }).runId).toThrow(
       /first-scale: this step comes before second-scale/,
     );
-    expect(() => createRerun(db, { parentRunId: runId, fromLabel: "second-scale", overrides: { "second-scale": { fcator: 1 } }, actor })).toThrow(
+    expect(() => createRun(db, { source: "rerun", parentRunId: runId, fromLabel: "second-scale", overrides: { "second-scale": { fcator: 1 } }, actor }).runId).toThrow(
       /second-scale.fcator: unknown setting; valid settings of test-scale: factor/,
     );
-    expect(() => createRerun(db, { parentRunId: runId, fromLabel: "second-scale", overrides: { "second-scale": { factor: "x" } }, actor })).toThrow(
+    expect(() => createRun(db, { source: "rerun", parentRunId: runId, fromLabel: "second-scale", overrides: { "second-scale": { factor: "x" } }, actor }).runId).toThrow(
       /second-scale.factor/,
     );
-    expect(() => createRerun(db, { parentRunId: 99999, fromLabel: "x", overrides: {}, actor })).toThrow(/Run 99999 does not exist/);
+    expect(() => createRun(db, { source: "rerun", parentRunId: 99999, fromLabel: "x", overrides: {}, actor }).runId).toThrow(/Run 99999 does not exist/);
   });
 
   it("a changed pipeline file becomes a new version; an unchanged one does not", () => {
     const file = writePipeline("versions", THREE_STEPS.replace("engine-check", "versioned"));
-    const a = prepareRunFromFile(db, { pipelinePath: file, actor });
-    const b = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const a = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
+    const b = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     expect(b.pipelineVersion).toBe(a.pipelineVersion);
     fs.writeFileSync(file, THREE_STEPS.replace("engine-check", "versioned").replace("factor: 2", "factor: 4"));
-    const c = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const c = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     expect(c.pipelineVersion).toBe(a.pipelineVersion + 1);
     for (const id of [a.runId, b.runId, c.runId]) requestCancel(db, id, actor);
   });
@@ -155,7 +156,7 @@ steps:
   - step: test-scale
 `,
     );
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     const outcome = await executeRun(db, runId);
     expect(outcome.status).toBe("failed");
     expect(outcome.error).toBe("test-fail: the traces are not what this step expects (test)");
@@ -174,13 +175,15 @@ steps:
   - step: test-make-traces
     settings: { value: 9 }
   - step: test-wait
-    settings: { ms: 20000 }
+    settings: { ms: 60000, startedFlagFile: ${JSON.stringify(path.join(tmp, "cancel-started.flag"))} }
   - step: test-scale
 `,
     );
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     const running = executeRun(db, runId, { cancelPollMs: 50 });
-    await new Promise((r) => setTimeout(r, 300));
+    // Cancel once the waiting step has started (its flag file appears), not after a fixed time.
+    const deadline = Date.now() + 30_000;
+    while (!fs.existsSync(path.join(tmp, "cancel-started.flag")) && Date.now() < deadline) await new Promise((r) => setTimeout(r, 20));
     requestCancel(db, runId, actor);
     const outcome = await running;
     expect(outcome.status).toBe("cancelled");
@@ -215,7 +218,7 @@ steps:
     label: after-wait
 `,
     );
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     const child = tsxChild("execute-run.ts", [String(runId)]);
     const deadline = Date.now() + 30_000;
     while (!fs.existsSync(flag) && Date.now() < deadline) await new Promise((r) => setTimeout(r, 50));
@@ -256,10 +259,10 @@ steps:
   - step: test-read-table
 `,
     );
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     await executeRun(db, runId);
     fs.writeFileSync(table, "edited later\n");
-    const child = createRerun(db, { parentRunId: runId, fromLabel: "test-read-table", overrides: { "test-read-table": { tag: "again" } }, actor });
+    const child = createRun(db, { source: "rerun", parentRunId: runId, fromLabel: "test-read-table", overrides: { "test-read-table": { tag: "again" } }, actor }).runId;
     fs.rmSync(table);
     expect((await executeRun(db, child)).status).toBe("succeeded");
     const report = readArtifactSync(getRun(db, child)!.steps[0].outputs.report) as { data: string };
@@ -268,7 +271,7 @@ steps:
 
   it("a running run whose heartbeat is stale is marked interrupted even when its process id is in use", () => {
     const file = writePipeline("stale", "name: engine-stale\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n");
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     // As if a process had claimed it long ago and the machine restarted: this test's own pid is alive.
     db.update(runs)
       .set({ status: "running", hostPid: process.ppid, heartbeatAt: new Date(Date.now() - HEARTBEAT_STALE_MS - 1000) })
@@ -296,7 +299,7 @@ steps:
   - step: test-scale
 `,
     );
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     const running = executeRun(db, runId, { cancelPollMs: 50 });
     const deadline = Date.now() + 10_000;
     while (!fs.existsSync(flag) && Date.now() < deadline) await new Promise((r) => setTimeout(r, 20));
@@ -314,7 +317,7 @@ steps:
 describe("stuck queued runs", () => {
   it("a queued run nobody executed can be resumed, which executes it", async () => {
     const file = writePipeline("queued", "name: engine-queued\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { value: 3 }\n");
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     prepareResume(db, runId, actor);
     expect((await executeRun(db, runId)).status).toBe("succeeded");
     expect(() => prepareResume(db, runId, actor)).toThrow(/only queued, interrupted, failed or cancelled runs can be resumed/);

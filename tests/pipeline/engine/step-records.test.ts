@@ -16,7 +16,7 @@ import { artifacts, runs } from "../../../db/schema";
 import { listIntermediates } from "../../../db/queries/intermediates";
 import { getRun } from "../../../db/queries/runs";
 import { readArtifactSync } from "../../../pipeline/artifact-store";
-import { executeRun, markInterruptedRuns, prepareResume, prepareRunFromFile } from "../../../pipeline/runner";
+import { createRun, executeRun, markInterruptedRuns, prepareResume } from "../../../pipeline/runner";
 import { calls, registerEngineTestSteps } from "../../helpers/engine-steps";
 import type { JsonDocument } from "../../../pipeline/types";
 
@@ -76,7 +76,7 @@ describe("a step that records intermediate results and checkpoints", () => {
     const flag = path.join(tmp, "holding.flag");
     const release = path.join(tmp, "release.flag");
     const file = pipeline("iterate-killed", { iterations: 10, holdAfter: 5, startedFlagFile: flag, releaseFile: release });
-    const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     const child = execa(process.execPath, ["--import", "tsx", path.join(process.cwd(), "tests/fixtures/engine/execute-run.ts"), String(runId)], {
       env: { ...process.env, TRACEWRIGHT_DATA_DIR: tmp },
       reject: false,
@@ -125,7 +125,7 @@ describe("a step that records intermediate results and checkpoints", () => {
     expect(invert.series.find((s) => s.name === "misfit")!.points.map((p) => p.x)).toEqual([0, 1, 2, 3, 4, 5, 6, 7, 8, 9]);
 
     // An uninterrupted run of the same computation ends with the same outputs and intermediates.
-    const plain = prepareRunFromFile(db, { pipelinePath: pipeline("iterate-plain", { iterations: 10 }), actor });
+    const plain = createRun(db, { source: "pipeline-file", pipelinePath: pipeline("iterate-plain", { iterations: 10 }), actor });
     expect((await executeRun(db, plain.runId)).status).toBe("succeeded");
     const plainStep = getRun(db, plain.runId)!.steps[1];
     expect(plainStep.outputs.report).toBe(invert.outputs.report);
@@ -141,9 +141,9 @@ describe("a step that records intermediate results and checkpoints", () => {
 
   it("a cache hit lists the intermediate results of the step that computed it", async () => {
     const file = pipeline("iterate-cached", { iterations: 3 });
-    const first = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const first = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     await executeRun(db, first.runId);
-    const second = prepareRunFromFile(db, { pipelinePath: file, actor });
+    const second = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     for (const k of Object.keys(calls)) delete calls[k];
     await executeRun(db, second.runId);
     expect(calls["test-iterate"]).toBeUndefined();

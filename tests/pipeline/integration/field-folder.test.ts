@@ -14,7 +14,7 @@ import { closeDb, getDb, type Db } from "../../../db/client";
 import { getRun } from "../../../db/queries/runs";
 import { readArtifactSync } from "../../../pipeline/artifact-store";
 import { exportArtifact } from "../../../pipeline/export";
-import { executeRun, prepareRunFromFile } from "../../../pipeline/runner";
+import { createRun, executeRun } from "../../../pipeline/runner";
 import type { GatherSet } from "../../../pipeline/types";
 import { writeQuillmoorSurvey } from "../../../examples/quillmoor/make-field-data";
 
@@ -58,7 +58,7 @@ describe("a field folder end to end", () => {
     const bytes = fs.readFileSync(victim);
     fs.writeFileSync(victim, bytes.subarray(0, Math.floor(bytes.length * 0.6)));
 
-    const { runId } = prepareRunFromFile(db, { pipelinePath: path.join(tmp, "pipeline.yaml"), actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: path.join(tmp, "pipeline.yaml"), actor });
     const outcome = await executeRun(db, runId);
     expect(outcome.status, outcome.error).toBe("succeeded");
     const detail = getRun(db, runId)!;

@@ -9,7 +9,7 @@ import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { closeDb, getDb, type Db } from "../../../db/client";
 import { getRun } from "../../../db/queries/runs";
 import { readArtifactSync } from "../../../pipeline/artifact-store";
-import { createRerun, executeRun, prepareRunFromFile } from "../../../pipeline/runner";
+import { createRun, executeRun } from "../../../pipeline/runner";
 import type { MuteSet, PickSet, SpectrumSet } from "../../../pipeline/types";
 import { writeQuillmoorSurvey } from "../../../examples/quillmoor/make-field-data";
 
@@ -61,7 +61,7 @@ afterAll(() => {
 
 describe("signal steps in a pipeline", () => {
   it("run from a pipeline file, then rerun with a changed corner: earlier steps come from the cache", async () => {
-    const { runId } = prepareRunFromFile(db, { pipelinePath: writePipeline("signal", "{ lowCutHz: 8, highCutHz: 150, mainsHz: 50 }"), actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: writePipeline("signal", "{ lowCutHz: 8, highCutHz: 150, mainsHz: 50 }"), actor });
     const first = await executeRun(db, runId);
     expect(first.status, first.error).toBe("succeeded");
     const detail = getRun(db, runId)!;
@@ -75,7 +75,7 @@ describe("signal steps in a pipeline", () => {
     const spectra = readArtifactSync(byLabel["spectra"].outputs.spectra) as SpectrumSet;
     expect(spectra.gathers).toHaveLength(2);
 
-    const rerunId = createRerun(db, { parentRunId: runId, fromLabel: "frequency-filter", overrides: { "frequency-filter": { highCutHz: 90 } }, actor });
+    const rerunId = createRun(db, { source: "rerun", parentRunId: runId, fromLabel: "frequency-filter", overrides: { "frequency-filter": { highCutHz: 90 } }, actor }).runId;
     const second = await executeRun(db, rerunId);
     expect(second.status, second.error).toBe("succeeded");
     const steps = getRun(db, rerunId)!.steps;
@@ -84,7 +84,7 @@ describe("signal steps in a pipeline", () => {
     expect(steps.find((s) => s.label === "frequency-filter")!.params).toMatchObject({ highCutHz: 90 });
 
     // The same settings again: every step is a cache hit.
-    const sameId = createRerun(db, { parentRunId: runId, fromLabel: "frequency-filter", overrides: {}, actor });
+    const sameId = createRun(db, { source: "rerun", parentRunId: runId, fromLabel: "frequency-filter", overrides: {}, actor }).runId;
     expect((await executeRun(db, sameId)).status).toBe("succeeded");
     expect(getRun(db, sameId)!.steps.every((s) => s.cacheHit)).toBe(true);
   });
@@ -93,7 +93,7 @@ describe("signal steps in a pipeline", () => {
     const file = writePipeline("bad-corners", "{ lowCutHz: 200, highCutHz: 100 }");
     let err: unknown;
     try {
-      prepareRunFromFile(db, { pipelinePath: file, actor });
+      createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
     } catch (e) {
       err = e;
     }
@@ -104,7 +104,7 @@ describe("signal steps in a pipeline", () => {
   });
 
   it("fails a corner at or above Nyquist with a clear message before filtering", async () => {
-    const { runId } = prepareRunFromFile(db, { pipelinePath: writePipeline("nyquist", "{ highCutHz: 2500 }"), actor });
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: writePipeline("nyquist", "{ highCutHz: 2500 }"), actor });
     const outcome = await executeRun(db, runId);
     expect(outcome.status).toBe("failed");
     expect(outcome.error).toMatch(/highCutHz 2500 Hz is at or above the Nyquist frequency of gather/);

@@ -12,7 +12,7 @@ import { spectraStep } from "../../../pipeline/steps/spectra";
 import { timeWindowStep } from "../../../pipeline/steps/time-window";
 import type { AnyStepDefinition } from "../../../pipeline/step";
 import type { GatherSet } from "../../../pipeline/types";
-import { POOL_MIN_SAMPLES, blockCountFor } from "../../../pipeline/steps/trace-blocks";
+import { POOL_MIN_SAMPLES, blockCountFor } from "../../../pipeline/workers/trace-blocks";
 import { encodeArtifact } from "../../../pipeline/artifact-codec";
 import { makeStepContext } from "../../helpers/step-context";
 import { seededRandom } from "../../helpers/random";

@@ -2,7 +2,7 @@ import { NextResponse } from "next/server";
 import { getDb } from "@/db/client";
 import { answer, parseId } from "@/app/lib/api";
 import { requirePermission, webActor } from "@/app/lib/session";
-import { requestCancel } from "@/pipeline/launch";
+import { requestCancel } from "@/pipeline/run-create";
 
 export const dynamic = "force-dynamic";
 export const runtime = "nodejs";

@@ -3,7 +3,8 @@ import { z } from "zod";
 import { getDb } from "@/db/client";
 import { answer, parseId, parseOr400 } from "@/app/lib/api";
 import { requirePermission, webActor } from "@/app/lib/session";
-import { launchInBackground, queueRerun } from "@/pipeline/launch";
+import { launchInBackground } from "@/pipeline/launch";
+import { createRun } from "@/pipeline/run-create";
 
 export const dynamic = "force-dynamic";
 export const runtime = "nodejs";
@@ -24,7 +25,7 @@ export async function POST(req: Request, ctx: { params: Promise<{ runId: string 
     const user = await requirePermission("runs.rerun");
     const parentRunId = parseId((await ctx.params).runId, "runId");
     const body = parseOr400(rerunSchema, await req.json().catch(() => null), "body");
-    const { runId } = queueRerun(getDb(), { parentRunId, fromLabel: body.fromLabel, overrides: body.overrides, actor: webActor(user) });
+    const { runId } = createRun(getDb(), { source: "rerun", parentRunId, fromLabel: body.fromLabel, overrides: body.overrides, actor: webActor(user) });
     launchInBackground(runId);
     return NextResponse.json({ runId }, { status: 202 });
   });

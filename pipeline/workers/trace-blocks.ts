@@ -6,7 +6,7 @@
  * (not cloned) to the worker. Results come back in trace order.
  */
 import type { StepContext } from "../step";
-import type { WorkerPool } from "../workers/pool";
+import type { WorkerPool } from "./pool";
 
 /** Gathers with fewer samples than this run in-process: the hand-off costs more than it saves. */
 export const POOL_MIN_SAMPLES = 1 << 17;
