@@ -13,7 +13,8 @@ import { makeGather } from "./make-gather";
 import { closeDb, getDb } from "../../../db/client";
 import { getRun } from "../../../db/queries/runs";
 import { readArtifactSync } from "../../../pipeline/artifact-store";
-import { executeRun, prepareRunFromFile } from "../../../pipeline/runner";
+import { executeRun } from "../../../pipeline/runner";
+import { createRun } from "../../../pipeline/run-create";
 import { writeQuillmoorSurvey } from "../../../examples/quillmoor/make-field-data";
 
 const V0 = 450;
@@ -222,7 +223,7 @@ describe("first-arrival-tomography in a pipeline", () => {
           "",
         ].join("\n"),
       );
-      const { runId } = prepareRunFromFile(db, { pipelinePath: file, actor: { userId: null, label: "tester", door: "cli" } });
+      const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor: { userId: null, label: "tester", door: "cli" } });
       const run = await executeRun(db, runId);
       expect(run.status, run.error).toBe("succeeded");
       const steps = Object.fromEntries(getRun(db, runId)!.steps.map((st) => [st.label, st]));
