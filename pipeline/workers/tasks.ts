@@ -140,3 +140,10 @@ export function modelShotTask(arg: { model: ElasticModel; shot: ShotPositions; o
 export function solverBenchTask(arg: Parameters<typeof timeKernelSteps>[0]) {
   return timeKernelSteps(arg);
 }
+
+import { timeWasmKernel, type KernelTimingOptions } from "../bench/kernel-timing";
+
+/** Times the WebAssembly kernel directly in this worker (the solver bench against the C yardstick). */
+export function kernelBenchTask(arg: KernelTimingOptions) {
+  return timeWasmKernel(arg);
+}
