@@ -36,6 +36,19 @@ function ftz(v: v128): v128 {
   return v128.andnot(v, f32x4.lt(f32x4.abs(v), f32x4.splat(FLUSH_BELOW)));
 }
 
+// Constants held in memory: a v128 constant in the code is rebuilt by the engine at every use
+// inside a loop (three instructions each); a value loaded once before the loop is not.
+const K_C1 = memory.data<f32>([C1, C1, C1, C1], 16);
+const K_C2 = memory.data<f32>([C2, C2, C2, C2], 16);
+const K_FLUSH = memory.data<f32>([FLUSH_BELOW, FLUSH_BELOW, FLUSH_BELOW, FLUSH_BELOW], 16);
+const K_ABS = memory.data<i32>([0x7fffffff, 0x7fffffff, 0x7fffffff, 0x7fffffff], 16);
+
+/** {@link ftz} with its constants passed in: |v| (sign bit cleared) below `flush` becomes +0. */
+@inline
+function ftzk(v: v128, absMask: v128, flush: v128): v128 {
+  return v128.andnot(v, f32x4.lt(v128.and(v, absMask), flush));
+}
+
 // Layout.
 let nx: i32 = 0; // computational columns
 let nxv: i32 = 0; // columns processed per row, multiple of 4
@@ -132,84 +145,128 @@ const LAG = 3;
 // P-SV
 
 /** Velocity update of row j: vx, vz from the stresses. */
-@inline
 function psvVelocityRow(j: i32): void {
-  const c1 = f32x4.splat(C1);
-  const c2 = f32x4.splat(C2);
+  const c1 = v128.load(K_C1);
+  const c2 = v128.load(K_C2);
+  const absMask = v128.load(K_ABS);
+  const flush = v128.load(K_FLUSH);
   const r = rb;
   const base = org + <usize>j * r;
-  const end = base + ((<usize>nxv) << 2);
-  for (let o = base; o < end; o += 16) {
+  const n = (<usize>nxv) << 2;
+  // Row pointers, set once per row (a global is read again at every use inside a loop).
+  const sxx = pF2 + base - 4; // columns i-1 .. i+2 at byte offsets 0 .. 12
+  const sxz = pF4 + base - 8; // columns i-2 .. i+1 at byte offsets 0 .. 12
+  const sxzM1 = sxz + 8 - r;
+  const sxzM2 = sxz + 8 - 2 * r;
+  const sxzP1 = sxz + 8 + r;
+  const szz = pF3 + base;
+  const szzM1 = szz - r;
+  const szzP1 = szz + r;
+  const szzP2 = szz + 2 * r;
+  const vx = pF0 + base;
+  const vz = pF1 + base;
+  const bx = pM0 + base;
+  const bz = pM1 + base;
+  for (let o: usize = 0; o < n; o += 16) {
     // vx at (i+1/2, j): d sxx/dx + d sxz/dz
-    const ps = pF2 + o - 4;
-    const xm1 = v128.load(ps);
-    const x0 = v128.load(ps, 4);
-    const x1 = v128.load(ps, 8);
-    const x2 = v128.load(ps, 12);
+    const xm1 = v128.load(sxx + o);
+    const x0 = v128.load(sxx + o, 4);
+    const x1 = v128.load(sxx + o, 8);
+    const x2 = v128.load(sxx + o, 12);
     const dxx = f32x4.add(f32x4.mul(c1, f32x4.sub(x1, x0)), f32x4.mul(c2, f32x4.sub(x2, xm1)));
-    const pq = pF4 + o;
-    const q0 = v128.load(pq);
-    const qm1 = v128.load(pq - r);
-    const qm2 = v128.load(pq - 2 * r);
-    const qp1 = v128.load(pq + r);
-    const dzq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, qm1)), f32x4.mul(c2, f32x4.sub(qp1, qm2)));
-    const pvx = pF0 + o;
-    v128.store(pvx, ftz(f32x4.add(v128.load(pvx), f32x4.mul(v128.load(pM0 + o), f32x4.add(dxx, dzq)))));
+    const q0 = v128.load(sxz + o, 8);
+    const dzq = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(q0, v128.load(sxzM1 + o))),
+      f32x4.mul(c2, f32x4.sub(v128.load(sxzP1 + o), v128.load(sxzM2 + o))),
+    );
+    v128.store(vx + o, ftzk(f32x4.add(v128.load(vx + o), f32x4.mul(v128.load(bx + o), f32x4.add(dxx, dzq))), absMask, flush));
     // vz at (i, j+1/2): d sxz/dx + d szz/dz
-    const pr = pF4 + o - 8;
-    const rm2 = v128.load(pr);
-    const rm1 = v128.load(pr, 4);
-    const r1 = v128.load(pr, 12);
-    const dxq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, rm1)), f32x4.mul(c2, f32x4.sub(r1, rm2)));
-    const pz = pF3 + o;
-    const z0 = v128.load(pz);
-    const zm1 = v128.load(pz - r);
-    const z1 = v128.load(pz + r);
-    const z2 = v128.load(pz + 2 * r);
-    const dzz = f32x4.add(f32x4.mul(c1, f32x4.sub(z1, z0)), f32x4.mul(c2, f32x4.sub(z2, zm1)));
-    const pvz = pF1 + o;
-    v128.store(pvz, ftz(f32x4.add(v128.load(pvz), f32x4.mul(v128.load(pM1 + o), f32x4.add(dxq, dzz)))));
+    const dxq = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(q0, v128.load(sxz + o, 4))),
+      f32x4.mul(c2, f32x4.sub(v128.load(sxz + o, 12), v128.load(sxz + o))),
+    );
+    const dzz = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(v128.load(szzP1 + o), v128.load(szz + o))),
+      f32x4.mul(c2, f32x4.sub(v128.load(szzP2 + o), v128.load(szzM1 + o))),
+    );
+    v128.store(vz + o, ftzk(f32x4.add(v128.load(vz + o), f32x4.mul(v128.load(bz + o), f32x4.add(dxq, dzz))), absMask, flush));
   }
 }
 
-/** Stress update of row j: sxx, szz, sxz from the velocities. */
-@inline
+/** Stress update of row j (not a free-surface row): sxx, szz, sxz from the velocities. */
 function psvStressRow(j: i32): void {
+  const c1 = v128.load(K_C1);
+  const c2 = v128.load(K_C2);
+  const absMask = v128.load(K_ABS);
+  const flush = v128.load(K_FLUSH);
+  const r = rb;
+  const base = org + <usize>j * r;
+  const n = (<usize>nxv) << 2;
+  const vx = pF0 + base - 8; // columns i-2 .. i+1 at byte offsets 0 .. 12
+  const vxM1 = vx + 8 - r;
+  const vxP1 = vx + 8 + r;
+  const vxP2 = vx + 8 + 2 * r;
+  const vz = pF1 + base - 4; // columns i-1 .. i+2 at byte offsets 0 .. 12
+  const vzM1 = vz + 4 - r;
+  const vzM2 = vz + 4 - 2 * r;
+  const vzP1 = vz + 4 + r;
+  const sxx = pF2 + base;
+  const szz = pF3 + base;
+  const sxz = pF4 + base;
+  const mm = pM2 + base;
+  const ll = pM3 + base;
+  const mu = pM4 + base;
+  for (let o: usize = 0; o < n; o += 16) {
+    // d vx/dx at i: vx(i)-vx(i-1), vx(i+1)-vx(i-2)
+    const v0 = v128.load(vx + o, 8);
+    const dxvx = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(v0, v128.load(vx + o, 4))),
+      f32x4.mul(c2, f32x4.sub(v128.load(vx + o, 12), v128.load(vx + o))),
+    );
+    // d vz/dz at j: vz(j)-vz(j-1), vz(j+1)-vz(j-2)
+    const w0 = v128.load(vz + o, 4);
+    const dzvz = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(w0, v128.load(vzM1 + o))),
+      f32x4.mul(c2, f32x4.sub(v128.load(vzP1 + o), v128.load(vzM2 + o))),
+    );
+    const m = v128.load(mm + o);
+    const l = v128.load(ll + o);
+    v128.store(sxx + o, ftzk(f32x4.add(v128.load(sxx + o), f32x4.add(f32x4.mul(m, dxvx), f32x4.mul(l, dzvz))), absMask, flush));
+    v128.store(szz + o, ftzk(f32x4.add(v128.load(szz + o), f32x4.add(f32x4.mul(l, dxvx), f32x4.mul(m, dzvz))), absMask, flush));
+    // sxz at (i+1/2, j+1/2): d vx/dz = vx(j+1)-vx(j), vx(j+2)-vx(j-1); d vz/dx = vz(i+1)-vz(i), vz(i+2)-vz(i-1)
+    const dzvx = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(v128.load(vxP1 + o), v0)),
+      f32x4.mul(c2, f32x4.sub(v128.load(vxP2 + o), v128.load(vxM1 + o))),
+    );
+    const dxvz = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(v128.load(vz + o, 8), w0)),
+      f32x4.mul(c2, f32x4.sub(v128.load(vz + o, 12), v128.load(vz + o))),
+    );
+    v128.store(sxz + o, ftzk(f32x4.add(v128.load(sxz + o), f32x4.mul(v128.load(mu + o), f32x4.add(dzvx, dxvz))), absMask, flush));
+  }
+}
+
+/** Stress update of the free-surface row (row 0): szz = 0, sxx with the surface modulus, sxz as elsewhere. */
+function psvStressSurfaceRow(): void {
   const c1 = f32x4.splat(C1);
   const c2 = f32x4.splat(C2);
   const r = rb;
-  const base = org + <usize>j * r;
+  const base = org;
   const end = base + ((<usize>nxv) << 2);
-  const surfaceRow = freeSurface && j == 0;
   for (let o = base; o < end; o += 16) {
-    // d vx/dx at i: vx(i)-vx(i-1), vx(i+1)-vx(i-2)
     const pv = pF0 + o - 8;
     const vm2 = v128.load(pv);
     const vm1 = v128.load(pv, 4);
     const v0 = v128.load(pv, 8);
     const v1 = v128.load(pv, 12);
     const dxvx = f32x4.add(f32x4.mul(c1, f32x4.sub(v0, vm1)), f32x4.mul(c2, f32x4.sub(v1, vm2)));
-    // d vz/dz at j: vz(j)-vz(j-1), vz(j+1)-vz(j-2)
-    const pw = pF1 + o;
-    const w0 = v128.load(pw);
-    const wm1 = v128.load(pw - r);
-    const wm2 = v128.load(pw - 2 * r);
-    const wp1 = v128.load(pw + r);
-    const dzvz = f32x4.add(f32x4.mul(c1, f32x4.sub(w0, wm1)), f32x4.mul(c2, f32x4.sub(wp1, wm2)));
-    const mm = v128.load(pM2 + o);
+    const w0 = v128.load(pF1 + o);
     const ll = v128.load(pM3 + o);
     const psx = pF2 + o;
-    const psz = pF3 + o;
-    if (surfaceRow) {
-      // szz = 0 at the surface, so d vz/dz = -(lambda/M) d vx/dx and sxx grows with M - lambda^2/M,
-      // which the driver stores in the lambda array on this row.
-      v128.store(psx, ftz(f32x4.add(v128.load(psx), f32x4.mul(ll, dxvx))));
-      v128.store(psz, f32x4.splat(0));
-    } else {
-      v128.store(psx, ftz(f32x4.add(v128.load(psx), f32x4.add(f32x4.mul(mm, dxvx), f32x4.mul(ll, dzvz)))));
-      v128.store(psz, ftz(f32x4.add(v128.load(psz), f32x4.add(f32x4.mul(ll, dxvx), f32x4.mul(mm, dzvz)))));
-    }
-    // sxz at (i+1/2, j+1/2): d vx/dz = vx(j+1)-vx(j), vx(j+2)-vx(j-1); d vz/dx = vz(i+1)-vz(i), vz(i+2)-vz(i-1)
+    // szz = 0 at the surface, so d vz/dz = -(lambda/M) d vx/dx and sxx grows with M - lambda^2/M,
+    // which the driver stores in the lambda array on this row.
+    v128.store(psx, ftz(f32x4.add(v128.load(psx), f32x4.mul(ll, dxvx))));
+    v128.store(pF3 + o, f32x4.splat(0));
     const px = pF0 + o;
     const xp1 = v128.load(px + r);
     const xp2 = v128.load(px + 2 * r);
@@ -264,7 +321,8 @@ export function psvStep(): void {
     }
     const k = j - LAG;
     if (k >= 0) {
-      psvStressRow(k);
+      if (freeSurface && k == 0) psvStressSurfaceRow();
+      else psvStressRow(k);
       psvStressPml(k);
     }
   }
@@ -342,23 +400,160 @@ function shSurface(): void {
   }
 }
 
+/** SH velocity row j with its PML terms. */
+function shVelocityFull(j: i32): void {
+  shVelocityRow(j);
+  pmlXRow(0, pF1, pPx0, pAxI, pBxI, pF0, pM0, 0, 0, j);
+  pmlZRowIf(0, pF2, pPz0, pAzI, pBzI, pF0, pM0, 0, 0, j);
+}
+
+/** SH stress row k with its PML terms. */
+function shStressFull(k: i32): void {
+  shStressRow(k);
+  pmlXRow(1, pF0, pPx1, pAxH, pBxH, pF1, pM1, 0, 0, k);
+  pmlZRowIf(1, pF0, pPz1, pAzH, pBzH, pF2, pM2, 0, 0, k);
+}
+
 /** One SH time step: velocity, then stresses (with PML terms), then the free surface. */
 export function shStep(): void {
   const total = nrows + LAG;
   for (let j = 0; j < total; j++) {
-    if (j < nrows) {
-      shVelocityRow(j);
-      pmlXRow(0, pF1, pPx0, pAxI, pBxI, pF0, pM0, 0, 0, j);
-      pmlZRowIf(0, pF2, pPz0, pAzI, pBzI, pF0, pM0, 0, 0, j);
-    }
+    if (j < nrows) shVelocityFull(j);
     const k = j - LAG;
-    if (k >= 0) {
-      shStressRow(k);
-      pmlXRow(1, pF0, pPx1, pAxH, pBxH, pF1, pM1, 0, 0, k);
-      pmlZRowIf(1, pF0, pPz1, pAzH, pBzH, pF2, pM2, 0, 0, k);
-    }
+    if (k >= 0) shStressFull(k);
   }
   if (freeSurface) shSurface();
+}
+
+// ---------------------------------------------------------------------------------------------
+// Several time steps in one pass over the rows, with the sources and receivers of a shot.
+//
+// Step n+1 follows step n at SKEW rows' distance: its velocity row j reads the stresses of rows
+// j-2 .. j+2, which step n has finished (its stress rows run LAG rows behind its velocity rows),
+// and it overwrites velocities that no unfinished stress row of step n still reads. The free
+// surface of step n is imaged as soon as its stress rows 0 .. 2 are final (nothing else reads the
+// mirrored rows within the step). So every cell sees the same operations in the same order as
+// step after step, while the rows of STAGES steps stay in cache together.
+//
+// A source cell of step n gets its increment just before step n first reads it: a velocity cell
+// before step n updates its row; a stress cell before step n's velocity row two above it (after
+// step n-1 has finished the cell, its surface image included). A receiver cell is captured right
+// after step n has updated its row, before step n+1 touches it.
+
+const SKEW = 5;
+/** Steps per pass (at most MAX_STAGES). */
+const STAGES = 4;
+const MAX_STAGES = 8;
+
+// Shot table (written by the driver, read by configureShot), byte addresses.
+let nSrc: i32 = 0;
+let pSrc: usize = 0; // [nSrc] of (byte address, inject row, mirror byte address or 0), sorted by inject row
+let pInc: usize = 0; // f32 [step of the call][nSrc]
+let srcFrom: i32 = 0; // first step that gets an increment
+let nRec: i32 = 0;
+let pRec: usize = 0; // [nRec] of (byte address, row, slot), sorted by row
+let pCap: usize = 0; // f32 [step of the call][nRec]
+// Per-stage cursors into the sorted source and receiver tables.
+const CUR_SRC = memory.data(MAX_STAGES * 4, 16);
+const CUR_REC = memory.data(MAX_STAGES * 4, 16);
+
+/** Reads the shot table the driver wrote at `table` (i32 entries). */
+export function configureShot(table: usize): void {
+  nSrc = load<i32>(table, 0);
+  pSrc = <usize>load<i32>(table, 4);
+  pInc = <usize>load<i32>(table, 8);
+  srcFrom = load<i32>(table, 12);
+  nRec = load<i32>(table, 16);
+  pRec = <usize>load<i32>(table, 20);
+  pCap = <usize>load<i32>(table, 24);
+}
+
+/** Adds step n's increments to the source cells whose inject row is `row` (stage t's cursor). */
+@inline
+function injectRow(t: i32, row: i32, n: i32, callStep: i32): void {
+  const cp = CUR_SRC + (<usize>t << 2);
+  let c = load<i32>(cp);
+  while (c < nSrc) {
+    const e = pSrc + <usize>c * 12;
+    if (load<i32>(e, 4) != row) break;
+    if (n >= srcFrom) {
+      const a = <usize>load<i32>(e);
+      const v = load<f32>(a) + load<f32>(pInc + ((<usize>(callStep * nSrc + c)) << 2));
+      // Flush to zero as everywhere: |v| below 2^-100 becomes +0; NaN passes.
+      const w: f32 = Mathf.abs(v) < FLUSH_BELOW ? 0 : v;
+      store<f32>(a, w);
+      const m = <usize>load<i32>(e, 8);
+      if (m != 0) store<f32>(m, -w);
+    }
+    c++;
+  }
+  store<i32>(cp, c);
+}
+
+/** Captures the receiver cells of `row` after stage t's velocity update. */
+@inline
+function captureRow(t: i32, row: i32, callStep: i32): void {
+  const cp = CUR_REC + (<usize>t << 2);
+  let c = load<i32>(cp);
+  const out = pCap + ((<usize>(callStep * nRec)) << 2);
+  while (c < nRec) {
+    const e = pRec + <usize>c * 12;
+    if (load<i32>(e, 4) != row) break;
+    store<f32>(out + ((<usize>load<i32>(e, 8)) << 2), load<f32>(<usize>load<i32>(e)));
+    c++;
+  }
+  store<i32>(cp, c);
+}
+
+/** Runs steps first .. first+count-1 in passes of up to STAGES steps (P-SV when psv, else SH). */
+function advance(psv: bool, first: i32, count: i32): void {
+  for (let done = 0; done < count; done += STAGES) {
+    const T = min(STAGES, count - done);
+    for (let t = 0; t < T; t++) {
+      store<i32>(CUR_SRC + (<usize>t << 2), 0);
+      store<i32>(CUR_REC + (<usize>t << 2), 0);
+    }
+    const total = nrows + LAG + SKEW * (T - 1);
+    for (let j = 0; j < total; j++) {
+      for (let t = 0; t < T; t++) {
+        const jj = j - SKEW * t;
+        if (jj < 0) break;
+        const callStep = done + t;
+        if (jj < nrows) {
+          injectRow(t, jj, first + callStep, callStep);
+          if (psv) {
+            psvVelocityRow(jj);
+            psvVelocityPml(jj);
+          } else {
+            shVelocityFull(jj);
+          }
+          captureRow(t, jj, callStep);
+        }
+        const k = jj - LAG;
+        if (k >= 0 && k < nrows) {
+          if (psv) {
+            if (freeSurface && k == 0) psvStressSurfaceRow();
+            else psvStressRow(k);
+            psvStressPml(k);
+            if (freeSurface && k == 2) psvSurface();
+          } else {
+            shStressFull(k);
+            if (freeSurface && k == 2) shSurface();
+          }
+        }
+      }
+    }
+  }
+}
+
+/** P-SV steps first .. first+count-1 with the shot's sources and receivers (see configureShot). */
+export function psvAdvance(first: i32, count: i32): void {
+  advance(true, first, count);
+}
+
+/** SH steps first .. first+count-1 with the shot's sources and receivers (see configureShot). */
+export function shAdvance(first: i32, count: i32): void {
+  advance(false, first, count);
 }
 
 // ---------------------------------------------------------------------------------------------
