@@ -25,6 +25,12 @@ export interface KernelTimingOptions {
   freeSurface?: boolean;
   /** Untimed steps first (the engine optimises a WebAssembly function on a later call). Default 20. */
   warmupSteps?: number;
+  /**
+   * 1: one `kernel.step()` call per step with the source added from JavaScript between calls (the
+   * way the shot driver steps today). More: the kernel's stepper, this many steps per call, with
+   * the source and two receiver cells handled inside the kernel. Default 1.
+   */
+  stepsPerCall?: number;
 }
 
 /** Result of {@link timeWasmKernel}. */
@@ -47,7 +53,10 @@ export function timeWasmKernel(opts: KernelTimingOptions): KernelTiming {
   const pmlCells = opts.pmlCells ?? 20;
   const freeSurface = opts.freeSurface ?? true;
   const warm = opts.warmupSteps ?? 20;
-  const { kernel, layout: L, mem } = createWasmKernel({ mode, modelNx: nx, modelNz: nz, pmlCells, freeSurface });
+  const perCall = opts.stepsPerCall ?? 1;
+  if (!Number.isInteger(perCall) || perCall < 1) throw new RangeError(`stepsPerCall must be an integer ≥ 1, got ${perCall}`);
+  const bound = createWasmKernel({ mode, modelNx: nx, modelNz: nz, pmlCells, freeSurface, maxStepsPerCall: Math.max(perCall, 1) });
+  const { kernel, layout: L, mem } = bound;
   const vp = 1500;
   const vs = 500;
   const rho = 2000;
@@ -106,10 +115,26 @@ export function timeWasmKernel(opts: KernelTimingOptions): KernelTiming {
   const field = mode === "psv" ? o.f1 : o.f0;
   const at = field + L.org + (L.rowOffset + 2) * L.rowFloats + L.colOffset + (nx >> 1);
   let t0 = 0;
-  for (let n = 0; n < warm + steps; n++) {
-    if (n === warm) t0 = performance.now();
-    mem[at] += 1e-3 * ricker(n * dt, peak, 1.2 / peak);
-    kernel.step();
+  if (perCall === 1) {
+    for (let n = 0; n < warm + steps; n++) {
+      if (n === warm) t0 = performance.now();
+      mem[at] += 1e-3 * ricker(n * dt, peak, 1.2 / peak);
+      kernel.step();
+    }
+  } else {
+    const recRow = field + L.org + L.rowOffset * L.rowFloats + L.colOffset;
+    const stepper = bound.createStepper({ sources: [{ index: at, mirror: -1 }], atStress: false, receivers: [recRow + 10, recRow + nx - 10] });
+    const inc = new Float32Array(perCall);
+    const run = (from: number, to: number) => {
+      for (let n = from; n < to; n += perCall) {
+        const count = Math.min(perCall, to - n);
+        for (let q = 0; q < count; q++) inc[q] = 1e-3 * ricker((n + q) * dt, peak, 1.2 / peak);
+        stepper.advance(n, count, inc);
+      }
+    };
+    run(0, warm);
+    t0 = performance.now();
+    run(warm, warm + steps);
   }
   const seconds = (performance.now() - t0) / 1000;
   let checksum = 0;

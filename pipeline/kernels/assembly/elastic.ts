@@ -561,65 +561,114 @@ export function shAdvance(first: i32, count: i32): void {
 // multiples of 4). The derivative of `src` at the position shifted by `sh` (0: backward, element i
 // between i-1 and i; 1: forward, between i and i+1): c1 (s[k]-s[k-1]) + c2 (s[k+1]-s[k-2]), k = i + sh.
 
+/** One absorbing x strip of row `rowOff` from column `col` (psi slot `slot`), `wx` columns. */
 @inline
-function pmlXQuad(sh: i32, src: usize, psi: usize, a: usize, b: usize,
-  f1: usize, m1: usize, f2: usize, m2: usize, j: i32, i: i32, si: i32, surface: bool): void {
-  const c1 = f32x4.splat(C1);
-  const c2 = f32x4.splat(C2);
-  const o = org + <usize>j * rb + (<usize>i << 2);
-  const s = src + o + (<usize>sh << 2) - 8;
-  const sm2 = v128.load(s);
-  const sm1 = v128.load(s, 4);
-  const s0 = v128.load(s, 8);
-  const s1 = v128.load(s, 12);
-  const d = f32x4.add(f32x4.mul(c1, f32x4.sub(s0, sm1)), f32x4.mul(c2, f32x4.sub(s1, sm2)));
-  const pp = psi + ((<usize>(j * 2 * wx + si)) << 2);
-  const ci = <usize>i << 2;
-  const v = ftz(f32x4.add(f32x4.mul(v128.load(b + ci), v128.load(pp)), f32x4.mul(v128.load(a + ci), d)));
-  v128.store(pp, v);
+function pmlXSpan(sh: i32, src: usize, psiRow: usize, a: usize, b: usize,
+  f1: usize, m1: usize, f2: usize, m2: usize, rowOff: usize, col: i32, slot: i32, surface: bool): void {
+  const c1 = v128.load(K_C1);
+  const c2 = v128.load(K_C2);
+  const absMask = v128.load(K_ABS);
+  const flush = v128.load(K_FLUSH);
+  const co = <usize>col << 2;
+  const s = src + rowOff + co + (<usize>sh << 2) - 8; // columns i-2 .. i+1 of the shifted position at byte offsets 0 .. 12
+  const pp = psiRow + (<usize>slot << 2);
+  const pa = a + co;
+  const pb = b + co;
+  const q1 = f1 + rowOff + co;
+  const n = <usize>wx << 2;
   if (surface) {
     // Free-surface row of the normal stresses: sxx with the surface modulus (held in m2), szz stays 0.
-    v128.store(f1 + o, ftz(f32x4.add(v128.load(f1 + o), f32x4.mul(v128.load(m2 + o), v))));
-    return;
+    const k1 = m2 + rowOff + co;
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s + o, 8), v128.load(s + o, 4))),
+        f32x4.mul(c2, f32x4.sub(v128.load(s + o, 12), v128.load(s + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(v128.load(pb + o), v128.load(pp + o)), f32x4.mul(v128.load(pa + o), d)), absMask, flush);
+      v128.store(pp + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+    }
+  } else if (f2 == 0) {
+    const k1 = m1 + rowOff + co;
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s + o, 8), v128.load(s + o, 4))),
+        f32x4.mul(c2, f32x4.sub(v128.load(s + o, 12), v128.load(s + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(v128.load(pb + o), v128.load(pp + o)), f32x4.mul(v128.load(pa + o), d)), absMask, flush);
+      v128.store(pp + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+    }
+  } else {
+    const k1 = m1 + rowOff + co;
+    const q2 = f2 + rowOff + co;
+    const k2 = m2 + rowOff + co;
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s + o, 8), v128.load(s + o, 4))),
+        f32x4.mul(c2, f32x4.sub(v128.load(s + o, 12), v128.load(s + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(v128.load(pb + o), v128.load(pp + o)), f32x4.mul(v128.load(pa + o), d)), absMask, flush);
+      v128.store(pp + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+      v128.store(q2 + o, ftzk(f32x4.add(v128.load(q2 + o), f32x4.mul(v128.load(k2 + o), v)), absMask, flush));
+    }
   }
-  v128.store(f1 + o, ftz(f32x4.add(v128.load(f1 + o), f32x4.mul(v128.load(m1 + o), v))));
-  if (f2 != 0) v128.store(f2 + o, ftz(f32x4.add(v128.load(f2 + o), f32x4.mul(v128.load(m2 + o), v))));
 }
 
 function pmlXRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
   f1: usize, m1: usize, f2: usize, m2: usize, j: i32): void {
   if (wx == 0) return;
-  const right = nx - wx;
+  const rowOff = org + <usize>j * rb;
+  const psiRow = psi + ((<usize>(j * 2 * wx)) << 2);
   const surface = freeSurface && j == 0 && f2 != 0;
-  for (let i = 0; i < wx; i += 4) pmlXQuad(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i, surface);
-  for (let i = right; i < nx; i += 4) pmlXQuad(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i - right + wx, surface);
+  pmlXSpan(sh, src, psiRow, a, b, f1, m1, f2, m2, rowOff, 0, 0, surface);
+  pmlXSpan(sh, src, psiRow, a, b, f1, m1, f2, m2, rowOff, nx - wx, wx, surface);
 }
 
 @inline
 function pmlZRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
   f1: usize, m1: usize, f2: usize, m2: usize, j: i32, sj: i32): void {
-  const c1 = f32x4.splat(C1);
-  const c2 = f32x4.splat(C2);
+  const c1 = v128.load(K_C1);
+  const c2 = v128.load(K_C2);
+  const absMask = v128.load(K_ABS);
+  const flush = v128.load(K_FLUSH);
   const r = rb;
   const row = org + <usize>j * r;
-  const sr = src + row + <usize>sh * r;
+  const s0 = src + row + <usize>sh * r;
+  const sM1 = s0 - r;
+  const sP1 = s0 + r;
+  const sM2 = s0 - 2 * r;
   const pr = psi + ((<usize>(sj * nxv)) << 2);
   const av = v128.load32_splat(a + (<usize>j << 2));
   const bv = v128.load32_splat(b + (<usize>j << 2));
+  const q1 = f1 + row;
+  const k1 = m1 + row;
   // Padding columns up to nxv have zero fields and moduli: their terms stay zero.
-  const n4 = <usize>nxv << 2;
-  for (let o: usize = 0; o < n4; o += 16) {
-    const s = sr + o;
-    const d = f32x4.add(
-      f32x4.mul(c1, f32x4.sub(v128.load(s), v128.load(s - r))),
-      f32x4.mul(c2, f32x4.sub(v128.load(s + r), v128.load(s - 2 * r))),
-    );
-    const pp = pr + o;
-    const v = ftz(f32x4.add(f32x4.mul(bv, v128.load(pp)), f32x4.mul(av, d)));
-    v128.store(pp, v);
-    const q = row + o;
-    v128.store(f1 + q, ftz(f32x4.add(v128.load(f1 + q), f32x4.mul(v128.load(m1 + q), v))));
-    if (f2 != 0) v128.store(f2 + q, ftz(f32x4.add(v128.load(f2 + q), f32x4.mul(v128.load(m2 + q), v))));
+  const n = <usize>nxv << 2;
+  if (f2 == 0) {
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s0 + o), v128.load(sM1 + o))),
+        f32x4.mul(c2, f32x4.sub(v128.load(sP1 + o), v128.load(sM2 + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(bv, v128.load(pr + o)), f32x4.mul(av, d)), absMask, flush);
+      v128.store(pr + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+    }
+  } else {
+    const q2 = f2 + row;
+    const k2 = m2 + row;
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s0 + o), v128.load(sM1 + o))),
+        f32x4.mul(c2, f32x4.sub(v128.load(sP1 + o), v128.load(sM2 + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(bv, v128.load(pr + o)), f32x4.mul(av, d)), absMask, flush);
+      v128.store(pr + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+      v128.store(q2 + o, ftzk(f32x4.add(v128.load(q2 + o), f32x4.mul(v128.load(k2 + o), v)), absMask, flush));
+    }
   }
 }
 
