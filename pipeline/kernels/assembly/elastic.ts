@@ -144,6 +144,33 @@ const LAG = 3;
 // ---------------------------------------------------------------------------------------------
 // P-SV
 
+/** Velocity update of four cells at byte offset `o` of the row (see psvVelocityRow). */
+@inline
+function psvVelocityQuad(c1: v128, c2: v128, absMask: v128, flush: v128, sxx: usize, sxz: usize, sxzM1: usize, sxzM2: usize, sxzP1: usize, szz: usize, szzM1: usize, szzP1: usize, szzP2: usize, vx: usize, vz: usize, bx: usize, bz: usize, o: usize): void {
+  // vx at (i+1/2, j): d sxx/dx + d sxz/dz
+  const xm1 = v128.load(sxx + o);
+  const x0 = v128.load(sxx + o, 4);
+  const x1 = v128.load(sxx + o, 8);
+  const x2 = v128.load(sxx + o, 12);
+  const dxx = f32x4.add(f32x4.mul(c1, f32x4.sub(x1, x0)), f32x4.mul(c2, f32x4.sub(x2, xm1)));
+  const q0 = v128.load(sxz + o, 8);
+  const dzq = f32x4.add(
+    f32x4.mul(c1, f32x4.sub(q0, v128.load(sxzM1 + o))),
+    f32x4.mul(c2, f32x4.sub(v128.load(sxzP1 + o), v128.load(sxzM2 + o))),
+  );
+  v128.store(vx + o, ftzk(f32x4.add(v128.load(vx + o), f32x4.mul(v128.load(bx + o), f32x4.add(dxx, dzq))), absMask, flush));
+  // vz at (i, j+1/2): d sxz/dx + d szz/dz
+  const dxq = f32x4.add(
+    f32x4.mul(c1, f32x4.sub(q0, v128.load(sxz + o, 4))),
+    f32x4.mul(c2, f32x4.sub(v128.load(sxz + o, 12), v128.load(sxz + o))),
+  );
+  const dzz = f32x4.add(
+    f32x4.mul(c1, f32x4.sub(v128.load(szzP1 + o), v128.load(szz + o))),
+    f32x4.mul(c2, f32x4.sub(v128.load(szzP2 + o), v128.load(szzM1 + o))),
+  );
+  v128.store(vz + o, ftzk(f32x4.add(v128.load(vz + o), f32x4.mul(v128.load(bz + o), f32x4.add(dxq, dzz))), absMask, flush));
+}
+
 /** Velocity update of row j: vx, vz from the stresses. */
 function psvVelocityRow(j: i32): void {
   const c1 = v128.load(K_C1);
@@ -167,56 +194,18 @@ function psvVelocityRow(j: i32): void {
   const vz = pF1 + base;
   const bx = pM0 + base;
   const bz = pM1 + base;
-  for (let o: usize = 0; o < n; o += 16) {
-    // vx at (i+1/2, j): d sxx/dx + d sxz/dz
-    const xm1 = v128.load(sxx + o);
-    const x0 = v128.load(sxx + o, 4);
-    const x1 = v128.load(sxx + o, 8);
-    const x2 = v128.load(sxx + o, 12);
-    const dxx = f32x4.add(f32x4.mul(c1, f32x4.sub(x1, x0)), f32x4.mul(c2, f32x4.sub(x2, xm1)));
-    const q0 = v128.load(sxz + o, 8);
-    const dzq = f32x4.add(
-      f32x4.mul(c1, f32x4.sub(q0, v128.load(sxzM1 + o))),
-      f32x4.mul(c2, f32x4.sub(v128.load(sxzP1 + o), v128.load(sxzM2 + o))),
-    );
-    v128.store(vx + o, ftzk(f32x4.add(v128.load(vx + o), f32x4.mul(v128.load(bx + o), f32x4.add(dxx, dzq))), absMask, flush));
-    // vz at (i, j+1/2): d sxz/dx + d szz/dz
-    const dxq = f32x4.add(
-      f32x4.mul(c1, f32x4.sub(q0, v128.load(sxz + o, 4))),
-      f32x4.mul(c2, f32x4.sub(v128.load(sxz + o, 12), v128.load(sxz + o))),
-    );
-    const dzz = f32x4.add(
-      f32x4.mul(c1, f32x4.sub(v128.load(szzP1 + o), v128.load(szz + o))),
-      f32x4.mul(c2, f32x4.sub(v128.load(szzP2 + o), v128.load(szzM1 + o))),
-    );
-    v128.store(vz + o, ftzk(f32x4.add(v128.load(vz + o), f32x4.mul(v128.load(bz + o), f32x4.add(dxq, dzz))), absMask, flush));
+  // Two groups of four per iteration: half the loop overhead.
+  let o: usize = 0;
+  for (; o + 16 < n; o += 32) {
+    psvVelocityQuad(c1, c2, absMask, flush, sxx, sxz, sxzM1, sxzM2, sxzP1, szz, szzM1, szzP1, szzP2, vx, vz, bx, bz, o);
+    psvVelocityQuad(c1, c2, absMask, flush, sxx, sxz, sxzM1, sxzM2, sxzP1, szz, szzM1, szzP1, szzP2, vx, vz, bx, bz, o + 16);
   }
+  if (o < n) psvVelocityQuad(c1, c2, absMask, flush, sxx, sxz, sxzM1, sxzM2, sxzP1, szz, szzM1, szzP1, szzP2, vx, vz, bx, bz, o);
 }
 
-/** Stress update of row j (not a free-surface row): sxx, szz, sxz from the velocities. */
-function psvStressRow(j: i32): void {
-  const c1 = v128.load(K_C1);
-  const c2 = v128.load(K_C2);
-  const absMask = v128.load(K_ABS);
-  const flush = v128.load(K_FLUSH);
-  const r = rb;
-  const base = org + <usize>j * r;
-  const n = (<usize>nxv) << 2;
-  const vx = pF0 + base - 8; // columns i-2 .. i+1 at byte offsets 0 .. 12
-  const vxM1 = vx + 8 - r;
-  const vxP1 = vx + 8 + r;
-  const vxP2 = vx + 8 + 2 * r;
-  const vz = pF1 + base - 4; // columns i-1 .. i+2 at byte offsets 0 .. 12
-  const vzM1 = vz + 4 - r;
-  const vzM2 = vz + 4 - 2 * r;
-  const vzP1 = vz + 4 + r;
-  const sxx = pF2 + base;
-  const szz = pF3 + base;
-  const sxz = pF4 + base;
-  const mm = pM2 + base;
-  const ll = pM3 + base;
-  const mu = pM4 + base;
-  for (let o: usize = 0; o < n; o += 16) {
+/** Stress update of four cells at byte offset `o` of the row (see psvStressRow). */
+@inline
+function psvStressQuad(c1: v128, c2: v128, absMask: v128, flush: v128, vx: usize, vxM1: usize, vxP1: usize, vxP2: usize, vz: usize, vzM1: usize, vzM2: usize, vzP1: usize, sxx: usize, szz: usize, sxz: usize, mm: usize, ll: usize, mu: usize, o: usize): void {
     // d vx/dx at i: vx(i)-vx(i-1), vx(i+1)-vx(i-2)
     const v0 = v128.load(vx + o, 8);
     const dxvx = f32x4.add(
@@ -243,7 +232,37 @@ function psvStressRow(j: i32): void {
       f32x4.mul(c2, f32x4.sub(v128.load(vz + o, 12), v128.load(vz + o))),
     );
     v128.store(sxz + o, ftzk(f32x4.add(v128.load(sxz + o), f32x4.mul(v128.load(mu + o), f32x4.add(dzvx, dxvz))), absMask, flush));
+}
+
+/** Stress update of row j (not a free-surface row): sxx, szz, sxz from the velocities. */
+function psvStressRow(j: i32): void {
+  const c1 = v128.load(K_C1);
+  const c2 = v128.load(K_C2);
+  const absMask = v128.load(K_ABS);
+  const flush = v128.load(K_FLUSH);
+  const r = rb;
+  const base = org + <usize>j * r;
+  const n = (<usize>nxv) << 2;
+  const vx = pF0 + base - 8; // columns i-2 .. i+1 at byte offsets 0 .. 12
+  const vxM1 = vx + 8 - r;
+  const vxP1 = vx + 8 + r;
+  const vxP2 = vx + 8 + 2 * r;
+  const vz = pF1 + base - 4; // columns i-1 .. i+2 at byte offsets 0 .. 12
+  const vzM1 = vz + 4 - r;
+  const vzM2 = vz + 4 - 2 * r;
+  const vzP1 = vz + 4 + r;
+  const sxx = pF2 + base;
+  const szz = pF3 + base;
+  const sxz = pF4 + base;
+  const mm = pM2 + base;
+  const ll = pM3 + base;
+  const mu = pM4 + base;
+  let o: usize = 0;
+  for (; o + 16 < n; o += 32) {
+    psvStressQuad(c1, c2, absMask, flush, vx, vxM1, vxP1, vxP2, vz, vzM1, vzM2, vzP1, sxx, szz, sxz, mm, ll, mu, o);
+    psvStressQuad(c1, c2, absMask, flush, vx, vxM1, vxP1, vxP2, vz, vzM1, vzM2, vzP1, sxx, szz, sxz, mm, ll, mu, o + 16);
   }
+  if (o < n) psvStressQuad(c1, c2, absMask, flush, vx, vxM1, vxP1, vxP2, vz, vzM1, vzM2, vzP1, sxx, szz, sxz, mm, ll, mu, o);
 }
 
 /** Stress update of the free-surface row (row 0): szz = 0, sxx with the surface modulus, sxz as elsewhere. */
