@@ -25,9 +25,14 @@ export function registerBench(program: Command): void {
     .option("--only <part>", `measure one part: ${PARTS.join(", ")}`)
     .option("--grid <nx>x<nz>", "solver grid in cells", "1000x400")
     .option("--steps <n>", "solver time steps per shot", "300")
+    .option("--pairs <n>", "solver: rounds of the C yardstick and the solver in turn; figures are medians over them", "5")
+    .option(
+      "--yardstick <path>",
+      "solver: the C yardstick binary (default: TRACEWRIGHT_YARDSTICK, else built from ../shared/perf-ref when gcc is present)",
+    )
     .option("--json", "print JSON")
     .action(
-      action(async (opts: { only?: string; grid: string; steps: string; json?: boolean }) => {
+      action(async (opts: { only?: string; grid: string; steps: string; pairs: string; yardstick?: string; json?: boolean }) => {
         if (opts.only && !PARTS.includes(opts.only as Part)) {
           throw new AppError("bad-input", `--only ${opts.only}: expected one of ${PARTS.join(", ")}`, { field: "--only", choices: [...PARTS] });
         }
@@ -35,6 +40,10 @@ export function registerBench(program: Command): void {
         const steps = Number(opts.steps);
         if (!Number.isInteger(steps) || steps < 10) throw new AppError("bad-input", `--steps ${opts.steps}: expected a whole number of at least 10`, { field: "--steps" });
         const grid = parseGrid(opts.grid);
+        const pairs = Number(opts.pairs);
+        if (!Number.isInteger(pairs) || pairs < 1 || pairs > 100) {
+          throw new AppError("bad-input", `--pairs ${opts.pairs}: expected a whole number from 1 to 100`, { field: "--pairs" });
+        }
         const out = (s: string) => {
           if (!opts.json) process.stdout.write(`${s}\n`);
         };
@@ -63,7 +72,7 @@ export function registerBench(program: Command): void {
           const baseline = process.memoryUsage().rss;
           let peak = baseline;
           const sampler = setInterval(() => (peak = Math.max(peak, process.memoryUsage().rss)), 50);
-          const r = await benchSolver({ ...grid, steps });
+          const r = await benchSolver({ ...grid, steps, pairs, yardstick: opts.yardstick });
           clearInterval(sampler);
           const memory = { baselineMB: baseline / 1e6, peakMB: peak / 1e6, fieldsPerShotMB: (grid.nx * grid.nz * 4 * 9) / 1e6 };
           results.solver = { ...r, memory };

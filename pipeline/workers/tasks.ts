@@ -164,3 +164,10 @@ import { invertDispersionCurve, type CurveInversionOptions, type CurveInversionR
 export function invertDispersionCurveTask(arg: { frequenciesHz: Float64Array; velocitiesMps: Float64Array; options: CurveInversionOptions }): CurveInversionResult {
   return invertDispersionCurve(arg.frequenciesHz, arg.velocitiesMps, arg.options);
 }
+
+import { timeWasmKernel, type KernelTimingOptions } from "../bench/kernel-timing";
+
+/** Times the WebAssembly kernel directly in this worker (the solver bench against the C yardstick). */
+export function kernelBenchTask(arg: KernelTimingOptions) {
+  return timeWasmKernel(arg);
+}

@@ -36,6 +36,19 @@ function ftz(v: v128): v128 {
   return v128.andnot(v, f32x4.lt(f32x4.abs(v), f32x4.splat(FLUSH_BELOW)));
 }
 
+// Constants held in memory: a v128 constant in the code is rebuilt by the engine at every use
+// inside a loop (three instructions each); a value loaded once before the loop is not.
+const K_C1 = memory.data<f32>([C1, C1, C1, C1], 16);
+const K_C2 = memory.data<f32>([C2, C2, C2, C2], 16);
+const K_FLUSH = memory.data<f32>([FLUSH_BELOW, FLUSH_BELOW, FLUSH_BELOW, FLUSH_BELOW], 16);
+const K_ABS = memory.data<i32>([0x7fffffff, 0x7fffffff, 0x7fffffff, 0x7fffffff], 16);
+
+/** {@link ftz} with its constants passed in: |v| (sign bit cleared) below `flush` becomes +0. */
+@inline
+function ftzk(v: v128, absMask: v128, flush: v128): v128 {
+  return v128.andnot(v, f32x4.lt(v128.and(v, absMask), flush));
+}
+
 // Layout.
 let nx: i32 = 0; // computational columns
 let nxv: i32 = 0; // columns processed per row, multiple of 4
@@ -131,85 +144,148 @@ const LAG = 3;
 // ---------------------------------------------------------------------------------------------
 // P-SV
 
-/** Velocity update of row j: vx, vz from the stresses. */
+/** Velocity update of four cells at byte offset `o` of the row (see psvVelocityRow). */
 @inline
-function psvVelocityRow(j: i32): void {
-  const c1 = f32x4.splat(C1);
-  const c2 = f32x4.splat(C2);
-  const r = rb;
-  const base = org + <usize>j * r;
-  const end = base + ((<usize>nxv) << 2);
-  for (let o = base; o < end; o += 16) {
-    // vx at (i+1/2, j): d sxx/dx + d sxz/dz
-    const ps = pF2 + o - 4;
-    const xm1 = v128.load(ps);
-    const x0 = v128.load(ps, 4);
-    const x1 = v128.load(ps, 8);
-    const x2 = v128.load(ps, 12);
-    const dxx = f32x4.add(f32x4.mul(c1, f32x4.sub(x1, x0)), f32x4.mul(c2, f32x4.sub(x2, xm1)));
-    const pq = pF4 + o;
-    const q0 = v128.load(pq);
-    const qm1 = v128.load(pq - r);
-    const qm2 = v128.load(pq - 2 * r);
-    const qp1 = v128.load(pq + r);
-    const dzq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, qm1)), f32x4.mul(c2, f32x4.sub(qp1, qm2)));
-    const pvx = pF0 + o;
-    v128.store(pvx, ftz(f32x4.add(v128.load(pvx), f32x4.mul(v128.load(pM0 + o), f32x4.add(dxx, dzq)))));
-    // vz at (i, j+1/2): d sxz/dx + d szz/dz
-    const pr = pF4 + o - 8;
-    const rm2 = v128.load(pr);
-    const rm1 = v128.load(pr, 4);
-    const r1 = v128.load(pr, 12);
-    const dxq = f32x4.add(f32x4.mul(c1, f32x4.sub(q0, rm1)), f32x4.mul(c2, f32x4.sub(r1, rm2)));
-    const pz = pF3 + o;
-    const z0 = v128.load(pz);
-    const zm1 = v128.load(pz - r);
-    const z1 = v128.load(pz + r);
-    const z2 = v128.load(pz + 2 * r);
-    const dzz = f32x4.add(f32x4.mul(c1, f32x4.sub(z1, z0)), f32x4.mul(c2, f32x4.sub(z2, zm1)));
-    const pvz = pF1 + o;
-    v128.store(pvz, ftz(f32x4.add(v128.load(pvz), f32x4.mul(v128.load(pM1 + o), f32x4.add(dxq, dzz)))));
-  }
+function psvVelocityQuad(c1: v128, c2: v128, absMask: v128, flush: v128, sxx: usize, sxz: usize, sxzM1: usize, sxzM2: usize, sxzP1: usize, szz: usize, szzM1: usize, szzP1: usize, szzP2: usize, vx: usize, vz: usize, bx: usize, bz: usize, o: usize): void {
+  // vx at (i+1/2, j): d sxx/dx + d sxz/dz
+  const xm1 = v128.load(sxx + o);
+  const x0 = v128.load(sxx + o, 4);
+  const x1 = v128.load(sxx + o, 8);
+  const x2 = v128.load(sxx + o, 12);
+  const dxx = f32x4.add(f32x4.mul(c1, f32x4.sub(x1, x0)), f32x4.mul(c2, f32x4.sub(x2, xm1)));
+  const q0 = v128.load(sxz + o, 8);
+  const dzq = f32x4.add(
+    f32x4.mul(c1, f32x4.sub(q0, v128.load(sxzM1 + o))),
+    f32x4.mul(c2, f32x4.sub(v128.load(sxzP1 + o), v128.load(sxzM2 + o))),
+  );
+  v128.store(vx + o, ftzk(f32x4.add(v128.load(vx + o), f32x4.mul(v128.load(bx + o), f32x4.add(dxx, dzq))), absMask, flush));
+  // vz at (i, j+1/2): d sxz/dx + d szz/dz
+  const dxq = f32x4.add(
+    f32x4.mul(c1, f32x4.sub(q0, v128.load(sxz + o, 4))),
+    f32x4.mul(c2, f32x4.sub(v128.load(sxz + o, 12), v128.load(sxz + o))),
+  );
+  const dzz = f32x4.add(
+    f32x4.mul(c1, f32x4.sub(v128.load(szzP1 + o), v128.load(szz + o))),
+    f32x4.mul(c2, f32x4.sub(v128.load(szzP2 + o), v128.load(szzM1 + o))),
+  );
+  v128.store(vz + o, ftzk(f32x4.add(v128.load(vz + o), f32x4.mul(v128.load(bz + o), f32x4.add(dxq, dzz))), absMask, flush));
 }
 
-/** Stress update of row j: sxx, szz, sxz from the velocities. */
+/** Velocity update of row j: vx, vz from the stresses. */
+function psvVelocityRow(j: i32): void {
+  const c1 = v128.load(K_C1);
+  const c2 = v128.load(K_C2);
+  const absMask = v128.load(K_ABS);
+  const flush = v128.load(K_FLUSH);
+  const r = rb;
+  const base = org + <usize>j * r;
+  const n = (<usize>nxv) << 2;
+  // Row pointers, set once per row (a global is read again at every use inside a loop).
+  const sxx = pF2 + base - 4; // columns i-1 .. i+2 at byte offsets 0 .. 12
+  const sxz = pF4 + base - 8; // columns i-2 .. i+1 at byte offsets 0 .. 12
+  const sxzM1 = sxz + 8 - r;
+  const sxzM2 = sxz + 8 - 2 * r;
+  const sxzP1 = sxz + 8 + r;
+  const szz = pF3 + base;
+  const szzM1 = szz - r;
+  const szzP1 = szz + r;
+  const szzP2 = szz + 2 * r;
+  const vx = pF0 + base;
+  const vz = pF1 + base;
+  const bx = pM0 + base;
+  const bz = pM1 + base;
+  // Two groups of four per iteration: half the loop overhead.
+  let o: usize = 0;
+  for (; o + 16 < n; o += 32) {
+    psvVelocityQuad(c1, c2, absMask, flush, sxx, sxz, sxzM1, sxzM2, sxzP1, szz, szzM1, szzP1, szzP2, vx, vz, bx, bz, o);
+    psvVelocityQuad(c1, c2, absMask, flush, sxx, sxz, sxzM1, sxzM2, sxzP1, szz, szzM1, szzP1, szzP2, vx, vz, bx, bz, o + 16);
+  }
+  if (o < n) psvVelocityQuad(c1, c2, absMask, flush, sxx, sxz, sxzM1, sxzM2, sxzP1, szz, szzM1, szzP1, szzP2, vx, vz, bx, bz, o);
+}
+
+/** Stress update of four cells at byte offset `o` of the row (see psvStressRow). */
 @inline
+function psvStressQuad(c1: v128, c2: v128, absMask: v128, flush: v128, vx: usize, vxM1: usize, vxP1: usize, vxP2: usize, vz: usize, vzM1: usize, vzM2: usize, vzP1: usize, sxx: usize, szz: usize, sxz: usize, mm: usize, ll: usize, mu: usize, o: usize): void {
+    // d vx/dx at i: vx(i)-vx(i-1), vx(i+1)-vx(i-2)
+    const v0 = v128.load(vx + o, 8);
+    const dxvx = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(v0, v128.load(vx + o, 4))),
+      f32x4.mul(c2, f32x4.sub(v128.load(vx + o, 12), v128.load(vx + o))),
+    );
+    // d vz/dz at j: vz(j)-vz(j-1), vz(j+1)-vz(j-2)
+    const w0 = v128.load(vz + o, 4);
+    const dzvz = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(w0, v128.load(vzM1 + o))),
+      f32x4.mul(c2, f32x4.sub(v128.load(vzP1 + o), v128.load(vzM2 + o))),
+    );
+    const m = v128.load(mm + o);
+    const l = v128.load(ll + o);
+    v128.store(sxx + o, ftzk(f32x4.add(v128.load(sxx + o), f32x4.add(f32x4.mul(m, dxvx), f32x4.mul(l, dzvz))), absMask, flush));
+    v128.store(szz + o, ftzk(f32x4.add(v128.load(szz + o), f32x4.add(f32x4.mul(l, dxvx), f32x4.mul(m, dzvz))), absMask, flush));
+    // sxz at (i+1/2, j+1/2): d vx/dz = vx(j+1)-vx(j), vx(j+2)-vx(j-1); d vz/dx = vz(i+1)-vz(i), vz(i+2)-vz(i-1)
+    const dzvx = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(v128.load(vxP1 + o), v0)),
+      f32x4.mul(c2, f32x4.sub(v128.load(vxP2 + o), v128.load(vxM1 + o))),
+    );
+    const dxvz = f32x4.add(
+      f32x4.mul(c1, f32x4.sub(v128.load(vz + o, 8), w0)),
+      f32x4.mul(c2, f32x4.sub(v128.load(vz + o, 12), v128.load(vz + o))),
+    );
+    v128.store(sxz + o, ftzk(f32x4.add(v128.load(sxz + o), f32x4.mul(v128.load(mu + o), f32x4.add(dzvx, dxvz))), absMask, flush));
+}
+
+/** Stress update of row j (not a free-surface row): sxx, szz, sxz from the velocities. */
 function psvStressRow(j: i32): void {
+  const c1 = v128.load(K_C1);
+  const c2 = v128.load(K_C2);
+  const absMask = v128.load(K_ABS);
+  const flush = v128.load(K_FLUSH);
+  const r = rb;
+  const base = org + <usize>j * r;
+  const n = (<usize>nxv) << 2;
+  const vx = pF0 + base - 8; // columns i-2 .. i+1 at byte offsets 0 .. 12
+  const vxM1 = vx + 8 - r;
+  const vxP1 = vx + 8 + r;
+  const vxP2 = vx + 8 + 2 * r;
+  const vz = pF1 + base - 4; // columns i-1 .. i+2 at byte offsets 0 .. 12
+  const vzM1 = vz + 4 - r;
+  const vzM2 = vz + 4 - 2 * r;
+  const vzP1 = vz + 4 + r;
+  const sxx = pF2 + base;
+  const szz = pF3 + base;
+  const sxz = pF4 + base;
+  const mm = pM2 + base;
+  const ll = pM3 + base;
+  const mu = pM4 + base;
+  let o: usize = 0;
+  for (; o + 16 < n; o += 32) {
+    psvStressQuad(c1, c2, absMask, flush, vx, vxM1, vxP1, vxP2, vz, vzM1, vzM2, vzP1, sxx, szz, sxz, mm, ll, mu, o);
+    psvStressQuad(c1, c2, absMask, flush, vx, vxM1, vxP1, vxP2, vz, vzM1, vzM2, vzP1, sxx, szz, sxz, mm, ll, mu, o + 16);
+  }
+  if (o < n) psvStressQuad(c1, c2, absMask, flush, vx, vxM1, vxP1, vxP2, vz, vzM1, vzM2, vzP1, sxx, szz, sxz, mm, ll, mu, o);
+}
+
+/** Stress update of the free-surface row (row 0): szz = 0, sxx with the surface modulus, sxz as elsewhere. */
+function psvStressSurfaceRow(): void {
   const c1 = f32x4.splat(C1);
   const c2 = f32x4.splat(C2);
   const r = rb;
-  const base = org + <usize>j * r;
+  const base = org;
   const end = base + ((<usize>nxv) << 2);
-  const surfaceRow = freeSurface && j == 0;
   for (let o = base; o < end; o += 16) {
-    // d vx/dx at i: vx(i)-vx(i-1), vx(i+1)-vx(i-2)
     const pv = pF0 + o - 8;
     const vm2 = v128.load(pv);
     const vm1 = v128.load(pv, 4);
     const v0 = v128.load(pv, 8);
     const v1 = v128.load(pv, 12);
     const dxvx = f32x4.add(f32x4.mul(c1, f32x4.sub(v0, vm1)), f32x4.mul(c2, f32x4.sub(v1, vm2)));
-    // d vz/dz at j: vz(j)-vz(j-1), vz(j+1)-vz(j-2)
-    const pw = pF1 + o;
-    const w0 = v128.load(pw);
-    const wm1 = v128.load(pw - r);
-    const wm2 = v128.load(pw - 2 * r);
-    const wp1 = v128.load(pw + r);
-    const dzvz = f32x4.add(f32x4.mul(c1, f32x4.sub(w0, wm1)), f32x4.mul(c2, f32x4.sub(wp1, wm2)));
-    const mm = v128.load(pM2 + o);
+    const w0 = v128.load(pF1 + o);
     const ll = v128.load(pM3 + o);
     const psx = pF2 + o;
-    const psz = pF3 + o;
-    if (surfaceRow) {
-      // szz = 0 at the surface, so d vz/dz = -(lambda/M) d vx/dx and sxx grows with M - lambda^2/M,
-      // which the driver stores in the lambda array on this row.
-      v128.store(psx, ftz(f32x4.add(v128.load(psx), f32x4.mul(ll, dxvx))));
-      v128.store(psz, f32x4.splat(0));
-    } else {
-      v128.store(psx, ftz(f32x4.add(v128.load(psx), f32x4.add(f32x4.mul(mm, dxvx), f32x4.mul(ll, dzvz)))));
-      v128.store(psz, ftz(f32x4.add(v128.load(psz), f32x4.add(f32x4.mul(ll, dxvx), f32x4.mul(mm, dzvz)))));
-    }
-    // sxz at (i+1/2, j+1/2): d vx/dz = vx(j+1)-vx(j), vx(j+2)-vx(j-1); d vz/dx = vz(i+1)-vz(i), vz(i+2)-vz(i-1)
+    // szz = 0 at the surface, so d vz/dz = -(lambda/M) d vx/dx and sxx grows with M - lambda^2/M,
+    // which the driver stores in the lambda array on this row.
+    v128.store(psx, ftz(f32x4.add(v128.load(psx), f32x4.mul(ll, dxvx))));
+    v128.store(pF3 + o, f32x4.splat(0));
     const px = pF0 + o;
     const xp1 = v128.load(px + r);
     const xp2 = v128.load(px + 2 * r);
@@ -264,7 +340,8 @@ export function psvStep(): void {
     }
     const k = j - LAG;
     if (k >= 0) {
-      psvStressRow(k);
+      if (freeSurface && k == 0) psvStressSurfaceRow();
+      else psvStressRow(k);
       psvStressPml(k);
     }
   }
@@ -342,23 +419,160 @@ function shSurface(): void {
   }
 }
 
+/** SH velocity row j with its PML terms. */
+function shVelocityFull(j: i32): void {
+  shVelocityRow(j);
+  pmlXRow(0, pF1, pPx0, pAxI, pBxI, pF0, pM0, 0, 0, j);
+  pmlZRowIf(0, pF2, pPz0, pAzI, pBzI, pF0, pM0, 0, 0, j);
+}
+
+/** SH stress row k with its PML terms. */
+function shStressFull(k: i32): void {
+  shStressRow(k);
+  pmlXRow(1, pF0, pPx1, pAxH, pBxH, pF1, pM1, 0, 0, k);
+  pmlZRowIf(1, pF0, pPz1, pAzH, pBzH, pF2, pM2, 0, 0, k);
+}
+
 /** One SH time step: velocity, then stresses (with PML terms), then the free surface. */
 export function shStep(): void {
   const total = nrows + LAG;
   for (let j = 0; j < total; j++) {
-    if (j < nrows) {
-      shVelocityRow(j);
-      pmlXRow(0, pF1, pPx0, pAxI, pBxI, pF0, pM0, 0, 0, j);
-      pmlZRowIf(0, pF2, pPz0, pAzI, pBzI, pF0, pM0, 0, 0, j);
-    }
+    if (j < nrows) shVelocityFull(j);
     const k = j - LAG;
-    if (k >= 0) {
-      shStressRow(k);
-      pmlXRow(1, pF0, pPx1, pAxH, pBxH, pF1, pM1, 0, 0, k);
-      pmlZRowIf(1, pF0, pPz1, pAzH, pBzH, pF2, pM2, 0, 0, k);
-    }
+    if (k >= 0) shStressFull(k);
   }
   if (freeSurface) shSurface();
+}
+
+// ---------------------------------------------------------------------------------------------
+// Several time steps in one pass over the rows, with the sources and receivers of a shot.
+//
+// Step n+1 follows step n at SKEW rows' distance: its velocity row j reads the stresses of rows
+// j-2 .. j+2, which step n has finished (its stress rows run LAG rows behind its velocity rows),
+// and it overwrites velocities that no unfinished stress row of step n still reads. The free
+// surface of step n is imaged as soon as its stress rows 0 .. 2 are final (nothing else reads the
+// mirrored rows within the step). So every cell sees the same operations in the same order as
+// step after step, while the rows of STAGES steps stay in cache together.
+//
+// A source cell of step n gets its increment just before step n first reads it: a velocity cell
+// before step n updates its row; a stress cell before step n's velocity row two above it (after
+// step n-1 has finished the cell, its surface image included). A receiver cell is captured right
+// after step n has updated its row, before step n+1 touches it.
+
+const SKEW = 5;
+/** Steps per pass (at most MAX_STAGES). */
+const STAGES = 4;
+const MAX_STAGES = 8;
+
+// Shot table (written by the driver, read by configureShot), byte addresses.
+let nSrc: i32 = 0;
+let pSrc: usize = 0; // [nSrc] of (byte address, inject row, mirror byte address or 0), sorted by inject row
+let pInc: usize = 0; // f32 [step of the call][nSrc]
+let srcFrom: i32 = 0; // first step that gets an increment
+let nRec: i32 = 0;
+let pRec: usize = 0; // [nRec] of (byte address, row, slot), sorted by row
+let pCap: usize = 0; // f32 [step of the call][nRec]
+// Per-stage cursors into the sorted source and receiver tables.
+const CUR_SRC = memory.data(MAX_STAGES * 4, 16);
+const CUR_REC = memory.data(MAX_STAGES * 4, 16);
+
+/** Reads the shot table the driver wrote at `table` (i32 entries). */
+export function configureShot(table: usize): void {
+  nSrc = load<i32>(table, 0);
+  pSrc = <usize>load<i32>(table, 4);
+  pInc = <usize>load<i32>(table, 8);
+  srcFrom = load<i32>(table, 12);
+  nRec = load<i32>(table, 16);
+  pRec = <usize>load<i32>(table, 20);
+  pCap = <usize>load<i32>(table, 24);
+}
+
+/** Adds step n's increments to the source cells whose inject row is `row` (stage t's cursor). */
+@inline
+function injectRow(t: i32, row: i32, n: i32, callStep: i32): void {
+  const cp = CUR_SRC + (<usize>t << 2);
+  let c = load<i32>(cp);
+  while (c < nSrc) {
+    const e = pSrc + <usize>c * 12;
+    if (load<i32>(e, 4) != row) break;
+    if (n >= srcFrom) {
+      const a = <usize>load<i32>(e);
+      const v = load<f32>(a) + load<f32>(pInc + ((<usize>(callStep * nSrc + c)) << 2));
+      // Flush to zero as everywhere: |v| below 2^-100 becomes +0; NaN passes.
+      const w: f32 = Mathf.abs(v) < FLUSH_BELOW ? 0 : v;
+      store<f32>(a, w);
+      const m = <usize>load<i32>(e, 8);
+      if (m != 0) store<f32>(m, -w);
+    }
+    c++;
+  }
+  store<i32>(cp, c);
+}
+
+/** Captures the receiver cells of `row` after stage t's velocity update. */
+@inline
+function captureRow(t: i32, row: i32, callStep: i32): void {
+  const cp = CUR_REC + (<usize>t << 2);
+  let c = load<i32>(cp);
+  const out = pCap + ((<usize>(callStep * nRec)) << 2);
+  while (c < nRec) {
+    const e = pRec + <usize>c * 12;
+    if (load<i32>(e, 4) != row) break;
+    store<f32>(out + ((<usize>load<i32>(e, 8)) << 2), load<f32>(<usize>load<i32>(e)));
+    c++;
+  }
+  store<i32>(cp, c);
+}
+
+/** Runs steps first .. first+count-1 in passes of up to STAGES steps (P-SV when psv, else SH). */
+function advance(psv: bool, first: i32, count: i32): void {
+  for (let done = 0; done < count; done += STAGES) {
+    const T = min(STAGES, count - done);
+    for (let t = 0; t < T; t++) {
+      store<i32>(CUR_SRC + (<usize>t << 2), 0);
+      store<i32>(CUR_REC + (<usize>t << 2), 0);
+    }
+    const total = nrows + LAG + SKEW * (T - 1);
+    for (let j = 0; j < total; j++) {
+      for (let t = 0; t < T; t++) {
+        const jj = j - SKEW * t;
+        if (jj < 0) break;
+        const callStep = done + t;
+        if (jj < nrows) {
+          injectRow(t, jj, first + callStep, callStep);
+          if (psv) {
+            psvVelocityRow(jj);
+            psvVelocityPml(jj);
+          } else {
+            shVelocityFull(jj);
+          }
+          captureRow(t, jj, callStep);
+        }
+        const k = jj - LAG;
+        if (k >= 0 && k < nrows) {
+          if (psv) {
+            if (freeSurface && k == 0) psvStressSurfaceRow();
+            else psvStressRow(k);
+            psvStressPml(k);
+            if (freeSurface && k == 2) psvSurface();
+          } else {
+            shStressFull(k);
+            if (freeSurface && k == 2) shSurface();
+          }
+        }
+      }
+    }
+  }
+}
+
+/** P-SV steps first .. first+count-1 with the shot's sources and receivers (see configureShot). */
+export function psvAdvance(first: i32, count: i32): void {
+  advance(true, first, count);
+}
+
+/** SH steps first .. first+count-1 with the shot's sources and receivers (see configureShot). */
+export function shAdvance(first: i32, count: i32): void {
+  advance(false, first, count);
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -366,65 +580,114 @@ export function shStep(): void {
 // multiples of 4). The derivative of `src` at the position shifted by `sh` (0: backward, element i
 // between i-1 and i; 1: forward, between i and i+1): c1 (s[k]-s[k-1]) + c2 (s[k+1]-s[k-2]), k = i + sh.
 
+/** One absorbing x strip of row `rowOff` from column `col` (psi slot `slot`), `wx` columns. */
 @inline
-function pmlXQuad(sh: i32, src: usize, psi: usize, a: usize, b: usize,
-  f1: usize, m1: usize, f2: usize, m2: usize, j: i32, i: i32, si: i32, surface: bool): void {
-  const c1 = f32x4.splat(C1);
-  const c2 = f32x4.splat(C2);
-  const o = org + <usize>j * rb + (<usize>i << 2);
-  const s = src + o + (<usize>sh << 2) - 8;
-  const sm2 = v128.load(s);
-  const sm1 = v128.load(s, 4);
-  const s0 = v128.load(s, 8);
-  const s1 = v128.load(s, 12);
-  const d = f32x4.add(f32x4.mul(c1, f32x4.sub(s0, sm1)), f32x4.mul(c2, f32x4.sub(s1, sm2)));
-  const pp = psi + ((<usize>(j * 2 * wx + si)) << 2);
-  const ci = <usize>i << 2;
-  const v = ftz(f32x4.add(f32x4.mul(v128.load(b + ci), v128.load(pp)), f32x4.mul(v128.load(a + ci), d)));
-  v128.store(pp, v);
+function pmlXSpan(sh: i32, src: usize, psiRow: usize, a: usize, b: usize,
+  f1: usize, m1: usize, f2: usize, m2: usize, rowOff: usize, col: i32, slot: i32, surface: bool): void {
+  const c1 = v128.load(K_C1);
+  const c2 = v128.load(K_C2);
+  const absMask = v128.load(K_ABS);
+  const flush = v128.load(K_FLUSH);
+  const co = <usize>col << 2;
+  const s = src + rowOff + co + (<usize>sh << 2) - 8; // columns i-2 .. i+1 of the shifted position at byte offsets 0 .. 12
+  const pp = psiRow + (<usize>slot << 2);
+  const pa = a + co;
+  const pb = b + co;
+  const q1 = f1 + rowOff + co;
+  const n = <usize>wx << 2;
   if (surface) {
     // Free-surface row of the normal stresses: sxx with the surface modulus (held in m2), szz stays 0.
-    v128.store(f1 + o, ftz(f32x4.add(v128.load(f1 + o), f32x4.mul(v128.load(m2 + o), v))));
-    return;
+    const k1 = m2 + rowOff + co;
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s + o, 8), v128.load(s + o, 4))),
+        f32x4.mul(c2, f32x4.sub(v128.load(s + o, 12), v128.load(s + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(v128.load(pb + o), v128.load(pp + o)), f32x4.mul(v128.load(pa + o), d)), absMask, flush);
+      v128.store(pp + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+    }
+  } else if (f2 == 0) {
+    const k1 = m1 + rowOff + co;
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s + o, 8), v128.load(s + o, 4))),
+        f32x4.mul(c2, f32x4.sub(v128.load(s + o, 12), v128.load(s + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(v128.load(pb + o), v128.load(pp + o)), f32x4.mul(v128.load(pa + o), d)), absMask, flush);
+      v128.store(pp + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+    }
+  } else {
+    const k1 = m1 + rowOff + co;
+    const q2 = f2 + rowOff + co;
+    const k2 = m2 + rowOff + co;
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s + o, 8), v128.load(s + o, 4))),
+        f32x4.mul(c2, f32x4.sub(v128.load(s + o, 12), v128.load(s + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(v128.load(pb + o), v128.load(pp + o)), f32x4.mul(v128.load(pa + o), d)), absMask, flush);
+      v128.store(pp + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+      v128.store(q2 + o, ftzk(f32x4.add(v128.load(q2 + o), f32x4.mul(v128.load(k2 + o), v)), absMask, flush));
+    }
   }
-  v128.store(f1 + o, ftz(f32x4.add(v128.load(f1 + o), f32x4.mul(v128.load(m1 + o), v))));
-  if (f2 != 0) v128.store(f2 + o, ftz(f32x4.add(v128.load(f2 + o), f32x4.mul(v128.load(m2 + o), v))));
 }
 
 function pmlXRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
   f1: usize, m1: usize, f2: usize, m2: usize, j: i32): void {
   if (wx == 0) return;
-  const right = nx - wx;
+  const rowOff = org + <usize>j * rb;
+  const psiRow = psi + ((<usize>(j * 2 * wx)) << 2);
   const surface = freeSurface && j == 0 && f2 != 0;
-  for (let i = 0; i < wx; i += 4) pmlXQuad(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i, surface);
-  for (let i = right; i < nx; i += 4) pmlXQuad(sh, src, psi, a, b, f1, m1, f2, m2, j, i, i - right + wx, surface);
+  pmlXSpan(sh, src, psiRow, a, b, f1, m1, f2, m2, rowOff, 0, 0, surface);
+  pmlXSpan(sh, src, psiRow, a, b, f1, m1, f2, m2, rowOff, nx - wx, wx, surface);
 }
 
 @inline
 function pmlZRow(sh: i32, src: usize, psi: usize, a: usize, b: usize,
   f1: usize, m1: usize, f2: usize, m2: usize, j: i32, sj: i32): void {
-  const c1 = f32x4.splat(C1);
-  const c2 = f32x4.splat(C2);
+  const c1 = v128.load(K_C1);
+  const c2 = v128.load(K_C2);
+  const absMask = v128.load(K_ABS);
+  const flush = v128.load(K_FLUSH);
   const r = rb;
   const row = org + <usize>j * r;
-  const sr = src + row + <usize>sh * r;
+  const s0 = src + row + <usize>sh * r;
+  const sM1 = s0 - r;
+  const sP1 = s0 + r;
+  const sM2 = s0 - 2 * r;
   const pr = psi + ((<usize>(sj * nxv)) << 2);
   const av = v128.load32_splat(a + (<usize>j << 2));
   const bv = v128.load32_splat(b + (<usize>j << 2));
+  const q1 = f1 + row;
+  const k1 = m1 + row;
   // Padding columns up to nxv have zero fields and moduli: their terms stay zero.
-  const n4 = <usize>nxv << 2;
-  for (let o: usize = 0; o < n4; o += 16) {
-    const s = sr + o;
-    const d = f32x4.add(
-      f32x4.mul(c1, f32x4.sub(v128.load(s), v128.load(s - r))),
-      f32x4.mul(c2, f32x4.sub(v128.load(s + r), v128.load(s - 2 * r))),
-    );
-    const pp = pr + o;
-    const v = ftz(f32x4.add(f32x4.mul(bv, v128.load(pp)), f32x4.mul(av, d)));
-    v128.store(pp, v);
-    const q = row + o;
-    v128.store(f1 + q, ftz(f32x4.add(v128.load(f1 + q), f32x4.mul(v128.load(m1 + q), v))));
-    if (f2 != 0) v128.store(f2 + q, ftz(f32x4.add(v128.load(f2 + q), f32x4.mul(v128.load(m2 + q), v))));
+  const n = <usize>nxv << 2;
+  if (f2 == 0) {
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s0 + o), v128.load(sM1 + o))),
+        f32x4.mul(c2, f32x4.sub(v128.load(sP1 + o), v128.load(sM2 + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(bv, v128.load(pr + o)), f32x4.mul(av, d)), absMask, flush);
+      v128.store(pr + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+    }
+  } else {
+    const q2 = f2 + row;
+    const k2 = m2 + row;
+    for (let o: usize = 0; o < n; o += 16) {
+      const d = f32x4.add(
+        f32x4.mul(c1, f32x4.sub(v128.load(s0 + o), v128.load(sM1 + o))),
+        f32x4.mul(c2, f32x4.sub(v128.load(sP1 + o), v128.load(sM2 + o))),
+      );
+      const v = ftzk(f32x4.add(f32x4.mul(bv, v128.load(pr + o)), f32x4.mul(av, d)), absMask, flush);
+      v128.store(pr + o, v);
+      v128.store(q1 + o, ftzk(f32x4.add(v128.load(q1 + o), f32x4.mul(v128.load(k1 + o), v)), absMask, flush));
+      v128.store(q2 + o, ftzk(f32x4.add(v128.load(q2 + o), f32x4.mul(v128.load(k2 + o), v)), absMask, flush));
+    }
   }
 }
 
