@@ -42,7 +42,7 @@ function hasGcc(): boolean {
  * built from ../shared/perf-ref into the temporary folder when gcc and the folder are present
  * (rebuilt only when the source is newer than the binary).
  */
-export function locateYardstick(explicitPath?: string, env: NodeJS.ProcessEnv = process.env): YardstickLocation {
+export function locateYardstick(explicitPath?: string, env: Record<string, string | undefined> = process.env): YardstickLocation {
   const given = explicitPath ?? env[YARDSTICK_ENV];
   if (given) {
     const origin = explicitPath ? "option" : "environment";

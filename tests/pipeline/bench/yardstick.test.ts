@@ -20,7 +20,7 @@ describe("C yardstick", () => {
   it("says why there is no ratio when the given path is not an executable", () => {
     const a = locateYardstick(path.join(tmp, "missing"));
     expect(a).toEqual({ found: false, reason: `--yardstick ${path.join(tmp, "missing")}: no executable file there` });
-    const b = locateYardstick(undefined, { TRACEWRIGHT_YARDSTICK: path.join(tmp, "missing") } as NodeJS.ProcessEnv);
+    const b = locateYardstick(undefined, { TRACEWRIGHT_YARDSTICK: path.join(tmp, "missing") });
     expect(b.found).toBe(false);
     if (!b.found) expect(b.reason).toMatch(/^TRACEWRIGHT_YARDSTICK .*missing: no executable file there$/);
   });
@@ -31,9 +31,9 @@ describe("C yardstick", () => {
     fs.writeFileSync(fake, '#!/bin/sh\necho "impl=c nx=$1 nz=$2 nt=$3 warm=$4 sec=0.5 mcells=123.50 vz_sum=0"\n', { mode: 0o755 });
     const other = path.join(tmp, "other");
     fs.writeFileSync(other, "#!/bin/sh\nexit 0\n", { mode: 0o755 });
-    const where = locateYardstick(fake, { TRACEWRIGHT_YARDSTICK: other } as NodeJS.ProcessEnv);
+    const where = locateYardstick(fake, { TRACEWRIGHT_YARDSTICK: other });
     expect(where).toEqual({ found: true, binary: fake, origin: "option" });
-    expect(locateYardstick(undefined, { TRACEWRIGHT_YARDSTICK: other } as NodeJS.ProcessEnv)).toEqual({ found: true, binary: other, origin: "environment" });
+    expect(locateYardstick(undefined, { TRACEWRIGHT_YARDSTICK: other })).toEqual({ found: true, binary: other, origin: "environment" });
     const run = await runYardstick(fake, 1000, 400, 300);
     expect(run.mcells).toBe(123.5);
     // seconds = cells × steps / rate
