@@ -294,9 +294,12 @@ export function readSegy(bytes: Uint8Array, fileName: string): SegyFile {
     cur.fail(3504, `number of extended textual headers is ${extendedTextHeaders}`, "0 or more, or -1 for a variable count");
   }
   if (revisionMajor >= 2) {
-    const firstTrace = cur.u64(3522, "byte offset of first trace");
+    // Rev 2.0 bytes 3521–3528: byte offset of the first trace, unsigned 64-bit (0: not stated).
+    const firstTrace = cur.u64(3520, "byte offset of first trace");
     if (firstTrace > 0) {
-      if (firstTrace < FIRST_TRACE) cur.fail(3522, `byte offset of first trace is ${firstTrace}`, "at least 3600, or 0");
+      if (firstTrace < offset || firstTrace > bytes.length) {
+        cur.fail(3520, `byte offset of first trace (bytes 3521-3528) is ${firstTrace}`, `0, or an offset from ${offset} to ${bytes.length}`);
+      }
       offset = firstTrace;
     }
   }
@@ -318,9 +321,9 @@ export function readSegy(bytes: Uint8Array, fileName: string): SegyFile {
   }
   if (traces.length === 0) cur.fail(offset, "the file holds no traces", "at least one 240-byte trace header after the headers");
   if (revisionMajor >= 2) {
-    // Rev 2.0 bytes 3515–3522 announce the trace count: fewer traces means the file was cut at a
-    // trace boundary.
-    const announced = cur.u64(3514, "number of traces in file");
+    // Rev 2.0 bytes 3513–3520 announce the trace count (unsigned 64-bit, 0: not stated): fewer
+    // traces means the file was cut at a trace boundary.
+    const announced = cur.u64(3512, "number of traces in file");
     if (announced > 0 && announced !== traces.length) {
       cur.fail(offset, `the file holds ${traces.length} traces but its binary header announces ${announced}`, `${announced} traces`);
     }
@@ -481,7 +484,8 @@ function timeScalarFor(ms: number): { stored: number; scalar: number } {
 /**
  * Writes a SEG-Y rev 2.0 file: textual header (our lines, then "SEG-Y_REV2.0" and
  * "END TEXTUAL HEADER"), binary header (sample interval, samples, format, metres, byte-order
- * constant, revision 2.0, fixed-length traces, trace count, first-trace offset), then every trace
+ * constant, revision 2.0, fixed-length traces, trace count at 3513–3520, first-trace offset at
+ * 3521–3528), then every trace
  * with its 240-byte header.
  *
  * @param sampleIntervalS sample interval, s (stored in whole µs; the exact value also goes in the
@@ -542,8 +546,8 @@ export function writeSegy(
   view.setUint16(b(3503), 1, little); // fixed-length traces
   view.setInt16(b(3505), 0, little); // no extended textual headers
   view.setInt32(b(3507), 0, little); // no additional trace headers
-  view.setBigUint64(b(3515), BigInt(traces.length), little);
-  view.setBigUint64(b(3523), BigInt(FIRST_TRACE), little);
+  view.setBigUint64(b(3513), BigInt(traces.length), little); // 3513–3520 number of traces
+  view.setBigUint64(b(3521), BigInt(FIRST_TRACE), little); // 3521–3528 byte offset of first trace
 
   const perRecordIndex = new Map<number, number>();
   traces.forEach((t, i) => {
