@@ -9,6 +9,7 @@ import { z } from "zod";
 import { getDb } from "@/db/client";
 import { verifyCredentials } from "@/db/queries/users";
 import { authSecret } from "./auth-secret";
+import { safeAuthRedirect } from "./safe-redirect";
 
 const credentialsSchema = z.object({
   email: z.string().trim().email(),
@@ -41,6 +42,9 @@ export function getAuthOptions(): NextAuthOptions {
       }),
     ],
     callbacks: {
+      redirect({ url, baseUrl }) {
+        return safeAuthRedirect(url, baseUrl);
+      },
       jwt({ token, user }) {
         if (user) {
           token.userId = Number(user.id);

@@ -1,11 +1,12 @@
 import type { Metadata } from "next";
+import { safeNextPath } from "@/app/lib/safe-redirect";
 import { SignInForm } from "@/app/ui/auth/sign-in-form";
 
 export const metadata: Metadata = { title: "Sign in" };
 
 export default async function SignInPage({ searchParams }: { searchParams: Promise<{ next?: string; error?: string }> }) {
   const { next, error } = await searchParams;
-  const safeNext = next && next.startsWith("/") && !next.startsWith("//") ? next : "/runs";
+  const safeNext = safeNextPath(next);
   return (
     <main className="flex min-h-screen items-center justify-center px-4">
       <div className="w-full max-w-sm">
