@@ -30,6 +30,8 @@ export const users = sqliteTable("users", {
   passwordHash: text("password_hash").notNull(),
   /** Deactivated users cannot sign in; they are never deleted so the audit trail keeps their name. */
   active: integer("active", { mode: "boolean" }).notNull().default(true),
+  /** Set when an administrator issued a temporary password: the user must choose their own at the next sign-in. */
+  mustChangePassword: integer("must_change_password", { mode: "boolean" }).notNull().default(false),
   createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
 });
 

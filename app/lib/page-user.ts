@@ -7,10 +7,11 @@ import { forbidden, redirect } from "next/navigation";
 import { can, type Permission } from "./permissions";
 import { getSessionUser, type SessionUser } from "./session";
 
-/** The signed-in user, or a redirect to /sign-in. */
+/** The signed-in user, or a redirect to /sign-in (or to /change-password while the password is a temporary one). */
 export async function pageUser(): Promise<SessionUser> {
   const user = await getSessionUser();
   if (!user) redirect("/sign-in");
+  if (user.mustChangePassword) redirect("/change-password");
   return user;
 }
 

@@ -97,6 +97,7 @@ export const ACTION_REQUIREMENTS: Record<string, Requirement> = {
   addUser: "users.manage",
   changeRole: "users.manage",
   changeActive: "users.manage",
+  changeOwnPassword: "signed-in",
 };
 
 /** True when `role` (null: nobody signed in) meets `requirement`. */

@@ -1,5 +1,6 @@
 import type { Metadata } from "next";
 import { safeNextPath } from "@/app/lib/safe-redirect";
+import { signInErrorMessage } from "@/app/lib/sign-in-messages";
 import { SignInForm } from "@/app/ui/auth/sign-in-form";
 
 export const metadata: Metadata = { title: "Sign in" };
@@ -20,7 +21,7 @@ export default async function SignInPage({ searchParams }: { searchParams: Promi
         </div>
         <div className="card p-6">
           <h1 className="mb-4">Sign in</h1>
-          <SignInForm next={safeNext} initialError={error ? "Email or password not recognised, or the account is deactivated." : undefined} />
+          <SignInForm next={safeNext} initialError={error ? signInErrorMessage(error) : undefined} />
         </div>
         <p className="mt-4 text-xs muted">
           Accounts are added by an administrator. The demo prints its accounts when it starts.

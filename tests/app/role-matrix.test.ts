@@ -102,6 +102,7 @@ beforeAll(async () => {
   for (const a of seedDemoUsers(db)) {
     const u = getUserByEmail(db, a.email)!;
     users[u.role] = { id: u.id, role: u.role, name: u.name, email: u.email };
+    demoPasswords[u.role] = a.password;
   }
   const file = path.join(tmp, "matrix.yaml");
   fs.writeFileSync(file, "name: matrix\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { traces: 3, samples: 8, value: 1 }\n  - step: test-scale\n    label: scale\n    settings: { factor: 3 }\n");
@@ -205,14 +206,21 @@ const ACTION_INPUT: Record<string, () => FormData> = {
   addUser: () => form({ name: `Matrix Person ${++added}`, email: `matrix${added}@example.org`, role: "processor", password: "a-long-enough-password" }),
   changeRole: () => form({ userId: String(users.auditor.id), role: "auditor" }),
   changeActive: () => form({ userId: String(users.auditor.id), active: "true" }),
+  changeOwnPassword: () => form({ current: demoPasswords[currentRole!], next: `${demoPasswords[currentRole!]}-2`, repeat: `${demoPasswords[currentRole!]}-2` }),
 };
+let currentRole: Role | null = null;
+const demoPasswords = {} as Record<Role, string>;
 
 describe("server actions × roles", () => {
   for (const [name, requirement] of Object.entries(ACTION_REQUIREMENTS)) {
     for (const role of who) {
       const allowed = meets(role, requirement);
       it(`${name} as ${role ?? "nobody"}: ${allowed ? "done" : "refused"}`, async () => {
-        const actions = (await import("@/app/lib/actions/users")) as unknown as Record<string, (prev: FormState, f: FormData) => Promise<FormState>>;
+        const actions = {
+          ...(await import("@/app/lib/actions/users")),
+          ...(await import("@/app/lib/actions/password")),
+        } as unknown as Record<string, (prev: FormState, f: FormData) => Promise<FormState>>;
+        currentRole = role;
         if (role === null) signOut();
         else await signInAs(users[role]);
         const state = await actions[name]({}, ACTION_INPUT[name]());
