@@ -2,7 +2,7 @@
  * People who may sign in to the control room. Users are never deleted: a deactivated user
  * keeps their name in runs, reviews and the audit trail.
  */
-import { asc, eq } from "drizzle-orm";
+import { and, asc, eq } from "drizzle-orm";
 import crypto from "node:crypto";
 import bcrypt from "bcryptjs";
 import type { Db } from "../client";
@@ -54,6 +54,33 @@ export function getUserById(db: Db, id: number): UserRow | null {
 export function getUserByEmail(db: Db, email: string): UserRow | null {
   const u = db.select().from(users).where(eq(users.email, normaliseEmail(email))).get();
   return u ? toRow(u) : null;
+}
+
+/**
+ * The user a command-line name stands for: an e-mail exactly, else the one user whose e-mail's
+ * part before "@" equals the name (case-insensitive; an OS login such as "mhale" for
+ * mhale@example.org). Null when none or several match.
+ */
+export function findUserByLoginName(db: Db, name: string): UserRow | null {
+  const wanted = name.trim().toLowerCase();
+  if (wanted === "") return null;
+  if (wanted.includes("@")) return getUserByEmail(db, wanted);
+  const matches = db
+    .select()
+    .from(users)
+    .all()
+    .filter((u) => u.email.slice(0, u.email.indexOf("@")).toLowerCase() === wanted);
+  return matches.length === 1 ? toRow(matches[0]) : null;
+}
+
+/** True when at least one active administrator exists (otherwise the command line may add the first). */
+export function hasActiveAdmin(db: Db): boolean {
+  return db
+    .select({ id: users.id })
+    .from(users)
+    .where(and(eq(users.role, "admin"), eq(users.active, true)))
+    .limit(1)
+    .all().length > 0;
 }
 
 /**
