@@ -3,6 +3,7 @@
  * errors into a JSON body `{ error: { code, message, field? } }` with the right status and
  * never shows a stack trace or a driver error.
  */
+import "server-only";
 import { NextResponse } from "next/server";
 import { z } from "zod";
 import { AppError, toAppError } from "@/pipeline/errors";

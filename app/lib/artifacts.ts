@@ -3,6 +3,7 @@
  * models, snapshots, picks, mutes and spectra. Artifacts are immutable (content-addressed),
  * so decoded values are kept in a small in-process cache.
  */
+import "server-only";
 import { eq } from "drizzle-orm";
 import { getDb } from "@/db/client";
 import { artifacts } from "@/db/schema";

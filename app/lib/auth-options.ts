@@ -3,6 +3,7 @@
  * carrying the user id and role. Built on demand so that `next build` never opens the database
  * or creates the secret.
  */
+import "server-only";
 import type { NextAuthOptions } from "next-auth";
 import CredentialsProvider from "next-auth/providers/credentials";
 import { z } from "zod";

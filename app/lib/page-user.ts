@@ -3,6 +3,7 @@
  * check that shows the "not allowed" page. Pages only hide what a role cannot do; the route
  * handlers and server actions enforce it.
  */
+import "server-only";
 import { forbidden, redirect } from "next/navigation";
 import { can, type Permission } from "./permissions";
 import { getSessionUser, type SessionUser } from "./session";

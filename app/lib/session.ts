@@ -3,6 +3,7 @@
  * used by every route handler, server action and page. The role is re-read from the database
  * on each request so that a role change or a deactivation applies at once.
  */
+import "server-only";
 import { cookies } from "next/headers";
 import { decode } from "next-auth/jwt";
 import { getDb } from "@/db/client";

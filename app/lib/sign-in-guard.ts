@@ -6,6 +6,7 @@
  * Unknown, deactivated and wrong-password accounts get the same answer in about the same time
  * (one bcrypt comparison each, db/queries/users.ts).
  */
+import "server-only";
 import { RateLimiterMemory } from "rate-limiter-flexible";
 import type { Db } from "@/db/client";
 import { recordAudit } from "@/db/queries/audit";

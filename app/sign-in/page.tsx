@@ -4,6 +4,8 @@ import { signInErrorMessage } from "@/app/lib/sign-in-messages";
 import { SignInForm } from "@/app/ui/auth/sign-in-form";
 
 export const metadata: Metadata = { title: "Sign in" };
+// Rendered per request so that its scripts carry the nonce of the content security policy.
+export const dynamic = "force-dynamic";
 
 export default async function SignInPage({ searchParams }: { searchParams: Promise<{ next?: string; error?: string }> }) {
   const { next, error } = await searchParams;
