@@ -6,6 +6,20 @@ const nextConfig = {
   reactStrictMode: true,
   // forbidden() renders app/forbidden.tsx for pages a role may not see.
   experimental: { authInterrupts: true },
+  // Static security headers on every answer; the content security policy (with a per-request
+  // nonce) is set in proxy.ts.
+  async headers() {
+    return [
+      {
+        source: "/:path*",
+        headers: [
+          { key: "X-Content-Type-Options", value: "nosniff" },
+          { key: "X-Frame-Options", value: "DENY" },
+          { key: "Referrer-Policy", value: "strict-origin-when-cross-origin" },
+        ],
+      },
+    ];
+  },
 };
 
 export default nextConfig;

@@ -1,6 +1,7 @@
 /** What every command shares: opening the database, naming the actor, printing errors. */
 import { getDb, type Db } from "../db/client";
-import { getUserByEmail } from "../db/queries/users";
+import os from "node:os";
+import { findUserByLoginName, hasActiveAdmin } from "../db/queries/users";
 import type { Actor } from "../db/queries/audit";
 import { AppError, toAppError } from "../pipeline/errors";
 import { cleanTemporaryArtifacts } from "../pipeline/artifact-store";
@@ -27,29 +28,61 @@ export function openCliDb(): Db {
   return db;
 }
 
-/**
- * The person acting: --as <email> (or TRACEWRIGHT_USER) when it names a user, else the OS user.
- * `doing` names the action for messages; `roles` limits which roles may do it (default: anyone
- * but an auditor, who reads and changes nothing).
- */
-export function resolveActor(
-  db: Db,
-  as: string | undefined,
-  door: Door = "cli",
-  rule: { doing: string; roles?: readonly Role[] } = { doing: "start runs" },
-): Actor {
-  const who = as ?? process.env.TRACEWRIGHT_USER;
-  if (who && who.includes("@")) {
-    const user = getUserByEmail(db, who);
-    if (!user) throw new AppError("bad-input", `--as ${who}: no such user (see tracewright users list)`, { field: "--as" });
-    if (!user.active) throw new AppError("forbidden", `--as ${who}: this user is deactivated`, { field: "--as" });
-    const allowed = rule.roles ?? ROLES.filter((r) => r !== "auditor");
-    if (!allowed.includes(user.role)) {
-      throw new AppError("forbidden", `--as ${who}: a user with the ${user.role} role may not ${rule.doing}`, { field: "--as" });
-    }
-    return { userId: user.id, label: user.email, door };
+/** The OS login name of whoever runs the command. */
+export function osUserName(): string {
+  try {
+    return os.userInfo().username;
+  } catch {
+    return process.env.USER ?? "cli";
   }
-  return { userId: null, label: who ?? process.env.USER ?? "cli", door };
+}
+
+/** What a command needs of the person acting. */
+export interface ActorRule {
+  /** The action, for messages ("start runs", "manage users"). */
+  doing: string;
+  /** Roles allowed. @default every role but auditor */
+  roles?: readonly Role[];
+  /**
+   * True for commands that change who may do what (users add/set-role/deactivate): they need a
+   * user holding one of `roles`; only while no active administrator exists may anyone at the
+   * machine act (to add the first one).
+   */
+  requiresUser?: boolean;
+}
+
+/**
+ * The person acting, resolved to a user: `--as`, else TRACEWRIGHT_USER, else the OS login
+ * name, each an e-mail or the part of an e-mail before "@" (see findUserByLoginName). The
+ * actor carries the user's id and name, the same as the control room records.
+ *
+ * A name given with --as or TRACEWRIGHT_USER must be a user. An OS login that matches no user
+ * may still start runs, recorded with no user id and the login as label; it may not manage users
+ * (unless no administrator exists yet). Deactivated users and roles outside `rule.roles` are refused.
+ */
+export function resolveActor(db: Db, as: string | undefined, door: Door = "cli", rule: ActorRule = { doing: "start runs" }): Actor {
+  const source = as !== undefined ? "--as" : process.env.TRACEWRIGHT_USER ? "TRACEWRIGHT_USER" : "the OS user";
+  const who = as ?? (process.env.TRACEWRIGHT_USER || osUserName());
+  const named = `${source} ${who}`;
+  const user = findUserByLoginName(db, who);
+  if (!user) {
+    const bootstrap = rule.requiresUser && !hasActiveAdmin(db);
+    if (bootstrap) return { userId: null, label: who, door };
+    if (source !== "the OS user" || rule.requiresUser) {
+      throw new AppError(
+        rule.requiresUser ? "forbidden" : "bad-input",
+        `${named}: no such user, so nobody may ${rule.doing} here under that name (give the e-mail of a user with --as or TRACEWRIGHT_USER; see tracewright users list)`,
+        { field: "--as" },
+      );
+    }
+    return { userId: null, label: who, door };
+  }
+  if (!user.active) throw new AppError("forbidden", `${named}: ${user.email} is deactivated`, { field: "--as" });
+  const allowed = rule.roles ?? ROLES.filter((r) => r !== "auditor");
+  if (!allowed.includes(user.role)) {
+    throw new AppError("forbidden", `${named}: a user with the ${user.role} role may not ${rule.doing}`, { field: "--as" });
+  }
+  return { userId: user.id, label: user.name, door };
 }
 
 /** Prints an error as a person-readable message and sets the exit code. Never a stack trace. */

@@ -7,18 +7,10 @@
 import { sql } from "drizzle-orm";
 import { index, integer, primaryKey, real, sqliteTable, text, uniqueIndex } from "drizzle-orm/sqlite-core";
 
-export const ROLES = ["admin", "lead", "processor", "auditor"] as const;
-export type Role = (typeof ROLES)[number];
-
-export const RUN_STATUSES = ["queued", "running", "succeeded", "failed", "cancelled", "interrupted"] as const;
-export type RunStatus = (typeof RUN_STATUSES)[number];
-
-export const STEP_STATUSES = ["waiting", "running", "succeeded", "failed", "cancelled", "skipped"] as const;
-export type StepStatus = (typeof STEP_STATUSES)[number];
-
-/** Which door started something. */
-export const DOORS = ["cli", "web", "watcher"] as const;
-export type Door = (typeof DOORS)[number];
+// The names of roles, states and doors live in a module without the database, so that client
+// code can use them without pulling the schema into a browser bundle.
+export { DOORS, ROLES, RUN_STATUSES, STEP_STATUSES, type Door, type Role, type RunStatus, type StepStatus } from "./vocabulary";
+import { RUN_STATUSES, ROLES, STEP_STATUSES, DOORS } from "./vocabulary";
 
 const now = sql`(unixepoch('subsec') * 1000)`;
 
@@ -30,6 +22,8 @@ export const users = sqliteTable("users", {
   passwordHash: text("password_hash").notNull(),
   /** Deactivated users cannot sign in; they are never deleted so the audit trail keeps their name. */
   active: integer("active", { mode: "boolean" }).notNull().default(true),
+  /** Set when an administrator issued a temporary password: the user must choose their own at the next sign-in. */
+  mustChangePassword: integer("must_change_password", { mode: "boolean" }).notNull().default(false),
   createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
 });
 

@@ -120,7 +120,17 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
       expected: "valid YAML",
     });
   }
-  const raw = doc.toJS();
+  let raw: unknown;
+  try {
+    // yaml's own guard against alias expansion ("billion laughs"): at most 100 alias uses.
+    raw = doc.toJS({ maxAliasCount: 100 });
+  } catch (err) {
+    throw new AppError("bad-input", `${fileLabel} line 1: YAML aliases expand too far (${err instanceof Error ? err.message.split("\n")[0] : String(err)})`, {
+      file: fileLabel,
+      line: 1,
+      expected: "a pipeline file with at most 100 alias uses",
+    });
+  }
   if (!raw || typeof raw !== "object" || Array.isArray(raw)) {
     throw new AppError("bad-input", `${fileLabel}: expected a mapping with name, survey and steps at the top level`, {
       file: fileLabel,
@@ -183,13 +193,9 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
     for (const [key, value] of Object.entries(settings)) {
       if (value && typeof value === "object" && !Array.isArray(value) && Object.keys(value).length === 1 && "fromFile" in value) {
         const ref = (value as { fromFile: unknown }).fromFile;
-        if (typeof ref !== "string" || ref === "") fail(["steps", i, "settings", key, "fromFile"], "expected a file path");
-        const file = path.resolve(baseDir, ref as string);
-        try {
-          settings[key] = fs.readFileSync(file, "utf8");
-        } catch {
-          fail(["steps", i, "settings", key, "fromFile"], `the file ${ref as string} cannot be read (looked for ${file})`, "a readable text file");
-        }
+        const at = ["steps", i, "settings", key, "fromFile"];
+        if (typeof ref !== "string" || ref === "") fail(at, "expected a file path");
+        settings[key] = readFromFile(ref as string, baseDir, (message, expected) => fail(at, message, expected));
       }
     }
     if (entry.step === "import-records" && settings.onBadFile === undefined) settings.onBadFile = file.onBadFile;
@@ -298,6 +304,43 @@ function resolveInputs(
     out[slot] = target!.label;
   }
   return out;
+}
+
+/** Largest file a `fromFile` setting may take, bytes (a starting-model grid is well below). */
+export const FROM_FILE_MAX_BYTES = 8 * 1024 * 1024;
+
+/**
+ * The text of a `fromFile` setting. Only files in the pipeline file's folder or below are read,
+ * judged after resolving symbolic links on both sides (a link inside the folder that points out
+ * of it is refused), and only regular files up to {@link FROM_FILE_MAX_BYTES}.
+ */
+function readFromFile(ref: string, baseDir: string, fail: (message: string, expected?: string) => never): string {
+  const expected = "a text file in the pipeline file's folder or below";
+  let root: string;
+  try {
+    root = fs.realpathSync(baseDir);
+  } catch {
+    return fail(`the pipeline file's folder ${baseDir} cannot be read`, expected);
+  }
+  const wanted = path.resolve(baseDir, ref);
+  let real: string;
+  try {
+    real = fs.realpathSync(wanted);
+  } catch {
+    return fail(`the file ${ref} cannot be read (looked for ${wanted})`, "a readable text file");
+  }
+  const inside = path.relative(root, real);
+  if (inside === "" || inside.startsWith("..") || path.isAbsolute(inside)) {
+    return fail(`the file ${ref} is outside the pipeline file's folder (${root}); fromFile reads only files in that folder or below`, expected);
+  }
+  const stat = fs.statSync(real);
+  if (!stat.isFile()) return fail(`${ref} is not a regular file`, expected);
+  if (stat.size > FROM_FILE_MAX_BYTES) return fail(`the file ${ref} has ${stat.size} bytes, more than the ${FROM_FILE_MAX_BYTES} a setting may take`, expected);
+  try {
+    return fs.readFileSync(real, "utf8");
+  } catch {
+    return fail(`the file ${ref} cannot be read (looked for ${wanted})`, "a readable text file");
+  }
 }
 
 /** Reads and validates a pipeline file from disk. */

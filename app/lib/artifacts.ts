@@ -3,6 +3,7 @@
  * models, snapshots, picks, mutes and spectra. Artifacts are immutable (content-addressed),
  * so decoded values are kept in a small in-process cache.
  */
+import "server-only";
 import { getDb } from "@/db/client";
 import { isArtifactRecorded } from "@/db/queries/artifacts";
 import { readArtifact } from "@/pipeline/artifact-store";

@@ -3,6 +3,7 @@
  * TRACEWRIGHT_SMTP_PORT (plain SMTP, no TLS: meant for a local relay). Without a host the
  * message is not sent and the caller shows the temporary password to the administrator.
  */
+import "server-only";
 import nodemailer from "nodemailer";
 
 /** Outcome of a send attempt. */

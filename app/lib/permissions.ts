@@ -61,3 +61,48 @@ export function forbiddenMessage(role: Role, permission: Permission): string {
   };
   return `The ${ROLE_LABELS[role].toLowerCase()} role may not ${what[permission]}.`;
 }
+
+/** What a route handler or server action requires: a permission, any signed-in user, or nothing (next-auth's own routes). */
+export type Requirement = Permission | "signed-in" | "public";
+
+/**
+ * Every route handler under app/api, as "METHOD /path" with the route's folder names, and what
+ * it requires. The role-matrix test builds its cases from this table and checks that every
+ * exported handler is listed.
+ */
+export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
+  "GET /api/runs": "runs.read",
+  "POST /api/runs": "runs.start",
+  "GET /api/runs/[runId]": "runs.read",
+  "POST /api/runs/[runId]/cancel": "runs.cancel",
+  "GET /api/runs/[runId]/logs": "runs.read",
+  "POST /api/runs/[runId]/rerun": "runs.rerun",
+  "GET /api/runs/[runId]/reviews": "runs.read",
+  "POST /api/runs/[runId]/reviews": "runs.review",
+  "GET /api/runs/[runId]/steps/[stepLabel]": "runs.read",
+  "GET /api/artifacts/[hash]": "runs.read",
+  "GET /api/artifacts/[hash]/lines": "runs.read",
+  "GET /api/artifacts/[hash]/model": "runs.read",
+  "GET /api/artifacts/[hash]/positions": "runs.read",
+  "GET /api/artifacts/[hash]/snapshots": "runs.read",
+  "GET /api/artifacts/[hash]/spectra": "runs.read",
+  "GET /api/artifacts/[hash]/traces": "runs.read",
+  "GET /api/audit": "audit.read",
+  "GET /api/auth/[...nextauth]": "public",
+  "POST /api/auth/[...nextauth]": "public",
+};
+
+/** Every server action (app/lib/actions) and what it requires; the role-matrix test is built from it. */
+export const ACTION_REQUIREMENTS: Record<string, Requirement> = {
+  addUser: "users.manage",
+  changeRole: "users.manage",
+  changeActive: "users.manage",
+  changeOwnPassword: "signed-in",
+};
+
+/** True when `role` (null: nobody signed in) meets `requirement`. */
+export function meets(role: Role | null, requirement: Requirement): boolean {
+  if (requirement === "public") return true;
+  if (role === null) return false;
+  return requirement === "signed-in" ? true : can(role, requirement);
+}

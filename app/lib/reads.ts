@@ -2,6 +2,7 @@
  * Server reads for pages and route handlers: thin wrappers over db/queries that return the
  * JSON-safe view types of app/lib/view-types.ts. No logic of their own beyond shaping.
  */
+import "server-only";
 import { getDb } from "@/db/client";
 import { listIntermediates } from "@/db/queries/intermediates";
 import { listReviews } from "@/db/queries/reviews";

@@ -3,6 +3,7 @@
  * used by every route handler, server action and page. The role is re-read from the database
  * on each request so that a role change or a deactivation applies at once.
  */
+import "server-only";
 import { cookies } from "next/headers";
 import { decode } from "next-auth/jwt";
 import { getDb } from "@/db/client";
@@ -18,6 +19,8 @@ export interface SessionUser {
   email: string;
   name: string;
   role: Role;
+  /** Signed in with an administrator-issued temporary password: must choose their own before anything else. */
+  mustChangePassword: boolean;
 }
 
 /** Thrown when nobody is signed in (answers 401). */
@@ -52,7 +55,7 @@ export async function getSessionUser(): Promise<SessionUser | null> {
   if (typeof token.exp === "number" && token.exp * 1000 < Date.now()) return null;
   const user = getUserById(getDb(), token.userId);
   if (!user || !user.active) return null;
-  return { id: user.id, email: user.email, name: user.name, role: user.role };
+  return { id: user.id, email: user.email, name: user.name, role: user.role, mustChangePassword: user.mustChangePassword };
 }
 
 /**
@@ -60,9 +63,18 @@ export async function getSessionUser(): Promise<SessionUser | null> {
  * SignInRequiredError (401) or AppError "forbidden" (403) with a message otherwise.
  */
 export async function requirePermission(permission: Permission): Promise<SessionUser> {
+  const user = await requireSignedIn();
+  if (user.mustChangePassword) {
+    throw new AppError("forbidden", "Choose your own password first: the one you signed in with was temporary (go to /change-password).");
+  }
+  if (!can(user.role, permission)) throw new AppError("forbidden", forbiddenMessage(user.role, permission));
+  return user;
+}
+
+/** The signed-in, active user whatever their role (also one who must still change a temporary password); 401 otherwise. */
+export async function requireSignedIn(): Promise<SessionUser> {
   const user = await getSessionUser();
   if (!user) throw new SignInRequiredError();
-  if (!can(user.role, permission)) throw new AppError("forbidden", forbiddenMessage(user.role, permission));
   return user;
 }
 

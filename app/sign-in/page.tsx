@@ -1,11 +1,15 @@
 import type { Metadata } from "next";
+import { safeNextPath } from "@/app/lib/safe-redirect";
+import { signInErrorMessage } from "@/app/lib/sign-in-messages";
 import { SignInForm } from "@/app/ui/auth/sign-in-form";
 
 export const metadata: Metadata = { title: "Sign in" };
+// Rendered per request so that its scripts carry the nonce of the content security policy.
+export const dynamic = "force-dynamic";
 
 export default async function SignInPage({ searchParams }: { searchParams: Promise<{ next?: string; error?: string }> }) {
   const { next, error } = await searchParams;
-  const safeNext = next && next.startsWith("/") && !next.startsWith("//") ? next : "/runs";
+  const safeNext = safeNextPath(next);
   return (
     <main className="flex min-h-screen items-center justify-center px-4">
       <div className="w-full max-w-sm">
@@ -19,7 +23,7 @@ export default async function SignInPage({ searchParams }: { searchParams: Promi
         </div>
         <div className="card p-6">
           <h1 className="mb-4">Sign in</h1>
-          <SignInForm next={safeNext} initialError={error ? "Email or password not recognised, or the account is deactivated." : undefined} />
+          <SignInForm next={safeNext} initialError={error ? signInErrorMessage(error) : undefined} />
         </div>
         <p className="mt-4 text-xs muted">
           Accounts are added by an administrator. The demo prints its accounts when it starts.

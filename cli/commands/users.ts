@@ -8,7 +8,8 @@ import { AppError } from "../../pipeline/errors";
 import { writeTransaction } from "../../db/client";
 import { action, openCliDb, printJson, resolveActor } from "../shared";
 
-const MANAGE = { doing: "manage users", roles: ["admin"] as const };
+/** Changing who may do what needs an administrator (the first one may be added by anyone while none exists). */
+const MANAGE = { doing: "manage users", roles: ["admin"] as const, requiresUser: true };
 
 const addSchema = z.object({
   email: z.email("an e-mail address"),
@@ -31,7 +32,7 @@ export function registerUsers(program: Command): void {
     .requiredOption("--name <name>", "full name")
     .requiredOption("--role <role>", `one of ${ROLES.join(", ")}`)
     .option("--password <password>", "initial password (default: TRACEWRIGHT_NEW_PASSWORD)")
-    .option("--as <email>", "who is adding (for the audit trail)")
+    .option("--as <email>", "the administrator adding (default: TRACEWRIGHT_USER, else the OS user)")
     .action(
       action(async (opts: { email: string; name: string; role: string; password?: string; as?: string }) => {
         const parsed = addSchema.safeParse({ ...opts, password: opts.password ?? process.env.TRACEWRIGHT_NEW_PASSWORD });
@@ -75,7 +76,7 @@ export function registerUsers(program: Command): void {
     .description("change a user's role")
     .argument("<email>")
     .argument("<role>", `one of ${ROLES.join(", ")}`)
-    .option("--as <email>", "who is changing it")
+    .option("--as <email>", "the administrator changing it (default: TRACEWRIGHT_USER, else the OS user)")
     .action(
       action(async (email: string, role: string, opts: { as?: string }) => {
         const r = z.enum(ROLES).safeParse(role);
@@ -95,7 +96,7 @@ export function registerUsers(program: Command): void {
     .command("deactivate")
     .description("stop a user signing in (users are never deleted: the audit trail keeps their name)")
     .argument("<email>")
-    .option("--as <email>", "who is deactivating")
+    .option("--as <email>", "the administrator deactivating (default: TRACEWRIGHT_USER, else the OS user)")
     .action(
       action(async (email: string, opts: { as?: string }) => {
         const db = openCliDb();

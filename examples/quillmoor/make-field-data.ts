@@ -260,8 +260,10 @@ export function makeQuillmoorSurvey(options: QuillmoorOptions = {}): QuillmoorSu
     const oddKind = u() < 0.5 ? "weak" : "noisy";
     for (let b = 1; b <= nBlows; b++) {
       const strength = (0.85 + 0.3 * u()) * (b === oddBlow && oddKind === "weak" ? 0.3 : 1);
-      const windLevel = (0.0015 + 0.003 * u()) * (b === oddBlow && oddKind === "noisy" ? 6 : 1);
-      const trafficLevel = 0.001 + 0.002 * u();
+      // A calm November morning: wind and traffic well below the hammer's surface wave at the
+      // frequencies the inversion starts from (about 20 Hz), except on the odd noisy blow.
+      const windLevel = (0.0005 + 0.001 * u()) * (b === oddBlow && oddKind === "noisy" ? 12 : 1);
+      const trafficLevel = 0.0003 + 0.0007 * u();
       const humLevel = 0.0008;
       const humPhase = 2 * Math.PI * u();
       // Traffic: narrow-band noise near 12 Hz (two-pole resonator) arriving from the east end at 250 m/s.

@@ -80,3 +80,6 @@ export class ByteCursor {
 
 /** True when the platform stores multi-byte numbers little-endian (typed-array fast paths). */
 export const HOST_LITTLE_ENDIAN = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+
+/** Byte order of a field file's multi-byte numbers. */
+export type ByteOrder = "big" | "little";

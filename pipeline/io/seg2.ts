@@ -35,11 +35,14 @@
  */
 import type { Component, Gather, TraceHeader } from "../types";
 import { FileFormatError } from "../errors";
-import { ByteCursor, HOST_LITTLE_ENDIAN } from "./byte-cursor";
+import { ByteCursor, type ByteOrder } from "./byte-cursor";
+import { decodeSamples, encodedBytes, screenNonFinite, type NonFiniteSamplePolicy, type NonFiniteTraceWarning, type SampleEncoding } from "./samples";
 
 /** SEG-2 data format codes. */
 export type Seg2FormatCode = 1 | 2 | 3 | 4 | 5;
-export type ByteOrder = "little" | "big";
+
+/** Sample encoding of each SEG-2 data format code. */
+const ENCODING: Record<Seg2FormatCode, SampleEncoding> = { 1: "int16", 2: "int32", 3: "packed20", 4: "float32", 5: "float64" };
 
 /** One trace as read from a SEG-2 file. */
 export interface Seg2Trace {
@@ -51,6 +54,8 @@ export interface Seg2Trace {
   samples: Float32Array;
   /** Byte offset of this trace's descriptor block in the file. */
   descriptorOffset: number;
+  /** Byte offset of this trace's first sample in the file. */
+  dataOffset: number;
 }
 
 /** A SEG-2 file as read. */
@@ -65,19 +70,9 @@ export interface Seg2File {
 export const SEG2_FILE_ID = 0x3a55;
 export const SEG2_TRACE_ID = 0x4422;
 
-/** Bytes one sample takes per format code (format 3: 4 samples in 10 bytes). */
+/** Bytes `samples` samples take per format code (format 3: 4 samples in 10 bytes). */
 function dataBytes(format: Seg2FormatCode, samples: number): number {
-  switch (format) {
-    case 1:
-      return 2 * samples;
-    case 2:
-    case 4:
-      return 4 * samples;
-    case 3:
-      return 10 * Math.ceil(samples / 4);
-    case 5:
-      return 8 * samples;
-  }
+  return encodedBytes(ENCODING[format], samples);
 }
 
 /** True when the first two bytes are the SEG-2 file descriptor block ID in either byte order. */
@@ -138,19 +133,6 @@ function readStrings(cur: ByteCursor, start: number, end: number, term: Terminat
     off += count;
   }
   return out;
-}
-
-/** Decodes format-3 (20-bit packed floating point) samples. See the note in readSeg2. */
-function decodeFormat3(view: DataView, at: number, count: number, little: boolean, out: Float32Array): void {
-  for (let g = 0; g * 4 < count; g++) {
-    const base = at + 10 * g;
-    const exponents = view.getUint16(base, little);
-    for (let k = 0; k < 4 && g * 4 + k < count; k++) {
-      const e = (exponents >>> (12 - 4 * k)) & 0xf;
-      const mantissa = view.getInt16(base + 2 + 2 * k, little);
-      out[g * 4 + k] = mantissa * (1 << e);
-    }
-  }
 }
 
 /**
@@ -254,38 +236,9 @@ export function readSeg2(bytes: Uint8Array, fileName: string): Seg2File {
     const strings = readStrings(cur, p + 32, p + blockSize, term, `trace ${i + 1} descriptor`);
     const dataStart = p + blockSize;
     cur.need(dataStart, needed, `trace ${i + 1} data`);
-    traces.push({ strings, sampleCount, formatCode, samples: decodeSamples(cur, dataStart, sampleCount, formatCode), descriptorOffset: p });
+    traces.push({ strings, sampleCount, formatCode, samples: decodeSamples(cur, dataStart, sampleCount, ENCODING[formatCode]), descriptorOffset: p, dataOffset: dataStart });
   }
   return { byteOrder, revision, fileStrings, traces };
-}
-
-function decodeSamples(cur: ByteCursor, at: number, n: number, format: Seg2FormatCode): Float32Array {
-  const view = cur.view;
-  const little = cur.littleEndian;
-  const abs = cur.bytes.byteOffset + at;
-  if (format === 4 && little === HOST_LITTLE_ENDIAN && abs % 4 === 0) {
-    // Same byte order and aligned: one copy of the bytes.
-    return new Float32Array(cur.bytes.buffer.slice(abs, abs + 4 * n) as ArrayBuffer);
-  }
-  const out = new Float32Array(n);
-  switch (format) {
-    case 1:
-      for (let i = 0; i < n; i++) out[i] = view.getInt16(at + 2 * i, little);
-      break;
-    case 2:
-      for (let i = 0; i < n; i++) out[i] = view.getInt32(at + 4 * i, little);
-      break;
-    case 3:
-      decodeFormat3(view, at, n, little, out);
-      break;
-    case 4:
-      for (let i = 0; i < n; i++) out[i] = view.getFloat32(at + 4 * i, little);
-      break;
-    case 5:
-      for (let i = 0; i < n; i++) out[i] = view.getFloat64(at + 8 * i, little);
-      break;
-  }
-  return out;
 }
 
 /** A trace to write: its descriptor keywords and its samples. */
@@ -426,6 +379,10 @@ export interface Seg2ToGatherOptions {
   component?: Component;
   /** Multiply samples by the DESCALING_FACTOR keyword when present. @default true */
   applyDescaling?: boolean;
+  /** Traces with NaN or infinite samples: "mark-dead" (zeroed, dead, warned) or "refuse" the file. @default "mark-dead" */
+  nonFiniteSamples?: NonFiniteSamplePolicy;
+  /** Receives one warning per trace marked dead for non-finite samples. */
+  warnings?: NonFiniteTraceWarning[];
 }
 
 /**
@@ -435,7 +392,9 @@ export interface Seg2ToGatherOptions {
  * - Positions from SOURCE_LOCATION / RECEIVER_LOCATION (first value x; third value, when present,
  *   an elevation, turned into a depth = −elevation); NaN when absent, for the geometry step to fill.
  * - Channel from CHANNEL_NUMBER (else the trace's position, 1-based); stack count from STACK (else 1).
- * - A trace whose samples are all exactly zero is marked dead.
+ * - A trace whose samples are all exactly zero is marked dead; so is a trace holding NaN or
+ *   infinite samples (zeroed, with a warning naming file, trace and count), unless
+ *   `nonFiniteSamples` is "refuse".
  * - Source point and blow are 0 until the geometry step assigns them.
  *
  * @throws FileFormatError when a trace lacks SAMPLE_INTERVAL or traces differ in sample interval
@@ -444,6 +403,8 @@ export interface Seg2ToGatherOptions {
 export function seg2ToGather(file: Seg2File, fileName: string, options: Seg2ToGatherOptions): Gather {
   const component = options.component ?? "z";
   const applyDescaling = options.applyDescaling ?? true;
+  const nonFinite = options.nonFiniteSamples ?? "mark-dead";
+  const warnings = options.warnings ?? [];
   const cur = { fail: (at: number, message: string, expected?: string): never => { throw new FileFormatError(fileName, at, message, expected); } };
   if (file.traces.length === 0) cur.fail(6, "the file holds no traces", "at least one trace");
   const first = file.traces[0];
@@ -459,12 +420,21 @@ export function seg2ToGather(file: Seg2File, fileName: string, options: Seg2ToGa
     }
     if (t.sampleCount !== ns) cur.fail(t.descriptorOffset + 8, `trace ${i + 1} has ${t.sampleCount} samples, trace 1 has ${ns}`, `${ns} samples`);
     const scale = applyDescaling ? (seg2Numbers(t.strings.DESCALING_FACTOR)[0] ?? 1) : 1;
-    let allZero = true;
     const row = i * ns;
+    for (let k = 0; k < ns; k++) data[row + k] = t.samples[k] * scale;
+    const channelNumber = seg2Numbers(t.strings.CHANNEL_NUMBER)[0];
+    const bad = screenNonFinite(
+      data.subarray(row, row + ns),
+      { file: fileName, trace: i + 1, channel: Number.isInteger(channelNumber) ? channelNumber : i + 1, headerOffset: t.descriptorOffset, sampleOffset: t.dataOffset, sampleBytes: t.formatCode === 3 ? 0 : dataBytes(t.formatCode, 1) },
+      nonFinite,
+      warnings,
+    );
+    let allZero = true;
     for (let k = 0; k < ns; k++) {
-      const v = t.samples[k] * scale;
-      data[row + k] = v;
-      if (v !== 0) allZero = false;
+      if (data[row + k] !== 0) {
+        allZero = false;
+        break;
+      }
     }
     const src = seg2Numbers(t.strings.SOURCE_LOCATION);
     const rec = seg2Numbers(t.strings.RECEIVER_LOCATION);
@@ -484,7 +454,7 @@ export function seg2ToGather(file: Seg2File, fileName: string, options: Seg2ToGa
       offset: receiverX - sourceX,
       stackCount: stack !== undefined && stack >= 1 ? stack : 1,
       component,
-      dead: allZero,
+      dead: allZero || bad,
     };
   });
   return { id: options.id, sampleIntervalS: dt, sampleCount: ns, startTimeS: delay, traces, data };

@@ -12,11 +12,12 @@
  */
 import { FileFormatError } from "../errors";
 import type { Component, Gather, GatherSet, TraceHeader } from "../types";
-import { ByteCursor, HOST_LITTLE_ENDIAN } from "./byte-cursor";
+import { ByteCursor, type ByteOrder } from "./byte-cursor";
 import { decodeEbcdic, encodeEbcdic, looksLikeEbcdic } from "./ebcdic";
-import { decodeIbmSamples, encodeIbmSamples } from "./ibm-float";
+import { encodeIbmSamples } from "./ibm-float";
+import { decodeSamples, screenNonFinite, type NonFiniteSamplePolicy, type NonFiniteTraceWarning, type SampleEncoding } from "./samples";
 
-export type ByteOrder = "big" | "little";
+export type { ByteOrder } from "./byte-cursor";
 /** SEG-Y data sample format codes read here: 1 IBM float, 2 int32, 3 int16, 5 IEEE float32, 6 IEEE float64, 8 int8. */
 export type SegyFormatCode = 1 | 2 | 3 | 5 | 6 | 8;
 
@@ -28,6 +29,8 @@ const TRACE_HEADER_BYTES = 240;
 export const SEGY_BYTE_ORDER_CONSTANT = 16909060;
 
 const SAMPLE_BYTES: Record<SegyFormatCode, number> = { 1: 4, 2: 4, 3: 2, 5: 4, 6: 8, 8: 1 };
+/** Sample encoding of each SEG-Y data sample format code (rev 2.0, bytes 3225–3226). */
+const ENCODING: Record<SegyFormatCode, SampleEncoding> = { 1: "ibm32", 2: "int32", 3: "int16", 5: "float32", 6: "float64", 8: "int8" };
 const isFormat = (c: number): c is SegyFormatCode => c in SAMPLE_BYTES;
 
 /** Binary file header fields we use, by our own names (standard positions in the comments). */
@@ -195,37 +198,6 @@ function readTraceHeader(cur: ByteCursor, at: number): SegyTraceHeader {
   };
 }
 
-function decodeSegySamples(cur: ByteCursor, at: number, n: number, format: SegyFormatCode): Float32Array {
-  const view = cur.view;
-  const little = cur.littleEndian;
-  const abs = cur.bytes.byteOffset + at;
-  if (format === 5 && little === HOST_LITTLE_ENDIAN && abs % 4 === 0) {
-    return new Float32Array(cur.bytes.buffer.slice(abs, abs + 4 * n) as ArrayBuffer);
-  }
-  const out = new Float32Array(n);
-  switch (format) {
-    case 1:
-      decodeIbmSamples(view, at, n, little, out);
-      break;
-    case 2:
-      for (let i = 0; i < n; i++) out[i] = view.getInt32(at + 4 * i, little);
-      break;
-    case 3:
-      for (let i = 0; i < n; i++) out[i] = view.getInt16(at + 2 * i, little);
-      break;
-    case 5:
-      for (let i = 0; i < n; i++) out[i] = view.getFloat32(at + 4 * i, little);
-      break;
-    case 6:
-      for (let i = 0; i < n; i++) out[i] = view.getFloat64(at + 8 * i, little);
-      break;
-    case 8:
-      for (let i = 0; i < n; i++) out[i] = view.getInt8(at + i);
-      break;
-  }
-  return out;
-}
-
 /**
  * Reads a SEG-Y file (revisions 0, 1 and 2.0 layouts).
  *
@@ -294,9 +266,12 @@ export function readSegy(bytes: Uint8Array, fileName: string): SegyFile {
     cur.fail(3504, `number of extended textual headers is ${extendedTextHeaders}`, "0 or more, or -1 for a variable count");
   }
   if (revisionMajor >= 2) {
-    const firstTrace = cur.u64(3522, "byte offset of first trace");
+    // Rev 2.0 bytes 3521–3528: byte offset of the first trace, unsigned 64-bit (0: not stated).
+    const firstTrace = cur.u64(3520, "byte offset of first trace");
     if (firstTrace > 0) {
-      if (firstTrace < FIRST_TRACE) cur.fail(3522, `byte offset of first trace is ${firstTrace}`, "at least 3600, or 0");
+      if (firstTrace < offset || firstTrace > bytes.length) {
+        cur.fail(3520, `byte offset of first trace (bytes 3521-3528) is ${firstTrace}`, `0, or an offset from ${offset} to ${bytes.length}`);
+      }
       offset = firstTrace;
     }
   }
@@ -313,14 +288,14 @@ export function readSegy(bytes: Uint8Array, fileName: string): SegyFile {
     const dataBytes = ns * SAMPLE_BYTES[formatCode];
     cur.need(at + TRACE_HEADER_BYTES, dataBytes, `trace ${index} samples (${ns} samples of format ${formatCode})`);
     header.sampleCount = ns;
-    traces.push({ header, samples: decodeSegySamples(cur, at + TRACE_HEADER_BYTES, ns, formatCode), headerOffset: at });
+    traces.push({ header, samples: decodeSamples(cur, at + TRACE_HEADER_BYTES, ns, ENCODING[formatCode]), headerOffset: at });
     offset = at + TRACE_HEADER_BYTES + dataBytes;
   }
   if (traces.length === 0) cur.fail(offset, "the file holds no traces", "at least one 240-byte trace header after the headers");
   if (revisionMajor >= 2) {
-    // Rev 2.0 bytes 3515–3522 announce the trace count: fewer traces means the file was cut at a
-    // trace boundary.
-    const announced = cur.u64(3514, "number of traces in file");
+    // Rev 2.0 bytes 3513–3520 announce the trace count (unsigned 64-bit, 0: not stated): fewer
+    // traces means the file was cut at a trace boundary.
+    const announced = cur.u64(3512, "number of traces in file");
     if (announced > 0 && announced !== traces.length) {
       cur.fail(offset, `the file holds ${traces.length} traces but its binary header announces ${announced}`, `${announced} traces`);
     }
@@ -336,6 +311,10 @@ export interface SegyToGathersOptions {
   id: string;
   /** Recorded component. @default "z" */
   component?: Component;
+  /** Traces with NaN or infinite samples: "mark-dead" (zeroed, dead, warned) or "refuse" the file. @default "mark-dead" */
+  nonFiniteSamples?: NonFiniteSamplePolicy;
+  /** Receives one warning per trace marked dead for non-finite samples. */
+  warnings?: NonFiniteTraceWarning[];
 }
 
 /**
@@ -343,12 +322,18 @@ export interface SegyToGathersOptions {
  * order records first appear. A file with one record gives one gather named `id`; several give
  * `id-r<record>`. Positions come from source X / group X (scaled), depths from the source depth
  * and receiver elevation; when both X are zero and the offset is not, positions are unknown (NaN)
- * and the stored offset is kept. Traces with identification code 2 or only zero samples are dead.
+ * and the stored offset is kept. Traces with identification code 2 or only zero samples are dead;
+ * so are traces holding NaN or infinite samples (zeroed, with a warning naming file, trace and
+ * count), unless `nonFiniteSamples` is "refuse".
  *
  * @throws FileFormatError when traces of one record differ in sample count or interval.
  */
 export function segyToGathers(file: SegyFile, fileName: string, options: SegyToGathersOptions): Gather[] {
   const component = options.component ?? "z";
+  const nonFinite = options.nonFiniteSamples ?? "mark-dead";
+  const warnings = options.warnings ?? [];
+  const position = new Map<SegyTrace, number>();
+  file.traces.forEach((t, i) => position.set(t, i + 1));
   const groups = new Map<number, SegyTrace[]>();
   for (const t of file.traces) {
     const list = groups.get(t.header.fieldRecord);
@@ -377,8 +362,16 @@ export function segyToGathers(file: SegyFile, fileName: string, options: SegyToG
         throw new FileFormatError(fileName, t.headerOffset + 116, `trace sample interval ${h.sampleIntervalUs} µs differs from ${dtTrace} µs`, `${dtTrace} µs`);
       }
       data.set(t.samples, i * ns);
+      const row = data.subarray(i * ns, (i + 1) * ns);
+      const width = SAMPLE_BYTES[file.binary.formatCode];
+      const bad = screenNonFinite(
+        row,
+        { file: fileName, trace: position.get(t) ?? i + 1, channel: h.channel > 0 ? h.channel : i + 1, headerOffset: t.headerOffset, sampleOffset: t.headerOffset + TRACE_HEADER_BYTES, sampleBytes: width },
+        nonFinite,
+        warnings,
+      );
       let allZero = true;
-      for (let k = 0; k < ns; k++) if (t.samples[k] !== 0) { allZero = false; break; }
+      for (let k = 0; k < ns; k++) if (row[k] !== 0) { allZero = false; break; }
       const known = !(h.sourceX === 0 && h.groupX === 0 && h.offset !== 0);
       const sourceX = known ? h.sourceX : NaN;
       const receiverX = known ? h.groupX : NaN;
@@ -394,7 +387,7 @@ export function segyToGathers(file: SegyFile, fileName: string, options: SegyToG
         offset: known ? receiverX - sourceX : h.offset,
         stackCount: h.verticalStackCount >= 1 ? h.verticalStackCount : 1,
         component,
-        dead: h.traceIdCode === 2 || allZero,
+        dead: h.traceIdCode === 2 || allZero || bad,
       };
     });
     gathers.push({
@@ -481,7 +474,8 @@ function timeScalarFor(ms: number): { stored: number; scalar: number } {
 /**
  * Writes a SEG-Y rev 2.0 file: textual header (our lines, then "SEG-Y_REV2.0" and
  * "END TEXTUAL HEADER"), binary header (sample interval, samples, format, metres, byte-order
- * constant, revision 2.0, fixed-length traces, trace count, first-trace offset), then every trace
+ * constant, revision 2.0, fixed-length traces, trace count at 3513–3520, first-trace offset at
+ * 3521–3528), then every trace
  * with its 240-byte header.
  *
  * @param sampleIntervalS sample interval, s (stored in whole µs; the exact value also goes in the
@@ -542,8 +536,8 @@ export function writeSegy(
   view.setUint16(b(3503), 1, little); // fixed-length traces
   view.setInt16(b(3505), 0, little); // no extended textual headers
   view.setInt32(b(3507), 0, little); // no additional trace headers
-  view.setBigUint64(b(3515), BigInt(traces.length), little);
-  view.setBigUint64(b(3523), BigInt(FIRST_TRACE), little);
+  view.setBigUint64(b(3513), BigInt(traces.length), little); // 3513–3520 number of traces
+  view.setBigUint64(b(3521), BigInt(FIRST_TRACE), little); // 3521–3528 byte offset of first trace
 
   const perRecordIndex = new Map<number, number>();
   traces.forEach((t, i) => {

@@ -13,7 +13,7 @@ let tmp: string;
 const bin = path.join(process.cwd(), "bin", "tracewright.mjs");
 const tw = (args: string[], env: Record<string, string> = {}) =>
   execa(process.execPath, [bin, ...args], {
-    env: { ...process.env, TRACEWRIGHT_DATA_DIR: path.join(tmp, "data"), TRACEWRIGHT_USER: "cli-tester", ...env },
+    env: { ...process.env, TRACEWRIGHT_DATA_DIR: path.join(tmp, "data"), TRACEWRIGHT_USER: "", ...env },
     reject: false,
     cwd: tmp,
   });

@@ -1,7 +1,7 @@
 import { NextResponse } from "next/server";
 import { z } from "zod";
 import { getDb } from "@/db/client";
-import { answer, parseOr400 } from "@/app/lib/api";
+import { answer, answerChange, parseOr400 } from "@/app/lib/api";
 import { readRunList } from "@/app/lib/reads";
 import { runFilterSchema, toDbFilter } from "@/app/lib/run-filter";
 import { requirePermission, webActor } from "@/app/lib/session";
@@ -27,9 +27,9 @@ const startSchema = z.object({
 
 /** POST /api/runs: queue a run and hand it to the engine in the background; answers 202 at once. */
 export async function POST(req: Request) {
-  return answer(async () => {
+  return answerChange(req, async (json) => {
     const user = await requirePermission("runs.start");
-    const body = parseOr400(startSchema, await req.json().catch(() => null), "body");
+    const body = parseOr400(startSchema, json, "body");
     const { runId } = createRun(getDb(), { source: "pipeline-version", ...body, actor: webActor(user) });
     launchInBackground(runId);
     return NextResponse.json({ runId }, { status: 202 });

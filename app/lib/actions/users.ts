@@ -38,7 +38,8 @@ export async function addUser(_prev: FormState, form: FormData): Promise<FormSta
     const invite = input.password === "";
     const password = invite ? crypto.randomBytes(9).toString("base64url") : input.password;
     const db = getDb();
-    const user = createUser(db, { name: input.name, email: input.email, role: input.role, password });
+    // An invitation's generated password is temporary: it must be changed at the first sign-in.
+    const user = createUser(db, { name: input.name, email: input.email, role: input.role, password, mustChangePassword: invite });
     recordAudit(db, {
       actor: webActor(admin),
       action: invite ? "user.invite" : "user.add",

@@ -2,6 +2,7 @@
 
 import { signIn } from "next-auth/react";
 import { useState } from "react";
+import { signInErrorMessage } from "@/app/lib/sign-in-messages";
 
 /** Email and password form; on success goes to `next`. */
 export function SignInForm({ next, initialError }: { next: string; initialError?: string }) {
@@ -20,7 +21,7 @@ export function SignInForm({ next, initialError }: { next: string; initialError?
     });
     if (!result || result.error) {
       setBusy(false);
-      setError("Email or password not recognised, or the account is deactivated.");
+      setError(signInErrorMessage(result?.error ?? ""));
       return;
     }
     window.location.assign(next);

@@ -224,6 +224,45 @@ describe("writeSegy / writeGatherSetAsSegy round trips", () => {
     expect(v.getUint16(3502, false)).toBe(1); // 3503–3504 fixed-length traces
   });
 
+  it("writes the trace count at 3513–3520 and the first-trace offset at 3521–3528 (rev 2.0)", () => {
+    // SEG-Y rev 2.0 (SEG 2017), binary file header table: 3513–3520 "number of traces in this
+    // file or stream" and 3521–3528 "byte offset of first trace relative to start of file or
+    // stream", both unsigned 64-bit integers in the file's byte order. Read here at those
+    // positions with a bare DataView, not through the reader.
+    for (const little of [false, true]) {
+      const set = makeSet(4);
+      const bytes = writeGatherSetAsSegy(set, { byteOrder: little ? "little" : "big" });
+      const v = new DataView(bytes.buffer);
+      expect(v.getBigUint64(3513 - 1, little)).toBe(7n); // 3 + 4 traces
+      expect(v.getBigUint64(3521 - 1, little)).toBe(3600n); // no extended textual headers
+      expect(v.getUint16(3511 - 1, little)).toBe(0); // 3511–3512 time basis code left unset
+      expect(Array.from(bytes.slice(3528, 3600)).every((b) => b === 0)).toBe(true); // unassigned
+    }
+  });
+
+  it("reads a standard rev 2.0 file whose first-trace offset (3521–3528) leaves a gap", () => {
+    // A standard writer may place the first trace anywhere after the headers; 3521–3528 says
+    // where. 512 filler bytes here, trace count 2 at 3513–3520.
+    const plain = handSegy({ format: 5, width: 4, ns: 3, rev2: true, putSample: (v, at, k, t, le) => v.setFloat32(at, 10 * t + k, le) });
+    const gap = 512;
+    const bytes = new Uint8Array(plain.length + gap);
+    bytes.set(plain.subarray(0, 3600), 0);
+    bytes.fill(0xff, 3600, 3600 + gap);
+    bytes.set(plain.subarray(3600), 3600 + gap);
+    const v = new DataView(bytes.buffer);
+    v.setBigUint64(3513 - 1, 2n, false);
+    v.setBigUint64(3521 - 1, BigInt(3600 + gap), false);
+    const f = readSegy(bytes, "gap.sgy");
+    expect(f.traces).toHaveLength(2);
+    expect(f.traces[0].headerOffset).toBe(3600 + gap);
+    expect(Array.from(f.traces[1].samples)).toEqual([10, 11, 12]);
+    // An announced count (3513–3520) larger than what the file holds is refused.
+    v.setBigUint64(3513 - 1, 3n, false);
+    const err = catchError(() => readSegy(bytes, "short.sgy"));
+    expect(err).toBeInstanceOf(FileFormatError);
+    expect(err.message).toContain("announces 3");
+  });
+
   it("stores a fractional delay with a time scalar (bytes 215–216)", () => {
     const set = makeSet(5);
     for (const g of set.gathers) g.startTimeS = -0.0105;

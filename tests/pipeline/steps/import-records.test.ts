@@ -50,7 +50,7 @@ function goodFolder(): FieldFile[] {
 describe("import-records step", () => {
   it("has the documented defaults", () => {
     const p = importRecordsParams.parse({});
-    expect(p).toEqual({ onBadFile: "stop", extensions: [".sg2", ".seg2", ".dat", ".sgy", ".segy"], component: "z" });
+    expect(p).toEqual({ onBadFile: "stop", extensions: [".sg2", ".seg2", ".dat", ".sgy", ".segy"], component: "z", onNonFiniteSamples: "mark-dead" });
   });
 
   it("skips a bad file, records and logs it, and reads the others", async () => {

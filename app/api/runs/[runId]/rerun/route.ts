@@ -1,7 +1,7 @@
 import { NextResponse } from "next/server";
 import { z } from "zod";
 import { getDb } from "@/db/client";
-import { answer, parseId, parseOr400 } from "@/app/lib/api";
+import { answerChange, parseId, parseOr400 } from "@/app/lib/api";
 import { requirePermission, webActor } from "@/app/lib/session";
 import { launchInBackground } from "@/pipeline/launch";
 import { createRun } from "@/pipeline/run-create";
@@ -21,10 +21,10 @@ const rerunSchema = z.object({
  * engine (pipeline/launch.ts), which validates the overrides; answers 202 with the new run id.
  */
 export async function POST(req: Request, ctx: { params: Promise<{ runId: string }> }) {
-  return answer(async () => {
+  return answerChange(req, async (json) => {
     const user = await requirePermission("runs.rerun");
     const parentRunId = parseId((await ctx.params).runId, "runId");
-    const body = parseOr400(rerunSchema, await req.json().catch(() => null), "body");
+    const body = parseOr400(rerunSchema, json, "body");
     const { runId } = createRun(getDb(), { source: "rerun", parentRunId, fromLabel: body.fromLabel, overrides: body.overrides, actor: webActor(user) });
     launchInBackground(runId);
     return NextResponse.json({ runId }, { status: 202 });

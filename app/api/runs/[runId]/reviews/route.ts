@@ -3,7 +3,7 @@ import { z } from "zod";
 import { getDb, writeTransaction } from "@/db/client";
 import { recordAudit } from "@/db/queries/audit";
 import { addReview, listReviews } from "@/db/queries/reviews";
-import { answer, parseId, parseOr400 } from "@/app/lib/api";
+import { answer, answerChange, parseId, parseOr400 } from "@/app/lib/api";
 import { requirePermission, webActor } from "@/app/lib/session";
 
 export const dynamic = "force-dynamic";
@@ -25,10 +25,10 @@ const reviewSchema = z.object({
 
 /** POST /api/runs/:runId/reviews: approve or send back (lead, admin); recorded in the audit trail. */
 export async function POST(req: Request, ctx: { params: Promise<{ runId: string }> }) {
-  return answer(async () => {
+  return answerChange(req, async (json) => {
     const user = await requirePermission("runs.review");
     const runId = parseId((await ctx.params).runId, "runId");
-    const body = parseOr400(reviewSchema, await req.json().catch(() => null), "body");
+    const body = parseOr400(reviewSchema, json, "body");
     const db = getDb();
     const review = writeTransaction(db, (tx) => {
       const r = addReview(tx, { runId, reviewerUserId: user.id, decision: body.decision, comment: body.comment });

@@ -19,7 +19,8 @@ export async function GET(_req: Request, ctx: { params: Promise<{ runId: string;
     const runId = parseId(p.runId, "runId");
     const run = readRun(runId);
     if (!run) throw new AppError("not-found", `No run with id ${runId}.`, { field: "runId" });
-    const label = decodeURIComponent(p.stepLabel);
+    // Next hands params over decoded already: decoding again turns a "%" in a label into a URIError.
+    const label = p.stepLabel;
     const step = run.steps.find((s) => s.label === label);
     if (!step) {
       throw new AppError("not-found", `Run ${runId} has no step "${label}". Steps: ${run.steps.map((s) => s.label).join(", ")}.`, { field: "stepLabel" });
