@@ -3,6 +3,7 @@
 import { useEffect, useRef, useState } from "react";
 import { getJson, LIVE_POLL_MS } from "@/app/lib/queries";
 import type { LogLine } from "@/app/lib/view-types";
+import { formatSettingValue, readableName } from "@/app/ui/format";
 
 const LEVEL_STYLE: Record<string, string> = { debug: "text-ink-faint", info: "text-ink", warn: "text-warn", error: "text-bad font-medium" };
 
@@ -57,9 +58,29 @@ export function LogStream({ runId, runStepId, live }: { runId: number; runStepId
         {lines.map((l) => (
           <div key={l.id} className={LEVEL_STYLE[l.level]}>
             <span className="text-ink-faint">{new Date(l.at).toLocaleTimeString("en-GB")}</span> <span className="uppercase">{l.level.padEnd(5)}</span> {l.message}
+            {l.data ? <LogDetails data={l.data} /> : null}
           </div>
         ))}
       </div>
     </div>
+  );
+}
+
+/** The structured details of a log line (what the terminal prints after the message), readable and rounded. */
+export function LogDetails({ data }: { data: Record<string, unknown> }) {
+  const entries = Object.entries(data).filter(([k, v]) => v !== undefined && k !== "stack");
+  if (entries.length === 0) return null;
+  return (
+    <span className="ml-1 text-ink-soft" data-testid="log-details">
+      {entries.map(([k, v], i) => {
+        const { words, unit } = readableName(k);
+        return (
+          <span key={k} title={k}>
+            {i ? " · " : "— "}
+            {words}: {formatSettingValue(v, unit)}
+          </span>
+        );
+      })}
+    </span>
   );
 }
