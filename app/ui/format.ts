@@ -74,6 +74,9 @@ export function unitOfName(name: string): { unit: string; stem: string } | null 
   return null;
 }
 
+/** Trade abbreviations kept in capitals. */
+const ACRONYMS: Record<string, string> = { aic: "AIC", agc: "AGC", snr: "SNR", pml: "PML", rms: "RMS", fd: "FD", fwi: "FWI", psv: "P-SV", sh: "SH" };
+
 /** "positionToleranceM" → "Position tolerance (m)"; "dtS" → "dt (s)"; "sp14" stays readable. */
 export function readableName(name: string): { label: string; words: string; unit: string | null } {
   const u = unitOfName(name);
@@ -83,7 +86,7 @@ export function readableName(name: string): { label: string; words: string; unit
     .replace(/([A-Z]+)([A-Z][a-z])/g, "$1 $2")
     .split(" ")
     .map((w, i) => (i > 0 && /^[A-Z][a-z]/.test(w) ? w.toLowerCase() : w));
-  const text = words.join(" ");
+  const text = words.map((w) => ACRONYMS[w.toLowerCase()] ?? w).join(" ");
   const label = text.charAt(0).toUpperCase() + text.slice(1);
   return { label: u ? `${label} (${u.unit})` : label, words: label, unit: u?.unit ?? null };
 }

@@ -100,6 +100,8 @@ export function StepSeriesChart({ series }: { series: StepView["series"][number]
     byX.set(p.x, row);
   }
   const data = [...byX.values()].sort((a, b) => a.x - b.x);
+  const xLo = data[0]?.x ?? 0;
+  const xHi = data.at(-1)?.x ?? 1;
   return (
     <ChartFrame
       title={series.name.replace(/-/g, " ")}
@@ -111,7 +113,7 @@ export function StepSeriesChart({ series }: { series: StepView["series"][number]
       <ResponsiveContainer width="100%" height="100%">
         <LineChart data={data} margin={{ top: 8, right: 12, bottom: 4, left: 0 }}>
           <CartesianGrid stroke="#eef0ed" />
-          <XAxis dataKey="x" type="number" domain={["dataMin", "dataMax"]} tick={TICK} tickFormatter={tickLabel} />
+          <XAxis dataKey="x" type="number" domain={[xLo, xHi]} ticks={niceTicks(xLo, xHi, 6).filter((t) => t >= xLo && t <= xHi)} tick={TICK} tickFormatter={tickLabel} />
           <YAxis tick={TICK} width={48} tickFormatter={tickLabel} domain={["auto", "auto"]} />
           <Tooltip formatter={(v, n) => [formatNumber(Number(v), null, 4), n]} labelFormatter={(x) => `${series.xLabel}: ${formatNumber(Number(x), null, 4)}`} />
           {groups.map((g, i) => (

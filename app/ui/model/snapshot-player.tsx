@@ -186,7 +186,7 @@ export function SnapshotPlayer({
     ctx.fillText("0", bx + 18, M.top + ph / 2);
     ctx.fillText(`−${tickLabel(peak)}`, bx + 18, M.top + ph - 4);
     ctx.textBaseline = "bottom";
-    ctx.fillText(`${component}-component`, bx - 4, M.top - 4);
+    ctx.fillText(component, bx, M.top - 4);
   }, [q.data, width, height, pw, ph, extentX, extentZ, positions.data, shotX, component]);
 
   return (

@@ -117,6 +117,12 @@ export function StepPanel({
       <div>
         <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Log</h3>
         <LogStream key={step.id} runId={run.id} runStepId={step.id} live={live && (step.status === "running" || step.status === "waiting")} />
+        {step.cacheHit && step.cacheSourceRunId ? (
+          <p className="mt-1 text-xs muted">
+            The result was reused: its computation, with every warning, is logged in{" "}
+            <Link className="text-accent hover:underline" href={`/runs/${step.cacheSourceRunId}?step=${encodeURIComponent(step.label)}`}>run {step.cacheSourceRunId}</Link>.
+          </p>
+        ) : null}
       </div>
     </section>
   );

@@ -22,7 +22,7 @@ describe("readableName", () => {
   it("turns camelCase keys into words and reads the unit from the suffix", () => {
     expect(readableName("lowCutHz")).toEqual({ label: "Low cut (Hz)", words: "Low cut", unit: "Hz" });
     expect(readableName("positionToleranceM")).toMatchObject({ words: "Position tolerance", unit: "m" });
-    expect(readableName("agcWindowMs")).toMatchObject({ words: "Agc window", unit: "ms" });
+    expect(readableName("agcWindowMs")).toMatchObject({ words: "AGC window", unit: "ms" });
     expect(readableName("velocityMps")).toMatchObject({ unit: "m/s" });
     expect(readableName("measure")).toMatchObject({ words: "Measure", unit: null });
   });
