@@ -108,7 +108,7 @@ export function TravelTimeChart({ series }: { series: StepView["series"][number]
         )}
       </div>
       <ul className="mt-1 flex flex-wrap gap-x-4 text-[11px] text-ink-soft" aria-label="Legend">
-        <li><span className="mr-1 inline-block h-2 w-2 rounded-full bg-[#1f5f8b] align-middle" />picks of {active}</li>
+        <li><span className="mr-1 inline-block h-2 w-2 rounded-full bg-[#1f5f8b] align-middle" />{picks ? "picks of" : "values of"} {active}</li>
         {flaggedCount ? <li><span className="mr-1 inline-block h-2 w-2 rounded-full border border-[#b23a2e] align-middle" />flagged off the trend ({mine.filter((p) => p.flagged).length} here, {flaggedCount} of {points.length} in all)</li> : null}
         <li><span className="mr-1 inline-block h-1.5 w-1.5 rounded-full bg-[#9aa3a6] align-middle" />other {picks ? "shots" : "gathers"} (click one to choose it)</li>
       </ul>
