@@ -157,7 +157,7 @@ async function main() {
       check((await page.locator("nav >> text=People").count()) === 0, "processor must not see People");
       // Server-side filter: a status nobody has gives an empty table.
       await goto(page, `${origin}/runs?status=cancelled`);
-      check((await page.locator("[data-testid^=run-row-]").count()) === 0 || (await page.textContent("[data-testid=runs-table]"))!.includes("Stopped"), "status filter not applied");
+      check((await page.locator("[data-testid^=run-row-]").count()) === 0 || (await page.textContent("[data-testid=runs-table]"))!.includes("Cancelled"), "status filter not applied");
       await goto(page, `${origin}/runs`);
       await shoot(page, "runs");
     });
