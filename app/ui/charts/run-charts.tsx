@@ -6,7 +6,7 @@ import { Bar, BarChart, CartesianGrid, Cell, Line, LineChart, ResponsiveContaine
 import { artifactQueries } from "@/app/lib/queries";
 import type { StepView } from "@/app/lib/view-types";
 import { formatNumber } from "@/app/ui/format";
-import { niceTicks, tickLabel } from "./ticks";
+import { niceDomain, niceTicks, tickLabel } from "./ticks";
 import { TravelTimeChart } from "./travel-time-chart";
 
 export const PALETTE = ["#1f5f8b", "#d0611b", "#2f7a4f", "#7a4fa1", "#a4620f", "#4a5559"];
@@ -157,6 +157,9 @@ export function SpectrumChart({ hash, title = "Mean amplitude spectrum" }: { has
   if (q.error) return <p className="text-sm text-bad">{q.error.message}</p>;
   if (!q.data) return <p className="text-sm muted">Loading spectra…</p>;
   const maxF = q.data.frequenciesHz.at(-1) ?? 1;
+  let maxA = 0;
+  for (const row of data) for (const id of shown) maxA = Math.max(maxA, row[id] ?? 0);
+  const yTop = niceDomain(0, maxA || 1, 5)[1];
   const toggle = (id: string) => setChosen((c) => {
     const cur = c ?? defaultChoice(ids);
     return cur.includes(id) ? cur.filter((x) => x !== id) : [...cur, id].slice(-6);
@@ -193,7 +196,11 @@ export function SpectrumChart({ hash, title = "Mean amplitude spectrum" }: { has
         <LineChart data={data} margin={{ top: 8, right: 12, bottom: 4, left: 0 }}>
           <CartesianGrid stroke="#eef0ed" />
           <XAxis dataKey="f" type="number" domain={[0, maxF]} ticks={niceTicks(0, maxF, 6)} tick={TICK} tickFormatter={tickLabel} />
-          <YAxis tick={TICK} width={52} tickFormatter={tickLabel} scale={log ? "log" : "auto"} domain={log ? ["auto", "auto"] : [0, "auto"]} />
+          {log ? (
+            <YAxis tick={TICK} width={52} tickFormatter={tickLabel} scale="log" domain={["auto", "auto"]} />
+          ) : (
+            <YAxis tick={TICK} width={52} tickFormatter={tickLabel} domain={[0, yTop]} ticks={niceTicks(0, yTop, 5)} />
+          )}
           <Tooltip formatter={(v, n) => [formatNumber(Number(v), null, 3), n]} labelFormatter={(f) => `${formatNumber(Number(f), "Hz", 3)}`} />
           {shown.map((id, i) => <Line key={id} dataKey={id} stroke={PALETTE[i % PALETTE.length]} dot={false} strokeWidth={1.4} isAnimationActive={false} connectNulls={false} />)}
         </LineChart>

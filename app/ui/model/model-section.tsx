@@ -256,7 +256,7 @@ export function DepthProfile({ pts, symbol, unit, height = 256 }: { pts: Array<{
     ro.observe(el);
     return () => ro.disconnect();
   }, []);
-  const m = { left: 44, right: 10, top: 26, bottom: 8 };
+  const m = { left: 44, right: 14, top: 36, bottom: 8 };
   const pw = Math.max(40, width - m.left - m.right);
   const ph = height - m.top - m.bottom;
   const dMin = Math.min(...pts.map((p) => p.depth));
@@ -282,7 +282,7 @@ export function DepthProfile({ pts, symbol, unit, height = 256 }: { pts: Array<{
           {vt.map((v) => (
             <g key={`v${v}`}>
               <line x1={x(v)} x2={x(v)} y1={m.top} y2={m.top + ph} stroke="#eef0ed" />
-              <text x={x(v)} y={m.top - 4} textAnchor="middle" fontSize={10} fill="#4a5559">{tickLabel(v)}</text>
+              <text x={x(v)} y={m.top - 8} textAnchor="middle" fontSize={10} fill="#4a5559">{tickLabel(v)}</text>
             </g>
           ))}
           {niceTicks(dMin, dMax, Math.max(2, ph / 35)).map((d) => (
