@@ -53,6 +53,7 @@ export async function artifactOutline(hash: string): Promise<ArtifactOutline> {
           sampleCount: x.sampleCount,
           sampleIntervalS: x.sampleIntervalS,
           startTimeS: x.startTimeS,
+          sourceX: x.traces[0]?.sourceX ?? null,
         })),
       };
     }

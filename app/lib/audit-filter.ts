@@ -29,3 +29,17 @@ export function toAuditDbFilter(p: AuditFilterParams) {
     offset: (p.page - 1) * AUDIT_PAGE_SIZE,
   };
 }
+
+/** The search of db/queries/audit-search.ts for parsed params: action by prefix, person by name, e-mail or label; one page. */
+export function toAuditSearch(p: AuditFilterParams) {
+  return {
+    action: p.action,
+    person: p.person,
+    entityType: p.entityType,
+    entityId: p.entityId,
+    from: p.from ? new Date(`${p.from}T00:00:00`) : undefined,
+    to: p.to ? new Date(`${p.to}T23:59:59.999`) : undefined,
+    limit: AUDIT_PAGE_SIZE,
+    offset: (p.page - 1) * AUDIT_PAGE_SIZE,
+  };
+}

@@ -5,13 +5,16 @@
 import "server-only";
 import { getDb } from "@/db/client";
 import { listIntermediates } from "@/db/queries/intermediates";
+import { latestDecisions } from "@/db/queries/review-decisions";
 import { listReviews } from "@/db/queries/reviews";
 import { getRun, getStepLogs, listRuns, type RunFilter, type RunRow } from "@/db/queries/runs";
+import { describeParams, getStep } from "@/pipeline/registry";
+import type { ReviewState } from "./run-filter";
 import type { IntermediateView, LogLine, RunListItem, RunListPage, RunView, StepView } from "./view-types";
 
 const ms = (d: Date | null | undefined) => (d ? d.getTime() : null);
 
-function toListItem(r: Omit<RunRow, "stepsDone" | "stepsTotal" | "cacheHits"> & Partial<RunRow>): RunListItem {
+function toListItem(r: Omit<RunRow, "stepsDone" | "stepsTotal" | "cacheHits"> & Partial<RunRow>, review: RunListItem["review"] = null): RunListItem {
   const started = ms(r.startedAt);
   const finished = ms(r.finishedAt);
   return {
@@ -34,15 +37,43 @@ function toListItem(r: Omit<RunRow, "stepsDone" | "stepsTotal" | "cacheHits"> & 
     stepsTotal: r.stepsTotal ?? 0,
     cacheHits: r.cacheHits ?? 0,
     error: r.error,
+    review,
   };
 }
 
-/** A page of runs. */
-export function readRunList(filter: RunFilter): RunListPage {
+function reviewOf(d: { decision: "approved" | "returned"; reviewer: string; at: Date } | undefined): RunListItem["review"] {
+  return d ? { decision: d.decision, reviewer: d.reviewer, at: d.at.getTime() } : null;
+}
+
+function matchesReview(status: string, d: { decision: string } | undefined, want: ReviewState): boolean {
+  if (want === "awaiting") return status === "succeeded" && !d;
+  return d?.decision === want;
+}
+
+/**
+ * A page of runs with each run's latest review. With a review filter, the runs matching the
+ * other filters are read in chunks and filtered by their latest decision before paging (the
+ * review state lives in its own table).
+ */
+export function readRunList(filter: RunFilter & { review?: ReviewState }): RunListPage {
+  const db = getDb();
   const page = filter.page ?? 1;
   const pageSize = filter.pageSize ?? 25;
-  const { rows, total } = listRuns(getDb(), { ...filter, page, pageSize });
-  return { rows: rows.map(toListItem), total, page, pageSize };
+  const { review, ...rest } = filter;
+  if (!review) {
+    const { rows, total } = listRuns(db, { ...rest, page, pageSize });
+    const decisions = latestDecisions(db, rows.map((r) => r.id));
+    return { rows: rows.map((r) => toListItem(r, reviewOf(decisions.get(r.id)))), total, page, pageSize };
+  }
+  const chunk = 500;
+  const matched: RunListItem[] = [];
+  for (let p = 1; ; p++) {
+    const { rows } = listRuns(db, { ...rest, status: review === "awaiting" ? "succeeded" : rest.status, page: p, pageSize: chunk });
+    const decisions = latestDecisions(db, rows.map((r) => r.id));
+    for (const r of rows) if (matchesReview(r.status, decisions.get(r.id), review)) matched.push(toListItem(r, reviewOf(decisions.get(r.id))));
+    if (rows.length < chunk) break;
+  }
+  return { rows: matched.slice((page - 1) * pageSize, page * pageSize), total: matched.length, page, pageSize };
 }
 
 /** A run with steps, reviews and its parent chain, or null. */
@@ -85,7 +116,7 @@ export function readRun(id: number): RunView | null {
     parentId = p.parentRunId;
   }
   return {
-    ...toListItem({ ...run, stepsDone: done, stepsTotal: steps.length, cacheHits: steps.filter((s) => s.cacheHit).length }),
+    ...toListItem({ ...run, stepsDone: done, stepsTotal: steps.length, cacheHits: steps.filter((s) => s.cacheHit).length }, reviewOf(latestDecisions(db, [id]).get(id))),
     datasetId: run.datasetId,
     datasetHash: run.datasetHash,
     datasetFolder: run.datasetFolder,
@@ -109,7 +140,17 @@ export function readRun(id: number): RunView | null {
   };
 }
 
-/** Log lines of a run after `afterId`. */
+function parseData(json: string | null): Record<string, unknown> | null {
+  if (!json) return null;
+  try {
+    const v = JSON.parse(json) as unknown;
+    return v && typeof v === "object" && !Array.isArray(v) ? (v as Record<string, unknown>) : { value: v };
+  } catch {
+    return null;
+  }
+}
+
+/** Log lines of a run after `afterId`, with the structured details the terminal prints beside them. */
 export function readLogs(runId: number, opts: { runStepId?: number; afterId?: number; limit?: number }): LogLine[] {
   return getStepLogs(getDb(), { runId, ...opts }).map((l) => ({
     id: l.id,
@@ -117,6 +158,7 @@ export function readLogs(runId: number, opts: { runStepId?: number; afterId?: nu
     at: l.at.getTime(),
     level: l.level,
     message: l.message,
+    data: parseData(l.dataJson),
   }));
 }
 
@@ -135,4 +177,17 @@ export function readIntermediates(runStepId: number): IntermediateView[] {
 /** True while a run may still change. */
 export function isLive(status: string): boolean {
   return status === "queued" || status === "running";
+}
+
+/** Each step type's settings documentation (name and the `.describe()` text with its unit), by step id. */
+export function readParamDocs(stepIds: string[]): Record<string, Array<{ name: string; description: string }>> {
+  const out: Record<string, Array<{ name: string; description: string }>> = {};
+  for (const id of new Set(stepIds)) {
+    try {
+      out[id] = describeParams(getStep(id)).map((d) => ({ name: d.name, description: d.description }));
+    } catch {
+      out[id] = [];
+    }
+  }
+  return out;
 }

@@ -5,6 +5,12 @@
 import { z } from "zod";
 import { RUN_STATUSES } from "@/db/schema";
 
+export const REVIEW_STATES = ["awaiting", "approved", "returned"] as const;
+export type ReviewState = (typeof REVIEW_STATES)[number];
+
+/** Words for the review states (filter choices and the runs table). */
+export const REVIEW_WORDS: Record<ReviewState, string> = { awaiting: "Awaiting review", approved: "Approved", returned: "Sent back" };
+
 const emptyToUndefined = (v: unknown) => (v === "" || v === null ? undefined : v);
 
 export const runFilterSchema = z.object({
@@ -12,6 +18,8 @@ export const runFilterSchema = z.object({
   pipeline: z.preprocess(emptyToUndefined, z.string().max(200).optional()),
   status: z.preprocess(emptyToUndefined, z.enum(RUN_STATUSES).optional()),
   person: z.preprocess(emptyToUndefined, z.string().max(200).optional()),
+  /** The lead's review: "awaiting" (succeeded, no decision yet), "approved" or "returned" (latest decision). */
+  review: z.preprocess(emptyToUndefined, z.enum(REVIEW_STATES).optional()),
   /** Inclusive day, YYYY-MM-DD. */
   from: z.preprocess(emptyToUndefined, z.string().regex(/^\d{4}-\d{2}-\d{2}$/, "expected a date like 2025-11-14").optional()),
   to: z.preprocess(emptyToUndefined, z.string().regex(/^\d{4}-\d{2}-\d{2}$/, "expected a date like 2025-11-14").optional()),
@@ -29,6 +37,7 @@ export function toDbFilter(p: RunFilterParams) {
     pipelineName: p.pipeline,
     status: p.status,
     startedBy: p.person,
+    review: p.review,
     from: p.from ? new Date(`${p.from}T00:00:00`) : undefined,
     to: p.to ? new Date(`${p.to}T23:59:59.999`) : undefined,
     sort: p.sort,

@@ -26,6 +26,8 @@ export interface RunListItem {
   stepsTotal: number;
   cacheHits: number;
   error: string | null;
+  /** The latest review decision, or null when nobody has decided yet. */
+  review: { decision: "approved" | "returned"; reviewer: string; at: number } | null;
 }
 
 export interface RunListPage {
@@ -102,6 +104,8 @@ export interface LogLine {
   at: number;
   level: "debug" | "info" | "warn" | "error";
   message: string;
+  /** Structured details logged with the line (file, table line, difference in m, ...), or null. */
+  data: Record<string, unknown> | null;
 }
 
 /** An artifact's outline: enough to pick a gather or a model without its samples. */
@@ -109,7 +113,7 @@ export type ArtifactOutline =
   | {
       hash: string;
       kind: "gathers";
-      gathers: Array<{ id: string; traceCount: number; sampleCount: number; sampleIntervalS: number; startTimeS: number }>;
+      gathers: Array<{ id: string; traceCount: number; sampleCount: number; sampleIntervalS: number; startTimeS: number; sourceX?: number | null }>;
     }
   | { hash: string; kind: "model"; nx: number; nz: number; spacingM: number; originX: number; originZ: number }
   | { hash: string; kind: "snapshots"; shotId: string; component: string; nx: number; nz: number; spacingM: number; originX: number; originZ: number; timesS: number[] }

@@ -1,18 +1,65 @@
 import type { Metadata } from "next";
 import Link from "next/link";
 import { getDb } from "@/db/client";
-import { listAudit } from "@/db/queries/audit";
-import { AUDIT_PAGE_SIZE, auditFilterSchema, toAuditDbFilter } from "@/app/lib/audit-filter";
+import { searchAudit, type AuditEventRow } from "@/db/queries/audit-search";
+import { AUDIT_PAGE_SIZE, auditFilterSchema, toAuditSearch } from "@/app/lib/audit-filter";
 import { pageUserWith } from "@/app/lib/page-user";
-import { DOOR_LABELS, formatTime } from "@/app/ui/format";
+import { DOOR_LABELS, formatReadable, formatTime, readableName } from "@/app/ui/format";
 
 export const metadata: Metadata = { title: "Audit trail" };
 export const dynamic = "force-dynamic";
 
-function brief(json: string | null): string {
-  if (!json) return "";
-  const text = json.length > 160 ? json.slice(0, 157) + "…" : json;
-  return text;
+function parse(json: string | null): unknown {
+  if (json === null) return undefined;
+  try {
+    return JSON.parse(json);
+  } catch {
+    return json;
+  }
+}
+
+/** Before and after as readable rows: one row per recorded field, changed fields marked. */
+function BeforeAfter({ e }: { e: AuditEventRow }) {
+  const before = parse(e.beforeJson);
+  const after = parse(e.afterJson);
+  const isObj = (v: unknown): v is Record<string, unknown> => typeof v === "object" && v !== null && !Array.isArray(v);
+  if (!isObj(before) && !isObj(after)) {
+    return (
+      <div className="text-xs">
+        {before !== undefined ? <div><span className="muted">before:</span> {formatReadable(before)}</div> : null}
+        {after !== undefined ? <div><span className="muted">after:</span> {formatReadable(after)}</div> : null}
+      </div>
+    );
+  }
+  const b = isObj(before) ? before : {};
+  const a = isObj(after) ? after : {};
+  const keys = [...new Set([...Object.keys(b), ...Object.keys(a)])];
+  return (
+    <dl className="grid grid-cols-[auto_1fr] gap-x-2 text-xs" data-testid="before-after">
+      {keys.map((k) => {
+        const { words, unit } = readableName(k);
+        const inB = k in b;
+        const inA = k in a;
+        const changed = inB && inA && JSON.stringify(b[k]) !== JSON.stringify(a[k]);
+        return (
+          <div key={k} className="contents">
+            <dt className="muted" title={k}>{words}</dt>
+            <dd className="break-words">
+              {inB && inA ? (
+                changed ? <><span className="line-through decoration-ink-faint">{formatReadable(b[k], unit)}</span> → <span className="font-medium">{formatReadable(a[k], unit)}</span></> : formatReadable(a[k], unit)
+              ) : inA ? formatReadable(a[k], unit) : <><span className="muted">was</span> {formatReadable(b[k], unit)}</>}
+            </dd>
+          </div>
+        );
+      })}
+    </dl>
+  );
+}
+
+function recordOf(e: AuditEventRow) {
+  if (e.entityType === "run") return <Link className="text-accent hover:underline" href={`/runs/${e.entityId}`}>Run {e.entityId}</Link>;
+  if (e.entityType === "user") return <span>{e.entityName ?? `person ${e.entityId}`}<span className="block text-[10px] muted">account {e.entityId}</span></span>;
+  return `${e.entityType} ${e.entityId}`;
 }
 
 export default async function AuditPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
@@ -20,13 +67,13 @@ export default async function AuditPage({ searchParams }: { searchParams: Promis
   const raw = Object.fromEntries(Object.entries(await searchParams).map(([k, v]) => [k, Array.isArray(v) ? v[0] : v]));
   const parsed = auditFilterSchema.safeParse(raw);
   const filter = parsed.success ? parsed.data : auditFilterSchema.parse({});
-  const rows = listAudit(getDb(), toAuditDbFilter(filter));
-  const events = rows.slice(0, AUDIT_PAGE_SIZE);
-  const more = rows.length > AUDIT_PAGE_SIZE;
+  const { rows: events, total } = searchAudit(getDb(), toAuditSearch(filter));
+  const pages = Math.max(1, Math.ceil(total / AUDIT_PAGE_SIZE));
   const pageLink = (page: number) => {
     const q = new URLSearchParams(Object.entries({ ...raw, page: String(page) }).filter(([, v]) => v) as Array<[string, string]>);
     return `/audit?${q}`;
   };
+  const oneRun = filter.entityType === "run" && filter.entityId && /^\d+$/.test(filter.entityId) ? filter.entityId : null;
   return (
     <div className="space-y-4">
       <div>
@@ -34,14 +81,26 @@ export default async function AuditPage({ searchParams }: { searchParams: Promis
         <p className="text-ink-soft">Who did what, when, through which door, with the before and after. Nothing here can be changed or removed.</p>
       </div>
       {!parsed.success ? <p role="alert" className="rounded-md bg-warn-soft px-3 py-2 text-sm text-warn">Filter ignored: {parsed.error.issues[0]?.message}</p> : null}
-      <form className="card grid grid-cols-2 gap-3 p-3 md:grid-cols-6" aria-label="Filter the audit trail">
-        <label className="label">Action<input name="action" defaultValue={filter.action ?? ""} className="field mt-1" placeholder="e.g. run.rerun" /></label>
-        <label className="label">Person<input name="person" defaultValue={filter.person ?? ""} className="field mt-1" /></label>
+      <form key={JSON.stringify(raw)} className="card grid grid-cols-2 gap-3 p-3 md:grid-cols-6" aria-label="Filter the audit trail">
+        <label className="label">Action (or its start)<input name="action" defaultValue={filter.action ?? ""} className="field mt-1" placeholder="e.g. review, run.rerun" /></label>
+        <label className="label">Person<input name="person" defaultValue={filter.person ?? ""} className="field mt-1" placeholder="name or e-mail" /></label>
         <label className="label">Record type<input name="entityType" defaultValue={filter.entityType ?? ""} className="field mt-1" placeholder="run, user, …" /></label>
         <label className="label">Record id<input name="entityId" defaultValue={filter.entityId ?? ""} className="field mt-1" /></label>
         <label className="label">From day<input type="date" name="from" defaultValue={filter.from ?? ""} className="field mt-1" /></label>
         <label className="label">To day<input type="date" name="to" defaultValue={filter.to ?? ""} className="field mt-1" /></label>
-        <div className="col-span-full flex gap-2"><button className="btn-primary">Apply</button><Link href="/audit" className="btn">Clear</Link></div>
+        <div className="col-span-full flex flex-wrap items-center gap-2">
+          <button className="btn-primary">Apply</button>
+          <Link href="/audit" className="btn">Clear</Link>
+          {oneRun ? (
+            <span className="ml-auto flex items-center gap-2 text-xs" data-testid="audit-export">
+              Export run {oneRun}&apos;s trail:
+              <a className="btn py-0.5 text-xs" href={`/api/runs/${oneRun}/audit-export?format=csv`} download>CSV</a>
+              <a className="btn py-0.5 text-xs" href={`/api/runs/${oneRun}/audit-export?format=json`} download>JSON</a>
+            </span>
+          ) : (
+            <span className="ml-auto text-xs muted">To export one run&apos;s trail, filter on record type “run” and its id, or use the run page.</span>
+          )}
+        </div>
       </form>
       <div className="card overflow-x-auto">
         <table className="w-full min-w-[900px] text-sm" data-testid="audit-table">
@@ -49,22 +108,28 @@ export default async function AuditPage({ searchParams }: { searchParams: Promis
             <tr><th className="px-3 py-2 font-medium">When</th><th className="px-3 py-2 font-medium">Who</th><th className="px-3 py-2 font-medium">Action</th><th className="px-3 py-2 font-medium">Record</th><th className="px-3 py-2 font-medium">Before → after</th></tr>
           </thead>
           <tbody>
-            {events.length === 0 ? <tr><td colSpan={5} className="px-3 py-8 text-center muted">No events match.</td></tr> : null}
+            {events.length === 0 ? <tr><td colSpan={5} className="px-3 py-8 text-center muted">{filter.page > pages ? `There is no page ${filter.page}: ${total} events make ${pages} page${pages === 1 ? "" : "s"}.` : "No events match."}</td></tr> : null}
             {events.map((e) => (
               <tr key={e.id} className="border-t border-line align-top">
                 <td className="whitespace-nowrap px-3 py-2 tabular-nums">{formatTime(e.at.getTime())}</td>
-                <td className="px-3 py-2">{e.actorLabel}<div className="text-xs muted">via {DOOR_LABELS[e.door]}</div></td>
+                <td className="px-3 py-2">
+                  {e.actorName ?? e.actorLabel}
+                  <div className="text-xs muted">via the {DOOR_LABELS[e.door]}{e.actorName && e.actorName !== e.actorLabel ? ` · recorded as ${e.actorLabel}` : ""}</div>
+                </td>
                 <td className="px-3 py-2 font-mono text-xs">{e.action}</td>
-                <td className="px-3 py-2">{e.entityType === "run" ? <Link className="text-accent hover:underline" href={`/runs/${e.entityId}`}>run {e.entityId}</Link> : `${e.entityType} ${e.entityId}`}</td>
-                <td className="px-3 py-2 font-mono text-xs text-ink-soft">{e.beforeJson ? <div>before: {brief(e.beforeJson)}</div> : null}{e.afterJson ? <div>after: {brief(e.afterJson)}</div> : null}</td>
+                <td className="px-3 py-2">{recordOf(e)}</td>
+                <td className="px-3 py-2"><BeforeAfter e={e} /></td>
               </tr>
             ))}
           </tbody>
         </table>
       </div>
-      <nav className="flex justify-end gap-2 text-sm" aria-label="Pages">
-        {filter.page > 1 ? <Link className="btn" href={pageLink(filter.page - 1)}>Newer</Link> : null}
-        {more ? <Link className="btn" href={pageLink(filter.page + 1)}>Older</Link> : null}
+      <nav className="flex items-center justify-between gap-2 text-sm" aria-label="Pages">
+        <span className="muted" data-testid="audit-count">{total} event{total === 1 ? "" : "s"}{filter.page <= pages ? ` · page ${filter.page} of ${pages}` : ""}</span>
+        <div className="flex gap-2">
+          {filter.page > 1 ? <Link className="btn" href={pageLink(Math.min(filter.page - 1, pages))}>Newer</Link> : null}
+          {filter.page < pages ? <Link className="btn" href={pageLink(filter.page + 1)}>Older</Link> : null}
+        </div>
       </nav>
     </div>
   );

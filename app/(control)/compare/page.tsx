@@ -4,7 +4,10 @@ import { idSchema } from "@/app/lib/api";
 import { pageUserWith } from "@/app/lib/page-user";
 import { readRun, readRunList } from "@/app/lib/reads";
 import type { RunView } from "@/app/lib/view-types";
-import { formatValue } from "@/app/ui/format";
+import { formatReadable, readableName } from "@/app/ui/format";
+import { modelKindOf } from "@/app/ui/model/model-kind";
+import { ModelPair, type ModelChoice } from "@/app/ui/model/model-pair";
+import { statusWord } from "@/app/ui/status-words";
 import { StatusBadge } from "@/app/ui/status-badge";
 import { CompareGathers } from "@/app/ui/runs/compare-gathers";
 
@@ -22,13 +25,26 @@ function rowsOf(a: RunView, b: RunView) {
       stepA: sa ? `${sa.stepId} v${sa.stepVersion}` : "—",
       stepB: sb ? `${sb.stepId} v${sb.stepVersion}` : "—",
       params: names.map((n) => {
-        const va = sa ? formatValue(sa.params[n]) : "—";
-        const vb = sb ? formatValue(sb.params[n]) : "—";
-        return { name: n, a: va, b: vb, differs: va !== vb };
+        const { words, unit } = readableName(n);
+        const va = sa ? formatReadable(sa.params[n], unit) : "—";
+        const vb = sb ? formatReadable(sb.params[n], unit) : "—";
+        const differs = JSON.stringify(sa?.params[n]) !== JSON.stringify(sb?.params[n]);
+        return { name: n, words, a: va, b: vb, differs };
       }),
       outputsDiffer: JSON.stringify(sa?.outputs ?? {}) !== JSON.stringify(sb?.outputs ?? {}),
     };
   });
+}
+
+/** The models a run wrote, each with its kind. */
+function modelsOf(run: RunView): ModelChoice[] {
+  const out: ModelChoice[] = [];
+  for (const s of run.steps) {
+    const hash = s.outputs.model;
+    if (!hash || out.some((m) => m.hash === hash)) continue;
+    out.push({ key: `${run.id}:${s.label}`, hash, kind: modelKindOf(s.stepId, s.summary), source: `${s.label}, run ${run.id}` });
+  }
+  return out;
 }
 
 export default async function ComparePage({ searchParams }: { searchParams: Promise<{ a?: string; b?: string; all?: string }> }) {
@@ -51,7 +67,7 @@ export default async function ComparePage({ searchParams }: { searchParams: Prom
           <label key={k} className="label">{k === "a" ? "First run" : "Second run"}
             <select name={k} defaultValue={(k === "a" ? sp.a : sp.b) ?? ""} className="field mt-1 w-auto">
               <option value="">choose…</option>
-              {recent.map((r) => <option key={r.id} value={r.id}>Run {r.id} · {r.pipelineName} v{r.pipelineVersion} · {r.startedBy}{r.parentRunId ? ` · rerun of ${r.parentRunId}` : ""}</option>)}
+              {recent.map((r) => <option key={r.id} value={r.id}>Run {r.id} · {r.pipelineName} v{r.pipelineVersion} · {statusWord(r.status)} · {r.startedBy}{r.parentRunId ? ` · rerun of ${r.parentRunId}` : ""}</option>)}
             </select>
           </label>
         ))}
@@ -81,9 +97,9 @@ export default async function ComparePage({ searchParams }: { searchParams: Prom
                     </tr>,
                     ...shown.map((p) => (
                       <tr key={`${row.label}.${p.name}`} className={`border-t border-line/60 ${p.differs ? "bg-warn-soft" : ""}`} data-differs={p.differs ? "yes" : "no"}>
-                        <td className="px-3 py-1 pl-6 font-mono text-xs">{p.name}</td>
-                        <td className="px-3 py-1 font-mono text-xs">{p.a}</td>
-                        <td className="px-3 py-1 font-mono text-xs">{p.b}</td>
+                        <td className="px-3 py-1 pl-6 text-xs">{p.words}<span className="block font-mono text-[10px] text-ink-faint">{p.name}</span></td>
+                        <td className="px-3 py-1 text-xs tabular-nums">{p.a}</td>
+                        <td className="px-3 py-1 text-xs tabular-nums">{p.b}</td>
                       </tr>
                     )),
                   ];
@@ -92,6 +108,12 @@ export default async function ComparePage({ searchParams }: { searchParams: Prom
             </table>
           </section>
           <CompareGathers a={a} b={b} />
+          {modelsOf(a).length + modelsOf(b).length >= 2 ? (
+            <section className="card p-4" aria-label="Models of both runs">
+              <h2 className="mb-2">Models side by side</h2>
+              <ModelPair choices={[...modelsOf(a), ...modelsOf(b)]} initial={[(modelsOf(a).at(-1) ?? modelsOf(b)[0]).key, (modelsOf(b).at(-1) ?? modelsOf(a)[0]).key]} />
+            </section>
+          ) : null}
         </>
       ) : (
         <p className="muted">Choose two runs to compare.</p>

@@ -7,6 +7,7 @@ import { smtpSettings } from "@/app/lib/mail";
 import { ROLES } from "@/db/schema";
 import { AddUserForm } from "@/app/ui/people/add-user-form";
 import { UserRowControls } from "@/app/ui/people/user-row-controls";
+import { PERMISSION_WORDS } from "@/app/ui/permission-words";
 
 export const metadata: Metadata = { title: "People" };
 export const dynamic = "force-dynamic";
@@ -66,7 +67,7 @@ export default async function PeoplePage() {
               {ROLES.map((r) => (
                 <div key={r}>
                   <dt className="font-medium">{ROLE_LABELS[r]}</dt>
-                  <dd className="text-ink-soft">{ROLE_PERMISSIONS[r].join(", ")}</dd>
+                  <dd className="text-ink-soft" data-testid={`role-words-${r}`}>{ROLE_PERMISSIONS[r].map((p) => PERMISSION_WORDS[p]).join("; ")}</dd>
                 </div>
               ))}
             </dl>

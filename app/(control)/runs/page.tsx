@@ -4,7 +4,6 @@ import { getDb } from "@/db/client";
 import { listPipelineVersions } from "@/db/queries/pipelines";
 import { listSurveys } from "@/db/queries/surveys";
 import { listUsers } from "@/db/queries/users";
-import { RUN_STATUSES } from "@/db/schema";
 import { pageUserWith } from "@/app/lib/page-user";
 import { can } from "@/app/lib/permissions";
 import { readRunList } from "@/app/lib/reads";
@@ -26,7 +25,6 @@ export default async function RunsPage({ searchParams }: { searchParams: Promise
     surveys: listSurveys(db).map((s) => ({ value: s.slug, label: s.name })),
     pipelines: [...new Set(listPipelineVersions(db).map((p) => p.name))],
     people: listUsers(db).map((u) => u.name),
-    statuses: [...RUN_STATUSES],
   };
   return (
     <div className="space-y-4">

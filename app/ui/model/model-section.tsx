@@ -2,36 +2,68 @@
 
 import { useEffect, useMemo, useRef, useState } from "react";
 import { useQuery } from "@tanstack/react-query";
-import { CartesianGrid, Line, LineChart, ResponsiveContainer, Tooltip, XAxis, YAxis } from "recharts";
 import { artifactQueries } from "@/app/lib/queries";
+import { niceTicks, tickLabel } from "@/app/ui/charts/ticks";
+import { formatNumber } from "@/app/ui/format";
 import { gridToCanvas, lutCss, SEQUENTIAL } from "./colour-maps";
 import { ModelCautions } from "./cautions";
+import { modelHeading, type ModelKind } from "./model-kind";
 
-type Field = "vs" | "vp" | "rho";
-const FIELDS: Record<Field, { label: string; unit: string; index: number }> = {
-  vs: { label: "S-wave velocity Vs", unit: "m/s", index: 0 },
-  vp: { label: "P-wave velocity Vp", unit: "m/s", index: 1 },
-  rho: { label: "Density", unit: "kg/m³", index: 2 },
+export type Field = "vs" | "vp" | "rho";
+export const FIELDS: Record<Field, { label: string; symbol: string; unit: string; index: number }> = {
+  vs: { label: "S-wave velocity Vs", symbol: "Vs", unit: "m/s", index: 0 },
+  vp: { label: "P-wave velocity Vp", symbol: "Vp", unit: "m/s", index: 1 },
+  rho: { label: "Density", symbol: "Density", unit: "kg/m³", index: 2 },
 };
 
-const M = { left: 56, right: 90, top: 30, bottom: 40 };
-
-function niceStep(range: number, target: number): number {
-  const raw = range / Math.max(1, target);
-  const p = Math.pow(10, Math.floor(Math.log10(raw)));
-  const n = raw / p;
-  return (n < 1.5 ? 1 : n < 3.5 ? 2 : n < 7.5 ? 5 : 10) * p;
+/** Smallest and largest value of one field of a model payload (vs, vp, rho one after the other). */
+export function fieldRange(payload: Float32Array, nx: number, nz: number, field: Field): { lo: number; hi: number } {
+  const n = nx * nz;
+  const values = payload.subarray(FIELDS[field].index * n, (FIELDS[field].index + 1) * n);
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let i = 0; i < n; i++) {
+    if (values[i] < lo) lo = values[i];
+    if (values[i] > hi) hi = values[i];
+  }
+  return { lo, hi };
 }
+
+const M = { left: 56, right: 90, top: 30, bottom: 40 };
 
 /**
  * A model section: Vs, Vp or density as a colour image with its colour bar, distance and depth
  * in metres, receivers (triangles) and sources (stars) on the surface, and the depth profile
- * at a clicked position. The cautions are shown beside it.
+ * at a clicked position (depth growing downwards). The heading and the cautions say what the
+ * model is (`kind`: starting model, or inverted model at an iteration). Two sections can share
+ * one colour scale (`scale`) and one property (`field`, `onFieldChange`).
  */
-export function ModelSection({ hash, positionsHash, title }: { hash: string; positionsHash?: string; title: string }) {
+export function ModelSection({
+  hash,
+  positionsHash,
+  kind,
+  source,
+  scale,
+  field: fieldProp,
+  onFieldChange,
+  cautions = true,
+}: {
+  hash: string;
+  positionsHash?: string;
+  kind: ModelKind;
+  /** Where the model comes from, e.g. "build-model, run 12". */
+  source?: string;
+  /** Shared colour scale (e.g. two models side by side); default the model's own range. */
+  scale?: { lo: number; hi: number };
+  field?: Field;
+  onFieldChange?: (f: Field) => void;
+  cautions?: boolean;
+}) {
   const model = useQuery(artifactQueries.model(hash));
   const positions = useQuery({ ...artifactQueries.positions(positionsHash ?? ""), enabled: Boolean(positionsHash) });
-  const [field, setField] = useState<Field>("vs");
+  const [ownField, setOwnField] = useState<Field>("vs");
+  const field = fieldProp ?? ownField;
+  const setField = onFieldChange ?? setOwnField;
   const [pickX, setPickX] = useState<number | null>(null);
   const wrap = useRef<HTMLDivElement>(null);
   const canvas = useRef<HTMLCanvasElement>(null);
@@ -50,14 +82,10 @@ export function ModelSection({ hash, positionsHash, title }: { hash: string; pos
     const h = model.data.header;
     const n = h.nx * h.nz;
     const values = model.data.payload.subarray(FIELDS[field].index * n, (FIELDS[field].index + 1) * n);
-    let lo = Infinity;
-    let hi = -Infinity;
-    for (let i = 0; i < n; i++) {
-      if (values[i] < lo) lo = values[i];
-      if (values[i] > hi) hi = values[i];
-    }
+    const own = fieldRange(model.data.payload, h.nx, h.nz, field);
+    const { lo, hi } = scale ?? own;
     return { h, values, lo, hi };
-  }, [model.data, field]);
+  }, [model.data, field, scale]);
 
   const extentX = grid ? (grid.h.nx - 1) * grid.h.spacingM : 1;
   const extentZ = grid ? (grid.h.nz - 1) * grid.h.spacingM : 1;
@@ -89,18 +117,18 @@ export function ModelSection({ hash, positionsHash, title }: { hash: string; pos
     // Distance axis (bottom) and depth axis (left), metres.
     ctx.textAlign = "center";
     ctx.textBaseline = "top";
-    const xs = niceStep(extentX, pw / 70);
-    for (let x = Math.ceil(h.originX / xs) * xs; x <= h.originX + extentX + 1e-9; x += xs) {
+    for (const x of niceTicks(h.originX, h.originX + extentX, Math.max(2, pw / 70))) {
+      if (x < h.originX - 1e-9 || x > h.originX + extentX + 1e-9) continue;
       ctx.fillRect(xPx(x), M.top + ph, 1, 4);
-      ctx.fillText(String(Math.round(x * 10) / 10), xPx(x), M.top + ph + 6);
+      ctx.fillText(tickLabel(x), xPx(x), M.top + ph + 6);
     }
     ctx.fillText("Distance along the profile (m)", M.left + pw / 2, M.top + ph + 22);
     ctx.textAlign = "right";
     ctx.textBaseline = "middle";
-    const zs = niceStep(extentZ, ph / 40);
-    for (let z = Math.ceil(h.originZ / zs) * zs; z <= h.originZ + extentZ + 1e-9; z += zs) {
+    for (const z of niceTicks(h.originZ, h.originZ + extentZ, Math.max(2, ph / 40))) {
+      if (z < h.originZ - 1e-9 || z > h.originZ + extentZ + 1e-9) continue;
       ctx.fillRect(M.left - 4, zPx(z), 4, 1);
-      ctx.fillText(String(Math.round(z * 10) / 10), M.left - 6, zPx(z));
+      ctx.fillText(tickLabel(z), M.left - 6, zPx(z));
     }
     ctx.save();
     ctx.translate(14, M.top + ph / 2);
@@ -155,13 +183,14 @@ export function ModelSection({ hash, positionsHash, title }: { hash: string; pos
     ctx.strokeRect(bx + 0.5, M.top + 0.5, 13, ph - 1);
     ctx.fillStyle = "#4a5559";
     ctx.textAlign = "left";
-    const vs = niceStep(grid.hi - grid.lo || 1, ph / 40);
-    for (let v = Math.ceil(grid.lo / vs) * vs; v <= grid.hi; v += vs) {
+    for (const v of niceTicks(grid.lo, grid.hi, Math.max(2, ph / 40))) {
+      if (v < grid.lo || v > grid.hi) continue;
       const y = M.top + ph * (1 - (v - grid.lo) / (grid.hi - grid.lo || 1));
-      ctx.fillText(String(Math.round(v)), bx + 18, y);
+      ctx.fillRect(bx + 14, y, 3, 1);
+      ctx.fillText(tickLabel(v), bx + 19, y);
     }
     ctx.textBaseline = "bottom";
-    ctx.fillText(FIELDS[field].unit, bx, M.top - 4);
+    ctx.fillText(`${FIELDS[field].symbol} (${FIELDS[field].unit})`, bx - 4, M.top - 4);
   }, [grid, width, height, pw, ph, positions.data, pickX, extentX, extentZ, field]);
 
   const profile = useMemo(() => {
@@ -182,10 +211,11 @@ export function ModelSection({ hash, positionsHash, title }: { hash: string; pos
     setPickX(grid.h.originX + fx * extentX);
   }
 
+  const heading = modelHeading(kind);
   return (
-    <div className="space-y-3" data-testid="model-section">
+    <div className="space-y-3" data-testid="model-section" data-model-kind={kind.kind}>
       <div className="flex flex-wrap items-center gap-3">
-        <h3 className="font-medium">{title}</h3>
+        <h3 className="font-medium">{heading}{source ? <span className="ml-2 text-xs font-normal muted">from {source}</span> : null}</h3>
         <div role="radiogroup" aria-label="Property" className="flex gap-1">
           {(Object.keys(FIELDS) as Field[]).map((f) => (
             <button key={f} type="button" role="radio" aria-checked={field === f} onClick={() => setField(f)} className={`rounded-md px-2.5 py-1 text-xs ${field === f ? "bg-accent text-white" : "border border-line bg-panel"}`}>
@@ -196,30 +226,77 @@ export function ModelSection({ hash, positionsHash, title }: { hash: string; pos
         <span className="text-xs muted">Click the section for a depth profile.</span>
       </div>
       {model.error ? <p role="alert" className="text-sm text-bad">{model.error.message}</p> : null}
-      <div className="grid gap-4 xl:grid-cols-[1fr_260px]">
+      {model.isLoading ? <p className="text-sm muted">Loading the model…</p> : null}
+      <div className={`grid gap-4 ${cautions ? "xl:grid-cols-[1fr_260px]" : ""}`}>
         <div ref={wrap} className="w-full">
           <canvas ref={canvas} style={{ width: "100%", height }} onClick={onClick} role="img" aria-label={`${FIELDS[field].label} section`} data-testid="model-canvas" />
         </div>
-        <div className="card p-3">
-          <p className="text-xs font-medium text-ink-soft">Depth profile {profile ? `at ${profile.x.toFixed(1)} m` : ""}</p>
+        <div className="card p-3" data-testid="depth-profile">
+          <p className="text-xs font-medium text-ink-soft">Depth profile {profile ? `at ${formatNumber(profile.x, "m", 3)}` : ""}</p>
           {profile ? (
-            <div className="h-64">
-              <ResponsiveContainer width="100%" height="100%">
-                <LineChart data={profile.pts} layout="vertical" margin={{ top: 8, right: 8, bottom: 16, left: 0 }}>
-                  <CartesianGrid stroke="#eef0ed" />
-                  <XAxis type="number" dataKey="value" domain={["auto", "auto"]} tick={{ fontSize: 10 }} label={{ value: FIELDS[field].unit, position: "insideBottom", offset: -8, fontSize: 10 }} />
-                  <YAxis type="number" dataKey="depth" reversed tick={{ fontSize: 10 }} width={36} label={{ value: "m", angle: -90, position: "insideLeft", fontSize: 10 }} />
-                  <Tooltip formatter={(v) => [`${Math.round(Number(v))} ${FIELDS[field].unit}`, FIELDS[field].label]} labelFormatter={(d) => `${d} m deep`} />
-                  <Line dataKey="value" stroke="#1f5f8b" dot={false} strokeWidth={2} isAnimationActive={false} />
-                </LineChart>
-              </ResponsiveContainer>
-            </div>
+            <DepthProfile pts={profile.pts} symbol={FIELDS[field].symbol} unit={FIELDS[field].unit} />
           ) : (
             <p className="mt-6 text-center text-xs muted">No position chosen yet.</p>
           )}
         </div>
       </div>
-      <ModelCautions compact />
+      {cautions ? <ModelCautions model={kind} compact /> : null}
+    </div>
+  );
+}
+
+/** A property against depth, depth growing downwards from the surface (as in the section), axis titles with units. */
+export function DepthProfile({ pts, symbol, unit, height = 256 }: { pts: Array<{ depth: number; value: number }>; symbol: string; unit: string; height?: number }) {
+  const wrap = useRef<HTMLDivElement>(null);
+  const [width, setWidth] = useState(0);
+  useEffect(() => {
+    const el = wrap.current;
+    if (!el) return;
+    const ro = new ResizeObserver((e) => setWidth(Math.floor(e[0].contentRect.width)));
+    ro.observe(el);
+    return () => ro.disconnect();
+  }, []);
+  const m = { left: 44, right: 14, top: 36, bottom: 8 };
+  const pw = Math.max(40, width - m.left - m.right);
+  const ph = height - m.top - m.bottom;
+  const dMin = Math.min(...pts.map((p) => p.depth));
+  const dMax = Math.max(...pts.map((p) => p.depth));
+  let vLo = Math.min(...pts.map((p) => p.value));
+  let vHi = Math.max(...pts.map((p) => p.value));
+  if (vHi - vLo < 1e-6) {
+    vLo -= 1;
+    vHi += 1;
+  }
+  const vt = niceTicks(vLo, vHi, Math.max(2, pw / 60));
+  const v0 = Math.min(vLo, vt[0] ?? vLo);
+  const v1 = Math.max(vHi, vt.at(-1) ?? vHi);
+  const x = (v: number) => m.left + ((v - v0) / (v1 - v0 || 1)) * pw;
+  // Depth grows downwards: the shallowest point at the top.
+  const y = (d: number) => m.top + ((d - dMin) / (dMax - dMin || 1)) * ph;
+  // The grid nodes joined by straight lines.
+  const path = pts.map((p, i) => `${i ? "L" : "M"}${x(p.value).toFixed(1)},${y(p.depth).toFixed(1)}`).join(" ");
+  return (
+    <div ref={wrap} className="w-full" style={{ height }}>
+      {width > 0 ? (
+        <svg width={width} height={height} role="img" aria-label={`${symbol} against depth`} data-testid="depth-profile-svg">
+          {vt.map((v) => (
+            <g key={`v${v}`}>
+              <line x1={x(v)} x2={x(v)} y1={m.top} y2={m.top + ph} stroke="#eef0ed" />
+              <text x={x(v)} y={m.top - 8} textAnchor="middle" fontSize={10} fill="#4a5559">{tickLabel(v)}</text>
+            </g>
+          ))}
+          {niceTicks(dMin, dMax, Math.max(2, ph / 35)).map((d) => (
+            <g key={`d${d}`}>
+              <line x1={m.left} x2={m.left + pw} y1={y(d)} y2={y(d)} stroke="#eef0ed" />
+              <text x={m.left - 5} y={y(d)} textAnchor="end" dominantBaseline="middle" fontSize={10} fill="#4a5559" data-depth-tick={d}>{tickLabel(d)}</text>
+            </g>
+          ))}
+          <rect x={m.left + 0.5} y={m.top + 0.5} width={pw - 1} height={ph - 1} fill="none" stroke="#4a5559" />
+          <path d={path} fill="none" stroke="#1f5f8b" strokeWidth={2} />
+          <text x={m.left + pw / 2} y={11} textAnchor="middle" fontSize={11} fill="#4a5559">{symbol} ({unit})</text>
+          <text transform={`translate(11 ${m.top + ph / 2}) rotate(-90)`} textAnchor="middle" fontSize={11} fill="#4a5559">Depth (m)</text>
+        </svg>
+      ) : null}
     </div>
   );
 }

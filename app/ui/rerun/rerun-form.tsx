@@ -1,12 +1,13 @@
 "use client";
 
-import { useMemo, useState } from "react";
+import { useEffect, useMemo, useState } from "react";
 import { useRouter } from "next/navigation";
 import { useForm } from "react-hook-form";
 import { zodResolver } from "@hookform/resolvers/zod";
 import { z } from "zod";
 import { ApiError, postJson } from "@/app/lib/queries";
 import type { ParamDoc } from "@/pipeline/registry";
+import { readableName, unitOfDescription } from "@/app/ui/format";
 
 interface StepForm {
   label: string;
@@ -62,11 +63,9 @@ function rangeText(d: ParamDoc): string {
   return ` Range ${lo} to ${hi}.`;
 }
 
-/** "lowCutHz" → "low cut (Hz)"-style hint of the unit, read from the name's suffix. */
-function unitOf(name: string): string | null {
-  const m = /(Hz|Ms|S|M|Mps|Db|Percent|Kgm3)$/.exec(name);
-  const map: Record<string, string> = { Hz: "Hz", Ms: "ms", S: "s", M: "m", Mps: "m/s", Db: "dB", Percent: "%", Kgm3: "kg/m³" };
-  return m ? map[m[1]] : null;
+/** The unit of a setting: from its name's suffix, else from its description. */
+function unitOf(d: ParamDoc): string | null {
+  return readableName(d.name).unit ?? unitOfDescription(d.description);
 }
 
 /**
@@ -101,7 +100,21 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
     [editable],
   );
   const form = useForm<Values>({ resolver: zodResolver(schema as never) as never, defaultValues: defaults, values: defaults });
-  const { register, handleSubmit, formState, setError } = form;
+  const { register, handleSubmit, formState, setError, clearErrors, watch } = form;
+
+  // A server (cross-field) error belongs to the values it was given: once any setting of that
+  // step changes, it is stale and goes (the next submit checks again).
+  useEffect(() => {
+    const sub = watch((_values, { name }) => {
+      if (!name) return;
+      const label = name.split(".")[0];
+      const errs = (form.formState.errors as Record<string, Record<string, { type?: string }> | undefined>)[label];
+      if (!errs) return;
+      for (const [field, e] of Object.entries(errs)) if (e?.type === "server") clearErrors(`${label}.${field}` as never);
+      setServerError(null);
+    });
+    return () => sub.unsubscribe();
+  }, [watch, clearErrors, form.formState]);
 
   async function onSubmit(values: Values) {
     setServerError(null);
@@ -119,10 +132,12 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
       const res = await postJson<{ runId: number }>(`/api/runs/${runId}/rerun`, { fromLabel: from, overrides });
       router.push(`/runs/${res.runId}`);
     } catch (err) {
-      if (err instanceof ApiError && err.field && err.field.includes(".")) {
+      // Shown once: beside the field it names, or else above the button.
+      if (err instanceof ApiError && err.field && err.field.includes(".") && editable.some((s) => err.field!.startsWith(`${s.label}.`))) {
         setError(err.field as never, { type: "server", message: err.message });
+      } else {
+        setServerError(err instanceof Error ? err.message : String(err));
       }
-      setServerError(err instanceof Error ? err.message : String(err));
     }
   }
 
@@ -147,12 +162,13 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
             {s.docs.map((d) => {
               const name = `${s.label}.${d.name}`;
               const id = `f-${s.label}-${d.name}`;
-              const unit = unitOf(d.name);
+              const unit = unitOf(d);
               const err = errorOf(s.label, d.name);
               return (
                 <div key={d.name}>
                   <label htmlFor={id} className="label">
-                    <span className="font-mono text-ink">{d.name}</span>{unit ? <span className="ml-1 muted">({unit})</span> : null}
+                    <span className="text-ink">{readableName(d.name).words}</span>{unit ? <span className="ml-1 muted">({unit})</span> : null}
+                    <span className="ml-2 font-mono text-[10px] text-ink-faint">{d.name}</span>
                   </label>
                   {d.type === "boolean" ? (
                     <input id={id} type="checkbox" className="mt-2" {...register(name)} />

@@ -3,6 +3,7 @@
 import { useEffect, useRef, useState } from "react";
 import { getJson, LIVE_POLL_MS } from "@/app/lib/queries";
 import type { LogLine } from "@/app/lib/view-types";
+import { formatSettingValue, readableName } from "@/app/ui/format";
 
 const LEVEL_STYLE: Record<string, string> = { debug: "text-ink-faint", info: "text-ink", warn: "text-warn", error: "text-bad font-medium" };
 
@@ -10,6 +11,7 @@ const LEVEL_STYLE: Record<string, string> = { debug: "text-ink-faint", info: "te
 export function LogStream({ runId, runStepId, live }: { runId: number; runStepId?: number; live: boolean }) {
   const [lines, setLines] = useState<LogLine[]>([]);
   const [error, setError] = useState<string | null>(null);
+  const [loaded, setLoaded] = useState(false);
   const lastId = useRef(0);
   const box = useRef<HTMLDivElement>(null);
 
@@ -32,6 +34,7 @@ export function LogStream({ runId, runStepId, live }: { runId: number; runStepId
           });
         }
         setError(null);
+        setLoaded(true);
       } catch (err) {
         if (!stopped) setError(err instanceof Error ? err.message : String(err));
       }
@@ -53,13 +56,33 @@ export function LogStream({ runId, runStepId, live }: { runId: number; runStepId
     <div>
       {error ? <p className="text-xs text-bad">{error}</p> : null}
       <div ref={box} className="max-h-72 overflow-auto rounded-md border border-line bg-ground/60 p-2 font-mono text-[12px] leading-5" data-testid="log-lines" aria-live={live ? "polite" : undefined}>
-        {lines.length === 0 ? <p className="muted">{live ? "Waiting for log lines…" : "No log lines."}</p> : null}
+        {lines.length === 0 ? <p className="muted">{!loaded ? "Loading the log…" : live ? "Waiting for log lines…" : "No log lines."}</p> : null}
         {lines.map((l) => (
           <div key={l.id} className={LEVEL_STYLE[l.level]}>
             <span className="text-ink-faint">{new Date(l.at).toLocaleTimeString("en-GB")}</span> <span className="uppercase">{l.level.padEnd(5)}</span> {l.message}
+            {l.data ? <LogDetails data={l.data} /> : null}
           </div>
         ))}
       </div>
     </div>
+  );
+}
+
+/** The structured details of a log line (what the terminal prints after the message), readable and rounded. */
+export function LogDetails({ data }: { data: Record<string, unknown> }) {
+  const entries = Object.entries(data).filter(([k, v]) => v !== undefined && k !== "stack");
+  if (entries.length === 0) return null;
+  return (
+    <span className="ml-1 text-ink-soft" data-testid="log-details">
+      {entries.map(([k, v], i) => {
+        const { words, unit } = readableName(k);
+        return (
+          <span key={k} title={k}>
+            {i ? " · " : "— "}
+            {words}: {formatSettingValue(v, unit)}
+          </span>
+        );
+      })}
+    </span>
   );
 }

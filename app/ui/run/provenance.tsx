@@ -1,10 +1,10 @@
 import Link from "next/link";
 import type { RunView } from "@/app/lib/view-types";
-import { DOOR_LABELS, formatTime, formatValue, shortHash } from "@/app/ui/format";
+import { DOOR_LABELS, formatSettingValue, formatTime, readableName, shortHash } from "@/app/ui/format";
 import { StatusBadge } from "@/app/ui/status-badge";
 
 /** Who made this result, from what and how: the auditor's view of one run. */
-export function Provenance({ run }: { run: RunView }) {
+export function Provenance({ run, canExportAudit = false }: { run: RunView; canExportAudit?: boolean }) {
   const overrideEntries = Object.entries(run.overrides);
   return (
     <section className="card p-4 text-sm" aria-label="Where this result came from" data-testid="provenance">
@@ -37,7 +37,7 @@ export function Provenance({ run }: { run: RunView }) {
         <div className="mt-3">
           <h3 className="text-xs font-semibold text-ink-soft">Changed settings{run.rerunFromStep ? ` (from step ${run.rerunFromStep})` : ""}</h3>
           <ul className="mt-1 space-y-0.5 font-mono text-xs" data-testid="overrides">
-            {overrideEntries.flatMap(([label, params]) => Object.entries(params).map(([k, v]) => <li key={`${label}.${k}`}>{label}.{k} = {formatValue(v)}</li>))}
+            {overrideEntries.flatMap(([label, params]) => Object.entries(params).map(([k, v]) => { const n = readableName(k); return <li key={`${label}.${k}`}>{label} · <span className="font-sans">{n.label}</span> = {formatSettingValue(v, n.unit)} <span className="text-[10px] text-ink-faint">{k}</span></li>; }))}
           </ul>
         </div>
       ) : null}
@@ -49,6 +49,14 @@ export function Provenance({ run }: { run: RunView }) {
           <h3 className="text-xs font-semibold text-warn">Files left out ({run.rejectedFiles.length})</h3>
           <ul className="mt-1 space-y-0.5 text-xs">{run.rejectedFiles.map((f) => <li key={f.name}><span className="font-mono">{f.name}</span>: {f.reason}</li>)}</ul>
         </div>
+      ) : null}
+      {canExportAudit ? (
+        <p className="mt-3 flex flex-wrap items-center gap-2 text-xs" data-testid="audit-export">
+          <span className="muted">Audit trail of this run:</span>
+          <a className="btn py-0.5 text-xs" href={`/api/runs/${run.id}/audit-export?format=csv`} download>CSV</a>
+          <a className="btn py-0.5 text-xs" href={`/api/runs/${run.id}/audit-export?format=json`} download>JSON</a>
+          <Link className="text-accent hover:underline" href={`/audit?entityType=run&entityId=${run.id}`}>show</Link>
+        </p>
       ) : null}
       <details className="mt-3 text-xs">
         <summary className="cursor-pointer text-ink-soft">Pipeline file as recorded</summary>

@@ -1,8 +1,8 @@
 "use client";
 
-import { useState } from "react";
+import { useRef, useState, useTransition } from "react";
 import { useQueryClient } from "@tanstack/react-query";
-import { ApiError, postJson } from "@/app/lib/queries";
+import { decideRun } from "@/app/lib/actions/reviews";
 import type { RunView } from "@/app/lib/view-types";
 import { formatTime } from "@/app/ui/format";
 
@@ -11,22 +11,27 @@ export function ReviewPanel({ run, canReview }: { run: RunView; canReview: boole
   const client = useQueryClient();
   const [comment, setComment] = useState("");
   const [error, setError] = useState<string | null>(null);
-  const [busy, setBusy] = useState(false);
+  const [pending, startTransition] = useTransition();
+  // A second click before React re-renders must not send a second decision either.
+  const sending = useRef(false);
   const finished = run.status === "succeeded" || run.status === "failed";
 
-  async function decide(decision: "approved" | "returned") {
-    setBusy(true);
+  function decide(decision: "approved" | "returned") {
+    if (sending.current) return;
+    sending.current = true;
     setError(null);
-    try {
-      await postJson(`/api/runs/${run.id}/reviews`, { decision, comment });
-      setComment("");
-      await client.invalidateQueries({ queryKey: ["run", run.id] });
-    } catch (err) {
-      setError(err instanceof ApiError ? err.message : String(err));
-    } finally {
-      setBusy(false);
-    }
+    startTransition(async () => {
+      try {
+        const state = await decideRun({ runId: run.id, decision, comment });
+        if (state.error) setError(state.fields?.comment ?? state.error);
+        else setComment("");
+        await client.invalidateQueries({ queryKey: ["run", run.id] });
+      } finally {
+        sending.current = false;
+      }
+    });
   }
+  const latestIsApproval = run.reviews[0]?.decision === "approved";
 
   const latest = run.reviews[0];
   return (
@@ -45,8 +50,10 @@ export function ReviewPanel({ run, canReview }: { run: RunView; canReview: boole
           <textarea id="review-comment" className="field h-16" value={comment} onChange={(e) => setComment(e.target.value)} />
           {error ? <p role="alert" className="text-xs text-bad">{error}</p> : null}
           <div className="flex gap-2">
-            <button type="button" className="btn-primary" disabled={busy} onClick={() => decide("approved")}>Approve</button>
-            <button type="button" className="btn" disabled={busy} onClick={() => decide("returned")}>Send back</button>
+            <button type="button" className="btn-primary" disabled={pending || latestIsApproval || run.status !== "succeeded"} onClick={() => decide("approved")} data-testid="approve-button">
+              {pending ? "Saving…" : latestIsApproval ? "Approved" : "Approve"}
+            </button>
+            <button type="button" className="btn" disabled={pending} onClick={() => decide("returned")}>Send back</button>
           </div>
         </div>
       ) : null}

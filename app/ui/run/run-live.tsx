@@ -7,6 +7,7 @@ import { ApiError, postJson, runQueries } from "@/app/lib/queries";
 import type { RunView } from "@/app/lib/view-types";
 import { DOOR_LABELS, formatDuration, formatTime } from "@/app/ui/format";
 import { StatusBadge } from "@/app/ui/status-badge";
+import { STOPPING_WORD } from "@/app/ui/status-words";
 import { Provenance } from "./provenance";
 import { ReviewPanel } from "./review-panel";
 import { RunResults } from "./run-results";
@@ -18,10 +19,13 @@ export function RunLive({
   initial,
   initialStep,
   can,
+  paramDocs = {},
 }: {
   initial: RunView;
   initialStep?: string;
-  can: { rerun: boolean; cancel: boolean; review: boolean };
+  can: { rerun: boolean; cancel: boolean; review: boolean; auditExport?: boolean };
+  /** Settings documentation by step id (readable labels and units). */
+  paramDocs?: Record<string, Array<{ name: string; description: string }>>;
 }) {
   const client = useQueryClient();
   const { data } = useQuery(runQueries.detail(initial.id, initial));
@@ -31,6 +35,10 @@ export function RunLive({
   const [selected, setSelected] = useState<string | null>(initialStep ?? null);
   const step = run.steps.find((s) => s.label === (selected ?? defaultStep)) ?? null;
   const [cancelError, setCancelError] = useState<string | null>(null);
+  // Asked to stop: once no step is running any more the stop has happened, even while the
+  // run's process is still closing down and the run row says "running".
+  const stopping = live && run.cancelRequested;
+  const stopped = stopping && !run.steps.some((s) => s.status === "running");
 
   async function cancel() {
     try {
@@ -46,7 +54,7 @@ export function RunLive({
       <header className="flex flex-wrap items-start justify-between gap-4">
         <div>
           <p className="text-xs muted"><Link href="/runs" className="hover:underline">Runs</Link> /</p>
-          <h1 className="flex items-center gap-3">Run {run.id} <StatusBadge status={run.status} /></h1>
+          <h1 className="flex items-center gap-3">Run {run.id} {stopped ? <StatusBadge status="cancelled" /> : <StatusBadge status={run.status} stopping={stopping} />}</h1>
           <p className="text-ink-soft">
             {run.pipelineName} v{run.pipelineVersion} on {run.datasetName} · started by {run.startedBy} via the {DOOR_LABELS[run.door]} · {formatTime(run.startedAt ?? run.createdAt)} · {formatDuration(run.durationMs)}
           </p>
@@ -57,7 +65,7 @@ export function RunLive({
         </div>
         <div className="flex gap-2">
           {run.parentRunId ? <Link className="btn" href={`/compare?a=${run.parentRunId}&b=${run.id}`}>Compare with run {run.parentRunId}</Link> : null}
-          {can.cancel && live ? <button type="button" className="btn" onClick={cancel} disabled={run.cancelRequested}>{run.cancelRequested ? "Stopping…" : "Stop run"}</button> : null}
+          {can.cancel && live ? <button type="button" className="btn" onClick={cancel} disabled={run.cancelRequested}>{run.cancelRequested ? STOPPING_WORD : "Stop run"}</button> : null}
         </div>
       </header>
       {cancelError ? <p role="alert" className="text-sm text-bad">{cancelError}</p> : null}
@@ -68,11 +76,11 @@ export function RunLive({
           <StepTimeline steps={run.steps} selected={step?.label ?? null} onSelect={setSelected} />
         </aside>
         <div className="min-w-0">
-          {step ? <StepPanel run={run} step={step} canRerun={can.rerun} live={live} /> : <p className="muted">This run has no steps.</p>}
+          {step ? <StepPanel run={run} step={step} canRerun={can.rerun} live={live} docs={paramDocs[step.stepId] ?? []} /> : <p className="muted">This run has no steps.</p>}
         </div>
         <div className="space-y-4 lg:col-span-2 xl:col-span-1">
           <ReviewPanel run={run} canReview={can.review} />
-          <Provenance run={run} />
+          <Provenance run={run} canExportAudit={can.auditExport ?? false} />
         </div>
       </div>
 

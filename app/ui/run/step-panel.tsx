@@ -2,14 +2,31 @@
 
 import Link from "next/link";
 import type { RunView, StepView } from "@/app/lib/view-types";
-import { formatDuration, formatTime, formatValue, shortHash } from "@/app/ui/format";
+import { formatDuration, formatSettingValue, formatTime, readableName, shortHash, unitOfDescription } from "@/app/ui/format";
+import { formatOfSlot, stepDownloadHref } from "@/app/lib/downloads";
 import { StepSeriesChart } from "@/app/ui/charts/run-charts";
 import { StatusBadge } from "@/app/ui/status-badge";
 import { LogStream } from "./log-stream";
 
+const DOWNLOAD_WORDS = { segy: "SEG-Y", csv: "CSV", json: "JSON" } as const;
+
 /** One step of a run: its validated settings, inputs and outputs, summary, curves and log. */
-export function StepPanel({ run, step, canRerun, live }: { run: RunView; step: StepView; canRerun: boolean; live: boolean }) {
+export function StepPanel({
+  run,
+  step,
+  canRerun,
+  live,
+  docs = [],
+}: {
+  run: RunView;
+  step: StepView;
+  canRerun: boolean;
+  live: boolean;
+  /** The step type's settings documentation: `.describe()` text with the unit. */
+  docs?: Array<{ name: string; description: string }>;
+}) {
   const changed = run.overrides[step.label] ?? {};
+  const described = new Map(docs.map((d) => [d.name, d.description]));
   return (
     <section className="card space-y-5 p-4" aria-label={`Step ${step.label}`} data-testid="step-panel">
       <header className="flex flex-wrap items-start justify-between gap-3">
@@ -33,12 +50,20 @@ export function StepPanel({ run, step, canRerun, live }: { run: RunView; step: S
           <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Settings used</h3>
           <table className="w-full table-fixed text-sm" data-testid="step-params">
             <tbody>
-              {Object.entries(step.params).map(([k, v]) => (
-                <tr key={k} className={`border-t border-line ${k in changed ? "bg-warn-soft" : ""}`}>
-                  <td className="w-2/5 py-1 pr-3 align-top font-mono text-xs break-words">{k}</td>
-                  <td className="py-1 align-top font-mono text-xs break-all">{formatValue(v)}{k in changed ? <span className="ml-2 rounded bg-warn px-1 text-[10px] text-white">changed in this rerun</span> : null}</td>
-                </tr>
-              ))}
+              {Object.entries(step.params).map(([k, v]) => {
+                const name = readableName(k);
+                const description = described.get(k);
+                const unit = name.unit ?? unitOfDescription(description);
+                return (
+                  <tr key={k} className={`border-t border-line ${k in changed ? "bg-warn-soft" : ""}`}>
+                    <td className="w-1/2 py-1 pr-3 align-top text-xs" title={description}>
+                      <span className="text-ink">{name.words}</span>
+                      <span className="block font-mono text-[10px] text-ink-faint">{k}</span>
+                    </td>
+                    <td className="py-1 align-top text-xs tabular-nums break-words">{formatSettingValue(v, unit)}{k in changed ? <span className="ml-2 rounded bg-warn px-1 text-[10px] text-white">changed in this rerun</span> : null}</td>
+                  </tr>
+                );
+              })}
               {Object.keys(step.params).length === 0 ? <tr><td className="py-1 text-xs muted">No settings.</td></tr> : null}
             </tbody>
           </table>
@@ -51,7 +76,17 @@ export function StepPanel({ run, step, canRerun, live }: { run: RunView; step: S
                 <div key={`in-${slot}`} className="contents"><dt className="muted">in · {slot}</dt><dd className="font-mono" title={hash}>{shortHash(hash)}{step.inputSources?.[slot] ? <span className="muted"> from {step.inputSources[slot].from}{step.inputSources[slot].explicit ? " (named in the file)" : ""}</span> : null}</dd></div>
               ))}
               {Object.entries(step.outputs).map(([slot, hash]) => (
-                <div key={`out-${slot}`} className="contents"><dt className="muted">out · {slot}</dt><dd className="font-mono" title={hash}>{shortHash(hash)}</dd></div>
+                <div key={`out-${slot}`} className="contents">
+                  <dt className="muted">out · {slot}</dt>
+                  <dd>
+                    <span className="font-mono" title={hash}>{shortHash(hash)}</span>
+                    {step.status === "succeeded" ? (
+                      <a className="ml-2 text-accent hover:underline" href={stepDownloadHref(run.id, step.label, slot)} download data-testid={`download-${slot}`}>
+                        download {DOWNLOAD_WORDS[formatOfSlot(slot)]}
+                      </a>
+                    ) : null}
+                  </dd>
+                </div>
               ))}
               <dt className="muted">cache key</dt><dd className="font-mono" title={step.cacheKey ?? ""}>{shortHash(step.cacheKey)}</dd>
             </dl>
@@ -60,9 +95,15 @@ export function StepPanel({ run, step, canRerun, live }: { run: RunView; step: S
             <div>
               <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Summary</h3>
               <dl className="grid grid-cols-[auto_1fr] gap-x-3 gap-y-0.5 text-xs">
-                {Object.entries(step.summary).map(([k, v]) => (
-                  <div key={k} className="contents"><dt className="muted">{k}</dt><dd className="font-mono break-all">{formatValue(v)}</dd></div>
-                ))}
+                {Object.entries(step.summary).map(([k, v]) => {
+                  const name = readableName(k);
+                  return (
+                    <div key={k} className="contents">
+                      <dt className="muted" title={k}>{name.words}</dt>
+                      <dd className="tabular-nums break-words">{formatSettingValue(v, name.unit)}</dd>
+                    </div>
+                  );
+                })}
               </dl>
             </div>
           ) : null}
@@ -76,6 +117,12 @@ export function StepPanel({ run, step, canRerun, live }: { run: RunView; step: S
       <div>
         <h3 className="mb-1 text-xs font-semibold uppercase tracking-wide text-ink-soft">Log</h3>
         <LogStream key={step.id} runId={run.id} runStepId={step.id} live={live && (step.status === "running" || step.status === "waiting")} />
+        {step.cacheHit && step.cacheSourceRunId ? (
+          <p className="mt-1 text-xs muted">
+            The result was reused: its computation, with every warning, is logged in{" "}
+            <Link className="text-accent hover:underline" href={`/runs/${step.cacheSourceRunId}?step=${encodeURIComponent(step.label)}`}>run {step.cacheSourceRunId}</Link>.
+          </p>
+        ) : null}
       </div>
     </section>
   );

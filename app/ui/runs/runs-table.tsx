@@ -4,16 +4,16 @@ import Link from "next/link";
 import { useRouter } from "next/navigation";
 import { useQuery } from "@tanstack/react-query";
 import { runQueries } from "@/app/lib/queries";
-import { filterToQuery, type RunFilterParams } from "@/app/lib/run-filter";
+import { filterToQuery, REVIEW_STATES, REVIEW_WORDS, type RunFilterParams } from "@/app/lib/run-filter";
 import type { RunListPage } from "@/app/lib/view-types";
 import { DOOR_LABELS, formatDuration, formatTime } from "@/app/ui/format";
 import { StatusBadge } from "@/app/ui/status-badge";
+import { RUN_STATUS_CHOICES } from "@/app/ui/status-words";
 
 interface Options {
   surveys: Array<{ value: string; label: string }>;
   pipelines: string[];
   people: string[];
-  statuses: string[];
 }
 
 type SortKey = RunFilterParams["sort"];
@@ -37,6 +37,7 @@ export function RunsTable({ filter, query, initial, options }: { filter: RunFilt
   const { data } = useQuery(runQueries.list(query, initial));
   const page = data ?? initial;
   const pages = Math.max(1, Math.ceil(page.total / page.pageSize));
+  const beyond = page.page > pages;
 
   const go = (next: Partial<RunFilterParams>) => router.push(`/runs${filterToQuery({ ...filter, ...next })}`);
 
@@ -44,12 +45,13 @@ export function RunsTable({ filter, query, initial, options }: { filter: RunFilt
     event.preventDefault();
     const f = new FormData(event.currentTarget);
     const get = (k: string) => (String(f.get(k) ?? "") || undefined) as never;
-    go({ survey: get("survey"), pipeline: get("pipeline"), status: get("status"), person: get("person"), from: get("from"), to: get("to"), page: 1 });
+    go({ survey: get("survey"), pipeline: get("pipeline"), status: get("status"), review: get("review"), person: get("person"), from: get("from"), to: get("to"), page: 1 });
   }
 
   return (
     <div className="space-y-3">
-      <form onSubmit={onFilter} className="card grid grid-cols-2 gap-3 p-3 md:grid-cols-4 xl:grid-cols-7" aria-label="Filter runs">
+      {/* Keyed by the filter, so Clear (or any navigation) shows the fields the URL holds, not what was typed before. */}
+      <form key={query} onSubmit={onFilter} className="card grid grid-cols-2 gap-3 p-3 md:grid-cols-4 xl:grid-cols-8" aria-label="Filter runs">
         <label className="label">Survey
           <select name="survey" defaultValue={filter.survey ?? ""} className="field mt-1">
             <option value="">All</option>
@@ -63,13 +65,19 @@ export function RunsTable({ filter, query, initial, options }: { filter: RunFilt
           </select>
         </label>
         <label className="label">Status
-          <select name="status" defaultValue={filter.status ?? ""} className="field mt-1">
+          <select name="status" defaultValue={filter.status ?? ""} className="field mt-1" data-testid="filter-status">
             <option value="">All</option>
-            {options.statuses.map((s) => <option key={s} value={s}>{s}</option>)}
+            {RUN_STATUS_CHOICES.map((s) => <option key={s.value} value={s.value}>{s.label}</option>)}
+          </select>
+        </label>
+        <label className="label">Review
+          <select name="review" defaultValue={filter.review ?? ""} className="field mt-1" data-testid="filter-review">
+            <option value="">Any</option>
+            {REVIEW_STATES.map((r) => <option key={r} value={r}>{REVIEW_WORDS[r]}</option>)}
           </select>
         </label>
         <label className="label">Started by
-          <input name="person" list="people-list" defaultValue={filter.person ?? ""} className="field mt-1" placeholder="anyone" />
+          <input name="person" list="people-list" defaultValue={filter.person ?? ""} className="field mt-1" placeholder="anyone" data-testid="filter-person" />
           <datalist id="people-list">{options.people.map((p) => <option key={p} value={p} />)}</datalist>
         </label>
         <label className="label">From day
@@ -80,7 +88,7 @@ export function RunsTable({ filter, query, initial, options }: { filter: RunFilt
         </label>
         <div className="flex items-end gap-2">
           <button className="btn-primary" type="submit">Apply</button>
-          <button className="btn" type="button" onClick={() => router.push("/runs")}>Clear</button>
+          <button className="btn" type="button" onClick={() => router.push("/runs")} data-testid="filter-clear">Clear</button>
         </div>
       </form>
 
@@ -94,12 +102,13 @@ export function RunsTable({ filter, query, initial, options }: { filter: RunFilt
               <th className="px-3 py-2 font-medium">Survey · dataset</th>
               <th className="px-3 py-2 font-medium">Started by</th>
               <th className="px-3 py-2 font-medium">Steps</th>
+              <th className="px-3 py-2 font-medium">Review</th>
               <SortHeader k="duration" filter={filter} go={go}>Duration</SortHeader>
             </tr>
           </thead>
           <tbody>
             {page.rows.length === 0 ? (
-              <tr><td colSpan={7} className="px-3 py-10 text-center muted">No runs match this filter.</td></tr>
+              <tr><td colSpan={8} className="px-3 py-10 text-center muted">{beyond ? <>There is no page {page.page}: {page.total} run{page.total === 1 ? "" : "s"} make {pages} page{pages === 1 ? "" : "s"}. <button type="button" className="text-accent hover:underline" onClick={() => go({ page: pages })}>Go to page {pages}</button></> : "No runs match this filter."}</td></tr>
             ) : null}
             {page.rows.map((r) => (
               <tr key={r.id} className="border-t border-line hover:bg-ground/60" data-testid={`run-row-${r.id}`}>
@@ -118,6 +127,17 @@ export function RunsTable({ filter, query, initial, options }: { filter: RunFilt
                   {r.stepsDone}/{r.stepsTotal}
                   {r.cacheHits > 0 ? <span className="ml-1 text-xs muted">({r.cacheHits} reused)</span> : null}
                 </td>
+                <td className="px-3 py-2 text-xs" data-testid="review-state">
+                  {r.review ? (
+                    <span className={r.review.decision === "approved" ? "text-ok" : "text-warn"} title={`${formatTime(r.review.at)}`}>
+                      {REVIEW_WORDS[r.review.decision]}<span className="block muted">{r.review.reviewer}</span>
+                    </span>
+                  ) : r.status === "succeeded" ? (
+                    <span className="text-accent">{REVIEW_WORDS.awaiting}</span>
+                  ) : (
+                    <span className="muted">—</span>
+                  )}
+                </td>
                 <td className="px-3 py-2 tabular-nums">{formatDuration(r.durationMs)}</td>
               </tr>
             ))}
@@ -125,9 +145,9 @@ export function RunsTable({ filter, query, initial, options }: { filter: RunFilt
         </table>
       </div>
       <nav className="flex items-center justify-between text-sm" aria-label="Pages">
-        <span className="muted">{page.total} run{page.total === 1 ? "" : "s"} · page {page.page} of {pages}</span>
+        <span className="muted" data-testid="page-count">{page.total} run{page.total === 1 ? "" : "s"}{beyond ? "" : ` · page ${page.page} of ${pages}`}</span>
         <div className="flex gap-2">
-          <button className="btn" disabled={page.page <= 1} onClick={() => go({ page: page.page - 1 })}>Previous</button>
+          <button className="btn" disabled={page.page <= 1} onClick={() => go({ page: Math.min(page.page - 1, pages) })}>Previous</button>
           <button className="btn" disabled={page.page >= pages} onClick={() => go({ page: page.page + 1 })}>Next</button>
         </div>
       </nav>

@@ -109,11 +109,15 @@ export function peaks(g: GatherView): { perTrace: Float32Array; gather: number }
   return out;
 }
 
-// Diverging blue–white–orange look-up table, 256 entries, RGBA packed little-endian.
+/** End colours of the density image: negative amplitudes blue, positive red, zero white. */
+export const DENSITY_NEGATIVE_RGB = [31, 95, 139] as const;
+export const DENSITY_POSITIVE_RGB = [176, 58, 46] as const;
+
+// Diverging blue–white–red look-up table, 256 entries, RGBA packed little-endian.
 const LUT = (() => {
   const lut = new Uint32Array(256);
-  const neg = [31, 95, 139];
-  const pos = [176, 58, 46];
+  const neg = DENSITY_NEGATIVE_RGB;
+  const pos = DENSITY_POSITIVE_RGB;
   for (let i = 0; i < 256; i++) {
     const v = (i - 127.5) / 127.5;
     const a = Math.min(1, Math.abs(v));

@@ -6,7 +6,8 @@ import { drawGather, fullWindow, MARGIN, type DisplaySettings, type GatherView, 
 /**
  * One gather on a canvas. Wheel zooms time around the pointer (with Shift: offset), dragging
  * pans, double-click shows the whole gather. The view is controlled so panels can share it.
- * The last draw time (ms) is kept in the canvas's data-draw-ms attribute.
+ * The last draw time (ms) is kept in the canvas's data-draw-ms attribute and its tooltip.
+ * The wheel listener is registered as non-passive so zooming does not also scroll the page.
  */
 export function TraceCanvas({
   gather,
@@ -56,8 +57,8 @@ export function TraceCanvas({
     setDrawMs(ms);
   }, [width, height, gather, settings, view, overlays, second, title]);
 
-  function onWheel(e: React.WheelEvent<HTMLCanvasElement>) {
-    const rect = e.currentTarget.getBoundingClientRect();
+  function onWheel(e: WheelEvent) {
+    const rect = canvas.current!.getBoundingClientRect();
     const factor = e.deltaY > 0 ? 1.2 : 1 / 1.2;
     const full = fullWindow(gather, settings);
     if (e.shiftKey) {
@@ -74,6 +75,22 @@ export function TraceCanvas({
       onViewChange({ ...view, tMinS, tMaxS: tMinS + span });
     }
   }
+
+  // React registers wheel listeners as passive, where preventDefault is ignored: listen natively.
+  const wheelRef = useRef<(e: WheelEvent) => void>(() => undefined);
+  useEffect(() => {
+    wheelRef.current = onWheel;
+  });
+  useEffect(() => {
+    const c = canvas.current;
+    if (!c) return;
+    const listener = (e: WheelEvent) => {
+      e.preventDefault();
+      wheelRef.current(e);
+    };
+    c.addEventListener("wheel", listener, { passive: false });
+    return () => c.removeEventListener("wheel", listener);
+  }, []);
 
   function onPointerDown(e: React.PointerEvent<HTMLCanvasElement>) {
     e.currentTarget.setPointerCapture(e.pointerId);
@@ -104,17 +121,14 @@ export function TraceCanvas({
         ref={canvas}
         data-testid={testId}
         style={{ width: "100%", height, touchAction: "none", cursor: "grab" }}
-        onWheel={onWheel}
         onPointerDown={onPointerDown}
         onPointerMove={onPointerMove}
         onPointerUp={onPointerUp}
         onDoubleClick={() => onViewChange(fullWindow(gather, settings))}
         aria-label={title ? `Traces: ${title}` : "Traces"}
+        title={drawMs !== null ? `drawn in ${drawMs.toFixed(1)} ms` : undefined}
         role="img"
       />
-      {drawMs !== null ? (
-        <span className="pointer-events-none absolute bottom-2 right-3 rounded bg-white/80 px-1 text-[10px] text-ink-faint">drawn in {drawMs.toFixed(1)} ms</span>
-      ) : null}
     </div>
   );
 }

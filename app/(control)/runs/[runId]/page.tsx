@@ -3,7 +3,7 @@ import { notFound } from "next/navigation";
 import { idSchema } from "@/app/lib/api";
 import { pageUserWith } from "@/app/lib/page-user";
 import { can } from "@/app/lib/permissions";
-import { readRun } from "@/app/lib/reads";
+import { readParamDocs, readRun } from "@/app/lib/reads";
 import { RunLive } from "@/app/ui/run/run-live";
 
 export const dynamic = "force-dynamic";
@@ -23,7 +23,8 @@ export default async function RunPage({ params, searchParams }: { params: Promis
     <RunLive
       initial={run}
       initialStep={step}
-      can={{ rerun: can(user.role, "runs.rerun"), cancel: can(user.role, "runs.cancel"), review: can(user.role, "runs.review") }}
+      paramDocs={readParamDocs(run.steps.map((s) => s.stepId))}
+      can={{ rerun: can(user.role, "runs.rerun"), cancel: can(user.role, "runs.cancel"), review: can(user.role, "runs.review"), auditExport: can(user.role, "audit.read") }}
     />
   );
 }

@@ -1,0 +1,13 @@
+import type { Permission } from "@/app/lib/permissions";
+
+/** What each permission lets a person do, in plain words (People page). */
+export const PERMISSION_WORDS: Record<Permission, string> = {
+  "runs.read": "see runs, results and logs",
+  "runs.start": "start runs",
+  "runs.rerun": "rerun with changed settings",
+  "runs.cancel": "stop runs",
+  "pipelines.edit": "save pipeline versions",
+  "runs.review": "approve runs or send them back",
+  "audit.read": "read and export the audit trail",
+  "users.manage": "add people, change roles, deactivate accounts",
+};
