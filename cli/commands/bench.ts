@@ -3,7 +3,7 @@ import type { Command } from "commander";
 import { AppError } from "../../pipeline/errors";
 import { action, printJson } from "../shared";
 
-const PARTS = ["readers", "signal", "solver"] as const;
+const PARTS = ["readers", "signal", "solver", "inversion"] as const;
 type Part = (typeof PARTS)[number];
 
 function parseGrid(text: string): { nx: number; nz: number } {
@@ -21,7 +21,7 @@ function parseGrid(text: string): { nx: number; nz: number } {
 export function registerBench(program: Command): void {
   program
     .command("bench")
-    .description("measure and print speed figures: field-file readers, signal steps, finite-difference solver")
+    .description("measure and print speed figures: field-file readers, signal steps, finite-difference solver, waveform inversion")
     .option("--only <part>", `measure one part: ${PARTS.join(", ")}`)
     .option("--grid <nx>x<nz>", "solver grid in cells", "1000x400")
     .option("--steps <n>", "solver time steps per shot", "300")
@@ -80,6 +80,18 @@ export function registerBench(program: Command): void {
           out(
             `  memory: ${memory.peakMB.toFixed(0)} MB peak resident (${memory.baselineMB.toFixed(0)} MB before; the nine P-SV field arrays of one ${grid.nx}×${grid.nz} shot are ${memory.fieldsPerShotMB.toFixed(0)} MB)`,
           );
+        }
+        if (want("inversion")) {
+          const { benchInversion, formatInversionBench } = await import("../../pipeline/bench/inversion");
+          const { createWorkerPool } = await import("../../pipeline/workers/pool");
+          const pool = createWorkerPool();
+          try {
+            const r = await benchInversion(pool);
+            results.inversion = r;
+            for (const line of formatInversionBench(r)) out(line);
+          } finally {
+            await pool.close();
+          }
         }
         if (opts.json) printJson(results);
       }),
