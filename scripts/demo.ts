@@ -86,6 +86,10 @@ async function main() {
     if (r.exitCode !== 0) throw new Error(`the example pipeline ${file} failed (exit ${r.exitCode})`);
   }
 
+  // The demo alone knows the true ground: say how close the inverted model comes to it.
+  const assessed = await execa(process.execPath, ["--import", "tsx", path.join(example, "assess-inversion.ts")], { cwd: projectRoot, stdio: "inherit", reject: false });
+  if (assessed.exitCode !== 0) say("  (no inverted model to compare with the true ground)");
+
   // The team's everyday move: change one filter corner and rerun; upstream steps come from the cache.
   const db2 = getDb();
   describeSurvey(db2, "quillmoor", {
