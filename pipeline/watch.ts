@@ -1,9 +1,14 @@
 /**
  * Watched folders: a watcher looks after a root folder; every folder of field files below it
- * (the root itself or one level down) runs the pipeline once its files have stopped changing
- * for a quiet period. Half-copied files are never read (chokidar's write-finish detection), the
- * same content runs once (content hashes, remembered in SQLite across restarts), and ignored
- * or rejected files are recorded with the reason.
+ * (the root itself or one level down) runs the pipeline once it is complete:
+ *   - a marker file the crew drops (`READY` by default) is there, or
+ *   - every file the geometry table names (its `file` column) is there,
+ * each followed by a short settle time (`settleMs`), or else once nothing changed in it for the
+ * quiet period (`quietMs`, long enough for a slow USB copy). Half-copied files are never read
+ * (chokidar's write-finish detection), the same content runs once (content hashes, remembered in
+ * SQLite across restarts), and ignored or rejected files are recorded with the reason. When a
+ * folder that already ran changes (it was not complete after all), its earlier run is recorded
+ * as superseded by the new one.
  */
 import path from "node:path";
 import fs from "node:fs";
@@ -24,8 +29,12 @@ export interface WatchOptions {
   root: string;
   /** Pipeline file run on each field folder. */
   pipelinePath: string;
-  /** Quiet period after the last change before a folder runs, ms. @default 3000 */
+  /** Quiet period after the last change before an incomplete-looking folder runs, ms. @default 120000 */
   quietMs?: number;
+  /** Settle time once a folder is complete (marker present, or every file of its geometry table), ms. @default 3000 */
+  settleMs?: number;
+  /** Name of the marker file that says a folder is complete. @default "READY" */
+  readyMarker?: string;
   /** How long a file's size must hold still before it counts as written, ms. @default 1000 */
   writeFinishMs?: number;
   /** Use polling (network shares). @default false */
@@ -54,6 +63,22 @@ function folderRow(db: Db, folderPath: string, pipelinePath: string) {
   return row;
 }
 
+/** The file names in the `file` column of a geometry table, or null when it cannot be read. */
+function filesNamedByTable(table: string): string[] | null {
+  let text: string;
+  try {
+    text = fs.readFileSync(table, "utf8");
+  } catch {
+    return null;
+  }
+  const lines = text.split(/\r?\n/).filter((l) => l.trim() !== "" && !l.trimStart().startsWith("#"));
+  if (lines.length < 2) return null;
+  const header = lines[0].split(",").map((h) => h.trim().toLowerCase());
+  const col = header.indexOf("file");
+  if (col < 0) return null;
+  return [...new Set(lines.slice(1).map((l) => (l.split(",")[col] ?? "").trim()).filter((f) => f !== ""))];
+}
+
 /** Starts watching. Runs execute one at a time in this process. */
 export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
   const root = path.resolve(opts.root);
@@ -64,7 +89,13 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
   // A broken pipeline file is refused now, not once per folder later.
   loadPipelineFile(pipelinePath);
   const stopping = new AbortController();
-  const quietMs = opts.quietMs ?? 3000;
+  const quietMs = opts.quietMs ?? 120_000;
+  const settleMs = Math.min(opts.settleMs ?? 3000, quietMs);
+  const marker = opts.readyMarker ?? "READY";
+  const tableName = (() => {
+    const t = loadPipelineFile(pipelinePath).resolved.geometryTablePath;
+    return t ? { name: path.basename(t), path: t } : null;
+  })();
   const timers = new Map<string, NodeJS.Timeout>();
   const queue: string[] = [];
   let running: Promise<void> | null = null;
@@ -115,6 +146,10 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
       return;
     }
     note(folder, "run-started", `${scanned.files.length} files, content ${scanned.contentHash.slice(0, 12)}`, undefined, runId);
+    if (row.lastRunId !== null && row.lastRunId !== runId) {
+      // The folder changed after its last run: that run saw it incomplete (or outdated).
+      note(folder, "superseded", `run ${row.lastRunId} saw this folder before it changed; superseded by run ${runId}`, undefined, row.lastRunId);
+    }
     const outcome = await executeRun(db, runId, { pool: opts.pool, events: opts.runEvents, signal: stopping.signal });
     // Only a finished run counts as done: a failed or cancelled one is tried again when the
     // folder or the pipeline changes, or the watcher restarts.
@@ -142,15 +177,27 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
       });
   };
 
+  /** Complete: the marker is there, or every file the geometry table names is. */
+  const isComplete = (folder: string): boolean => {
+    if (fs.existsSync(path.join(folder, marker))) return true;
+    if (!tableName) return false;
+    const local = path.join(folder, tableName.name);
+    const named = filesNamedByTable(fs.existsSync(local) ? local : tableName.path);
+    return named !== null && named.length > 0 && named.every((f) => fs.existsSync(path.join(folder, f)));
+  };
+
   const schedule = (folder: string) => {
     clearTimeout(timers.get(folder));
     timers.set(
       folder,
-      setTimeout(() => {
-        timers.delete(folder);
-        if (!queue.includes(folder)) queue.push(folder);
-        pump();
-      }, quietMs),
+      setTimeout(
+        () => {
+          timers.delete(folder);
+          if (!queue.includes(folder)) queue.push(folder);
+          pump();
+        },
+        isComplete(folder) ? settleMs : quietMs,
+      ),
     );
   };
 
@@ -166,6 +213,10 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
   const onFile = (file: string) => {
     const name = path.basename(file);
     const folder = path.dirname(file);
+    if (name === marker) {
+      schedule(folder);
+      return;
+    }
     if (isIgnoredName(name)) {
       note(folder, "ignored", "hidden or partial file name", name);
       return;
