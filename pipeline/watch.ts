@@ -13,9 +13,8 @@
 import path from "node:path";
 import fs from "node:fs";
 import { watch, type FSWatcher } from "chokidar";
-import { eq } from "drizzle-orm";
 import type { Db } from "../db/client";
-import { watchEvents, watchedFolders } from "../db/schema";
+import { ensureWatchedFolder, findFolderWithKey, recordFolderRun, recordWatchEvent, type WatchEventName } from "../db/queries/watch";
 import { getRun } from "../db/queries/runs";
 import { isIgnoredName, scanFolder } from "./dataset-folder";
 import { toAppError } from "./errors";
@@ -57,12 +56,6 @@ export interface FolderWatcher {
   close(): Promise<void>;
 }
 
-function folderRow(db: Db, folderPath: string, pipelinePath: string) {
-  let row = db.select().from(watchedFolders).where(eq(watchedFolders.folderPath, folderPath)).get();
-  row ??= db.insert(watchedFolders).values({ folderPath, pipelinePath }).returning().get();
-  return row;
-}
-
 /** The file names in the `file` column of a geometry table, or null when it cannot be read. */
 function filesNamedByTable(table: string): string[] | null {
   let text: string;
@@ -102,9 +95,9 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
   let closed = false;
   const idleWaiters: Array<() => void> = [];
 
-  const note = (folder: string, event: (typeof watchEvents.$inferInsert)["event"], reason: string, file?: string, runId?: number) => {
-    const row = folderRow(db, folder, pipelinePath);
-    db.insert(watchEvents).values({ folderId: row.id, event, reason, file: file ?? null, runId: runId ?? null, at: new Date() }).run();
+  const note = (folder: string, event: WatchEventName, reason: string, file?: string, runId?: number) => {
+    const row = ensureWatchedFolder(db, folder, pipelinePath);
+    recordWatchEvent(db, { folderId: row.id, event, reason, file, runId });
     opts.onNotice?.({ folder, event, file, reason, runId });
   };
 
@@ -113,7 +106,7 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
   };
 
   const processFolder = async (folder: string) => {
-    const row = folderRow(db, folder, pipelinePath);
+    const row = ensureWatchedFolder(db, folder, pipelinePath);
     let scanned;
     try {
       scanned = scanFolder(folder);
@@ -129,7 +122,7 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
       // runs once per pipeline, and a changed pipeline runs again.
       const reg = registerPipelineAndDataset(db, { pipelinePath, fieldDataOverride: folder, actor: opts.actor });
       key = `${reg.dataset.contentHash}:${reg.pipelineVersionId}`;
-      const seen = db.select().from(watchedFolders).all().find((f) => f.lastContentHash === key);
+      const seen = findFolderWithKey(db, key);
       if (seen) {
         note(
           folder,
@@ -153,10 +146,7 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
     const outcome = await executeRun(db, runId, { pool: opts.pool, events: opts.runEvents, signal: stopping.signal });
     // Only a finished run counts as done: a failed or cancelled one is tried again when the
     // folder or the pipeline changes, or the watcher restarts.
-    db.update(watchedFolders)
-      .set({ lastContentHash: outcome.status === "succeeded" ? key : row.lastContentHash, lastRunId: runId, updatedAt: new Date() })
-      .where(eq(watchedFolders.id, row.id))
-      .run();
+    recordFolderRun(db, row.id, { lastContentHash: outcome.status === "succeeded" ? key : row.lastContentHash, lastRunId: runId });
     if (outcome.status !== "succeeded") note(folder, "rejected", `run ${runId} ${outcome.status}: ${outcome.error ?? ""}`, undefined, runId);
     for (const f of getRun(db, runId)?.rejectedFiles ?? []) note(folder, "rejected", f.reason, f.name, runId);
     opts.onRunFinished?.({ ...outcome, folder });
