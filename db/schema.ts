@@ -283,7 +283,7 @@ export const watchEvents = sqliteTable(
       .references(() => watchedFolders.id),
     at: integer("at", { mode: "timestamp_ms" }).notNull().default(now),
     file: text("file"),
-    event: text("event", { enum: ["accepted", "ignored", "rejected", "run-started", "run-skipped"] }).notNull(),
+    event: text("event", { enum: ["accepted", "ignored", "rejected", "run-started", "run-skipped", "superseded"] }).notNull(),
     reason: text("reason").notNull().default(""),
     runId: integer("run_id"),
   },

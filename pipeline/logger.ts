@@ -4,7 +4,7 @@
  */
 import pino, { type Logger } from "pino";
 import type { Db } from "../db/client";
-import { stepLogs } from "../db/schema";
+import { prepareLogInsert } from "../db/queries/logs";
 
 const LEVELS: Record<number, "debug" | "info" | "warn" | "error"> = {
   10: "debug",
@@ -24,10 +24,7 @@ export interface LogSinkOptions {
 
 /** A logger writing to step_logs for this run (and step, when given). */
 export function createRunLogger(db: Db, runId: number, runStepId: number | null, opts: LogSinkOptions = {}): Logger {
-  const insert = db.$client.prepare(
-    `insert into ${"step_logs"} (run_id, run_step_id, at, level, message, data_json) values (?, ?, ?, ?, ?, ?)`,
-  );
-  void stepLogs;
+  const insert = prepareLogInsert(db);
   const destination = {
     write(line: string) {
       let rec: Record<string, unknown>;
@@ -47,7 +44,7 @@ export function createRunLogger(db: Db, runId: number, runStepId: number | null,
       const message = String(msg ?? "");
       const data = Object.keys(rest).length ? JSON.stringify(rest) : null;
       try {
-        insert.run(runId, runStepId, time ?? Date.now(), lvl, message, data);
+        insert({ runId, runStepId, at: time ?? Date.now(), level: lvl, message, dataJson: data });
       } catch {
         // A log line must never break a run (e.g. the database is briefly locked past the timeout).
       }

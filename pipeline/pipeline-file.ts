@@ -38,7 +38,8 @@ export const pipelineFileSchema = z
     profile: z.string().min(1).optional(),
     fieldData: z.string().min(1).optional(),
     geometryTable: z.string().min(1).optional(),
-    onBadFile: z.enum(["stop", "skip"]).default("stop"),
+    /** Applies to every import-records step that does not set it; its default is that step's. */
+    onBadFile: z.enum(["stop", "skip"]).optional(),
     steps: z.array(stepEntrySchema).min(1, "at least one step"),
   })
   .strict();
@@ -198,7 +199,7 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
         settings[key] = readFromFile(ref as string, baseDir, (message, expected) => fail(at, message, expected));
       }
     }
-    if (entry.step === "import-records" && settings.onBadFile === undefined) settings.onBadFile = file.onBadFile;
+    if (entry.step === "import-records" && settings.onBadFile === undefined && file.onBadFile) settings.onBadFile = file.onBadFile;
     const unknown = findUnknownSetting(step, Object.keys(entry.settings ?? {}));
     if (unknown) {
       fail(
@@ -239,7 +240,8 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
     profile: file.profile ?? null,
     fieldDataPath: file.fieldData ? path.resolve(baseDir, file.fieldData) : null,
     geometryTablePath: file.geometryTable ? path.resolve(baseDir, file.geometryTable) : null,
-    onBadFile: file.onBadFile,
+    // Recorded as before (the definition's hash names the pipeline version); the default is the import step's.
+    onBadFile: file.onBadFile ?? (getStep("import-records").params.parse({}) as { onBadFile: "stop" | "skip" }).onBadFile,
     steps,
   };
 }

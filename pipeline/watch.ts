@@ -1,16 +1,20 @@
 /**
  * Watched folders: a watcher looks after a root folder; every folder of field files below it
- * (the root itself or one level down) runs the pipeline once its files have stopped changing
- * for a quiet period. Half-copied files are never read (chokidar's write-finish detection), the
- * same content runs once (content hashes, remembered in SQLite across restarts), and ignored
- * or rejected files are recorded with the reason.
+ * (the root itself or one level down) runs the pipeline once it is complete:
+ *   - a marker file the crew drops (`READY` by default) is there, or
+ *   - every file the geometry table names (its `file` column) is there,
+ * each followed by a short settle time (`settleMs`), or else once nothing changed in it for the
+ * quiet period (`quietMs`, long enough for a slow USB copy). Half-copied files are never read
+ * (chokidar's write-finish detection), the same content runs once (content hashes, remembered in
+ * SQLite across restarts), and ignored or rejected files are recorded with the reason. When a
+ * folder that already ran changes (it was not complete after all), its earlier run is recorded
+ * as superseded by the new one.
  */
 import path from "node:path";
 import fs from "node:fs";
 import { watch, type FSWatcher } from "chokidar";
-import { eq } from "drizzle-orm";
 import type { Db } from "../db/client";
-import { watchEvents, watchedFolders } from "../db/schema";
+import { ensureWatchedFolder, findFolderWithKey, recordFolderRun, recordWatchEvent, type WatchEventName } from "../db/queries/watch";
 import { getRun } from "../db/queries/runs";
 import { isIgnoredName, scanFolder } from "./dataset-folder";
 import { toAppError } from "./errors";
@@ -24,8 +28,12 @@ export interface WatchOptions {
   root: string;
   /** Pipeline file run on each field folder. */
   pipelinePath: string;
-  /** Quiet period after the last change before a folder runs, ms. @default 3000 */
+  /** Quiet period after the last change before an incomplete-looking folder runs, ms. @default 120000 */
   quietMs?: number;
+  /** Settle time once a folder is complete (marker present, or every file of its geometry table), ms. @default 3000 */
+  settleMs?: number;
+  /** Name of the marker file that says a folder is complete. @default "READY" */
+  readyMarker?: string;
   /** How long a file's size must hold still before it counts as written, ms. @default 1000 */
   writeFinishMs?: number;
   /** Use polling (network shares). @default false */
@@ -48,10 +56,20 @@ export interface FolderWatcher {
   close(): Promise<void>;
 }
 
-function folderRow(db: Db, folderPath: string, pipelinePath: string) {
-  let row = db.select().from(watchedFolders).where(eq(watchedFolders.folderPath, folderPath)).get();
-  row ??= db.insert(watchedFolders).values({ folderPath, pipelinePath }).returning().get();
-  return row;
+/** The file names in the `file` column of a geometry table, or null when it cannot be read. */
+function filesNamedByTable(table: string): string[] | null {
+  let text: string;
+  try {
+    text = fs.readFileSync(table, "utf8");
+  } catch {
+    return null;
+  }
+  const lines = text.split(/\r?\n/).filter((l) => l.trim() !== "" && !l.trimStart().startsWith("#"));
+  if (lines.length < 2) return null;
+  const header = lines[0].split(",").map((h) => h.trim().toLowerCase());
+  const col = header.indexOf("file");
+  if (col < 0) return null;
+  return [...new Set(lines.slice(1).map((l) => (l.split(",")[col] ?? "").trim()).filter((f) => f !== ""))];
 }
 
 /** Starts watching. Runs execute one at a time in this process. */
@@ -64,16 +82,22 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
   // A broken pipeline file is refused now, not once per folder later.
   loadPipelineFile(pipelinePath);
   const stopping = new AbortController();
-  const quietMs = opts.quietMs ?? 3000;
+  const quietMs = opts.quietMs ?? 120_000;
+  const settleMs = Math.min(opts.settleMs ?? 3000, quietMs);
+  const marker = opts.readyMarker ?? "READY";
+  const tableName = (() => {
+    const t = loadPipelineFile(pipelinePath).resolved.geometryTablePath;
+    return t ? { name: path.basename(t), path: t } : null;
+  })();
   const timers = new Map<string, NodeJS.Timeout>();
   const queue: string[] = [];
   let running: Promise<void> | null = null;
   let closed = false;
   const idleWaiters: Array<() => void> = [];
 
-  const note = (folder: string, event: (typeof watchEvents.$inferInsert)["event"], reason: string, file?: string, runId?: number) => {
-    const row = folderRow(db, folder, pipelinePath);
-    db.insert(watchEvents).values({ folderId: row.id, event, reason, file: file ?? null, runId: runId ?? null, at: new Date() }).run();
+  const note = (folder: string, event: WatchEventName, reason: string, file?: string, runId?: number) => {
+    const row = ensureWatchedFolder(db, folder, pipelinePath);
+    recordWatchEvent(db, { folderId: row.id, event, reason, file, runId });
     opts.onNotice?.({ folder, event, file, reason, runId });
   };
 
@@ -82,7 +106,7 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
   };
 
   const processFolder = async (folder: string) => {
-    const row = folderRow(db, folder, pipelinePath);
+    const row = ensureWatchedFolder(db, folder, pipelinePath);
     let scanned;
     try {
       scanned = scanFolder(folder);
@@ -98,7 +122,7 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
       // runs once per pipeline, and a changed pipeline runs again.
       const reg = registerPipelineAndDataset(db, { pipelinePath, fieldDataOverride: folder, actor: opts.actor });
       key = `${reg.dataset.contentHash}:${reg.pipelineVersionId}`;
-      const seen = db.select().from(watchedFolders).all().find((f) => f.lastContentHash === key);
+      const seen = findFolderWithKey(db, key);
       if (seen) {
         note(
           folder,
@@ -115,13 +139,14 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
       return;
     }
     note(folder, "run-started", `${scanned.files.length} files, content ${scanned.contentHash.slice(0, 12)}`, undefined, runId);
+    if (row.lastRunId !== null && row.lastRunId !== runId) {
+      // The folder changed after its last run: that run saw it incomplete (or outdated).
+      note(folder, "superseded", `run ${row.lastRunId} saw this folder before it changed; superseded by run ${runId}`, undefined, row.lastRunId);
+    }
     const outcome = await executeRun(db, runId, { pool: opts.pool, events: opts.runEvents, signal: stopping.signal });
     // Only a finished run counts as done: a failed or cancelled one is tried again when the
     // folder or the pipeline changes, or the watcher restarts.
-    db.update(watchedFolders)
-      .set({ lastContentHash: outcome.status === "succeeded" ? key : row.lastContentHash, lastRunId: runId, updatedAt: new Date() })
-      .where(eq(watchedFolders.id, row.id))
-      .run();
+    recordFolderRun(db, row.id, { lastContentHash: outcome.status === "succeeded" ? key : row.lastContentHash, lastRunId: runId });
     if (outcome.status !== "succeeded") note(folder, "rejected", `run ${runId} ${outcome.status}: ${outcome.error ?? ""}`, undefined, runId);
     for (const f of getRun(db, runId)?.rejectedFiles ?? []) note(folder, "rejected", f.reason, f.name, runId);
     opts.onRunFinished?.({ ...outcome, folder });
@@ -142,15 +167,27 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
       });
   };
 
+  /** Complete: the marker is there, or every file the geometry table names is. */
+  const isComplete = (folder: string): boolean => {
+    if (fs.existsSync(path.join(folder, marker))) return true;
+    if (!tableName) return false;
+    const local = path.join(folder, tableName.name);
+    const named = filesNamedByTable(fs.existsSync(local) ? local : tableName.path);
+    return named !== null && named.length > 0 && named.every((f) => fs.existsSync(path.join(folder, f)));
+  };
+
   const schedule = (folder: string) => {
     clearTimeout(timers.get(folder));
     timers.set(
       folder,
-      setTimeout(() => {
-        timers.delete(folder);
-        if (!queue.includes(folder)) queue.push(folder);
-        pump();
-      }, quietMs),
+      setTimeout(
+        () => {
+          timers.delete(folder);
+          if (!queue.includes(folder)) queue.push(folder);
+          pump();
+        },
+        isComplete(folder) ? settleMs : quietMs,
+      ),
     );
   };
 
@@ -166,6 +203,10 @@ export function watchFieldFolders(db: Db, opts: WatchOptions): FolderWatcher {
   const onFile = (file: string) => {
     const name = path.basename(file);
     const folder = path.dirname(file);
+    if (name === marker) {
+      schedule(folder);
+      return;
+    }
     if (isIgnoredName(name)) {
       note(folder, "ignored", "hidden or partial file name", name);
       return;

@@ -9,18 +9,25 @@ import { AppError } from "../../pipeline/errors";
 export function registerWatch(program: Command): void {
   program
     .command("watch")
-    .description("watch a folder; each folder of field files copied in (or the folder itself) runs the pipeline once its files stop changing")
+    .description(
+      "watch a folder; each folder of field files copied in (or the folder itself) runs the pipeline once it is complete: a READY marker, every file its geometry table names, or a long quiet period",
+    )
     .argument("<folder>", "root folder the crew copies field folders into")
     .requiredOption("--pipeline <file>", "pipeline file to run on each field folder")
-    .option("--quiet-seconds <s>", "wait this long after the last change before running", "3")
+    .option("--quiet-seconds <s>", "run a folder that does not look complete after this long without changes (slow copies need minutes)", "120")
+    .option("--settle-seconds <s>", "run a complete folder (marker present, or every file of its geometry table) after this long without changes", "3")
+    .option("--ready-marker <name>", "file name the crew drops into a folder when its copy is complete", "READY")
     .option("--polling", "poll the file system (for network shares)")
     .option("--as <email>", "record runs as started by this user (default: watcher)")
     .action(
-      action(async (folder: string, opts: { pipeline: string; quietSeconds: string; polling?: boolean; as?: string }) => {
-        const quiet = Number(opts.quietSeconds);
-        if (!Number.isFinite(quiet) || quiet < 0) {
-          throw new AppError("bad-input", `--quiet-seconds: expected a number of seconds >= 0, got "${opts.quietSeconds}"`, { field: "--quiet-seconds" });
-        }
+      action(async (folder: string, opts: { pipeline: string; quietSeconds: string; settleSeconds: string; readyMarker: string; polling?: boolean; as?: string }) => {
+        const seconds = (value: string, option: string) => {
+          const n = Number(value);
+          if (!Number.isFinite(n) || n < 0) throw new AppError("bad-input", `${option}: expected a number of seconds >= 0, got "${value}"`, { field: option });
+          return n;
+        };
+        const quiet = seconds(opts.quietSeconds, "--quiet-seconds");
+        const settle = seconds(opts.settleSeconds, "--settle-seconds");
         const db = openCliDb();
         const actor = opts.as ? resolveActor(db, opts.as, "watcher") : { userId: null, label: "watcher", door: "watcher" as const };
         const progress = terminalProgress({ interactive: Boolean(process.stderr.isTTY), verbose: false });
@@ -28,6 +35,8 @@ export function registerWatch(program: Command): void {
           root: folder,
           pipelinePath: opts.pipeline,
           quietMs: quiet * 1000,
+          settleMs: settle * 1000,
+          readyMarker: opts.readyMarker,
           usePolling: opts.polling,
           actor,
           pool: sharedWorkerPool(),

@@ -11,6 +11,7 @@ import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { closeDb, getDb, type Db } from "../../../db/client";
 import { getRun } from "../../../db/queries/runs";
 import { stepCacheKey } from "../../../pipeline/cache";
+import { parsePipelineText } from "../../../pipeline/pipeline-file";
 import { createRun, executeRun } from "../../../pipeline/runner";
 import { registerEngineTestSteps } from "../../helpers/engine-steps";
 
@@ -61,5 +62,14 @@ steps:
     expect(stepCacheKey({ id: "test-make-traces", version: 1 }, { traces: 4, samples: 16, value: 1 }, {})).toBe(
       "0718eb7d6c6f0d305a32fd49721395314434e7c827809a7ae7e09f9bb6ca1901",
     );
+  });
+
+  it("a file without onBadFile resolves as before (stop, from the import step's default), so its version hash is unchanged", () => {
+    const text = "name: bad-file-default\nsurvey: test-site\nfieldData: ./f\nsteps:\n  - step: import-records\n";
+    const resolved = parsePipelineText(text, "p.yaml", tmp);
+    expect(resolved.onBadFile).toBe("stop");
+    expect(resolved.steps[0].params.onBadFile).toBe("stop");
+    const skip = parsePipelineText(text.replace("steps:", "onBadFile: skip\nsteps:"), "p.yaml", tmp);
+    expect([skip.onBadFile, skip.steps[0].params.onBadFile]).toEqual(["skip", "skip"]);
   });
 });

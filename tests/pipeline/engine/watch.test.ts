@@ -41,12 +41,13 @@ afterAll(() => {
 });
 
 /** A test's own incoming folder and pipeline file (pipeline `watch-<name>`). */
-function setUp(name: string) {
+function setUp(name: string, extra: { geometryTable?: string; quietMs?: number; settleMs?: number } = {}) {
   const root = path.join(tmp, name, "incoming");
   fs.mkdirSync(root, { recursive: true });
   const pipelinePath = path.join(tmp, name, "watch.yaml");
+  if (extra.geometryTable) fs.writeFileSync(path.join(tmp, name, "geometry.csv"), extra.geometryTable);
   const pipelineText = (description = "") =>
-    `name: watch-${name}\n${description ? `description: ${description}\n` : ""}survey: test-site\nfieldData: ./incoming\nsteps:\n  - step: test-list-files\n`;
+    `name: watch-${name}\n${description ? `description: ${description}\n` : ""}survey: test-site\nfieldData: ./incoming\n${extra.geometryTable ? "geometryTable: ./geometry.csv\n" : ""}steps:\n  - step: test-list-files\n`;
   fs.writeFileSync(pipelinePath, pipelineText());
   const folderIds = () =>
     new Set(
@@ -71,7 +72,8 @@ function setUp(name: string) {
         .all()
         .filter((e) => ids.has(e.folderId) && e.event === event);
     },
-    startWatcher: (): FolderWatcher => watchFieldFolders(db, { root, pipelinePath, quietMs: 300, writeFinishMs: 300, actor }),
+    startWatcher: (): FolderWatcher =>
+      watchFieldFolders(db, { root, pipelinePath, quietMs: extra.quietMs ?? 300, settleMs: extra.settleMs, writeFinishMs: 300, actor }),
   };
 }
 
@@ -164,5 +166,61 @@ describe("watched folders", () => {
 
     fs.writeFileSync(t.pipelinePath, `name: watch-changed\nsurvey: test-site\nsteps:\n  - step: no-such-step\n`);
     expect(() => t.startWatcher()).toThrow(/watch\.yaml line 4, steps\[0\]\.step: unknown step "no-such-step"/);
+  });
+
+  it("a slow copy runs once, when every file its geometry table names is there, never on a partial folder", async () => {
+    const table = "file,source_point,blow,source_x_m,first_channel_x_m,channel_spacing_m,channel_count\n" +
+      ["shot-1.dat", "shot-2.dat", "shot-3.dat"].map((f, i) => `${f},${i + 1},1,${i},0,1,4`).join("\n") + "\n";
+    // The quiet period is far longer than the test: only completeness can start the run.
+    const t = setUp("slow-copy", { geometryTable: table, quietMs: 600_000, settleMs: 300 });
+    const watcher = t.startWatcher();
+    await watcher.ready;
+    const folder = path.join(t.root, "day-1");
+    fs.mkdirSync(folder);
+    for (const f of ["shot-1.dat", "shot-2.dat"]) {
+      fs.writeFileSync(path.join(folder, f), Buffer.alloc(400, 1));
+      // Wait until the watcher has seen the file (a watch event would need a run; the write-finish
+      // detection takes writeFinishMs), then longer than the settle time: no run may start.
+      await new Promise((r) => setTimeout(r, 1200));
+      expect(t.runsSoFar()).toHaveLength(0);
+    }
+    fs.writeFileSync(path.join(folder, "shot-3.dat"), Buffer.alloc(400, 1));
+    await until(() => t.runsSoFar().some((r) => r.status === "succeeded"));
+    await watcher.idle();
+    await watcher.close();
+    const runs = t.runsSoFar();
+    expect(runs).toHaveLength(1);
+    const report = readArtifactSync(getRun(db, runs[0].id)!.steps[0].outputs.report) as { data: Array<{ name: string }> };
+    expect(report.data.map((f) => f.name).filter((n) => n.endsWith(".dat"))).toEqual(["shot-1.dat", "shot-2.dat", "shot-3.dat"]);
+  });
+
+  it("a folder with a READY marker runs without waiting for the quiet period", async () => {
+    const t = setUp("marker", { quietMs: 600_000, settleMs: 300 });
+    const watcher = t.startWatcher();
+    await watcher.ready;
+    const folder = path.join(t.root, "day-1");
+    fs.mkdirSync(folder);
+    fs.writeFileSync(path.join(folder, "shot-1.dat"), Buffer.alloc(400, 1));
+    fs.writeFileSync(path.join(folder, "READY"), "");
+    await until(() => t.runsSoFar().some((r) => r.status === "succeeded"));
+    await watcher.idle();
+    await watcher.close();
+    expect(t.runsSoFar()).toHaveLength(1);
+  });
+
+  it("a run of a folder that then changes is recorded as superseded by the new run", async () => {
+    const t = setUp("supersede");
+    const watcher = t.startWatcher();
+    await watcher.ready;
+    const folder = await firstRun(t, watcher);
+    const [first] = t.runsSoFar();
+    fs.writeFileSync(path.join(folder, "shot-3.dat"), Buffer.alloc(300, 1));
+    await until(() => t.events("superseded").length === 1 && t.runsSoFar().every((r) => r.status === "succeeded"));
+    await watcher.idle();
+    await watcher.close();
+    const [second] = t.runsSoFar();
+    const [event] = t.events("superseded");
+    expect(event.runId).toBe(first.id);
+    expect(event.reason).toBe(`run ${first.id} saw this folder before it changed; superseded by run ${second.id}`);
   });
 });
