@@ -3,7 +3,7 @@
  * and the page alike, so both read the same names.
  */
 import { z } from "zod";
-import { RUN_STATUSES } from "@/db/schema";
+import { RUN_STATUSES } from "@/db/vocabulary";
 
 export const REVIEW_STATES = ["awaiting", "approved", "returned"] as const;
 export type ReviewState = (typeof REVIEW_STATES)[number];

@@ -58,3 +58,20 @@ describe("where the sign-in page sends people", () => {
     }
   });
 });
+
+describe("next-auth's callbackUrl query parameter", () => {
+  it("is replaced by a same-site URL before next-auth sees it (a malformed one gave its configuration error page)", async () => {
+    const { NextRequest } = await import("next/server");
+    const { withSafeCallbackUrl } = await import("@/app/api/auth/[...nextauth]/route");
+    const base = "http://127.0.0.1:3000";
+    for (const cb of ["%E0%A4%A", "https://evil.example/x", "/\\evil.example"]) {
+      const out = withSafeCallbackUrl(new NextRequest(`${base}/api/auth/signin?callbackUrl=${encodeURIComponent(cb)}`));
+      const kept = new URL(out.url).searchParams.get("callbackUrl")!;
+      // next-auth accepts a callbackUrl that is absolute or starts with "/" (else its error page).
+      expect(kept.startsWith("/") && !kept.startsWith("//"), `${cb} -> ${kept}`).toBe(true);
+      expect(new URL(kept, base).origin, cb).toBe(base);
+    }
+    const same = new NextRequest(`${base}/api/auth/signin?callbackUrl=${encodeURIComponent("/runs/2")}`);
+    expect(new URL(withSafeCallbackUrl(same).url).searchParams.get("callbackUrl")).toBe("/runs/2");
+  });
+});
