@@ -7,6 +7,7 @@ import { zodResolver } from "@hookform/resolvers/zod";
 import { z } from "zod";
 import { ApiError, postJson } from "@/app/lib/queries";
 import type { ParamDoc } from "@/pipeline/registry";
+import { ObjectListField } from "./object-list-field";
 
 interface StepForm {
   label: string;
@@ -150,7 +151,7 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
               const unit = unitOf(d.name);
               const err = errorOf(s.label, d.name);
               return (
-                <div key={d.name}>
+                <div key={d.name} className={d.items ? "md:col-span-2" : undefined}>
                   <label htmlFor={id} className="label">
                     <span className="font-mono text-ink">{d.name}</span>{unit ? <span className="ml-1 muted">({unit})</span> : null}
                   </label>
@@ -162,6 +163,8 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
                     </select>
                   ) : d.type === "number" || d.type === "integer" ? (
                     <input id={id} type="number" step="any" className="field mt-1" placeholder={s.params[d.name] === null ? "not set" : undefined} aria-invalid={Boolean(err)} {...register(name, { valueAsNumber: true })} />
+                  ) : d.items ? (
+                    <ObjectListField id={id} name={name} docs={d.items} value={String(form.watch(name as never) ?? "[]")} onChange={(t) => form.setValue(name as never, t as never, { shouldDirty: true, shouldValidate: true })} noun={d.name === "stages" ? "stage" : "item"} />
                   ) : isJsonKind(d) ? (
                     <textarea id={id} className="field mt-1 h-16 font-mono text-xs" {...register(name)} />
                   ) : (

@@ -6,6 +6,7 @@ import { useQuery, useQueryClient } from "@tanstack/react-query";
 import { ApiError, postJson, runQueries } from "@/app/lib/queries";
 import type { RunView } from "@/app/lib/view-types";
 import { DOOR_LABELS, formatDuration, formatTime } from "@/app/ui/format";
+import { InversionViews } from "@/app/ui/inversion/inversion-view";
 import { StatusBadge } from "@/app/ui/status-badge";
 import { Provenance } from "./provenance";
 import { ReviewPanel } from "./review-panel";
@@ -75,6 +76,8 @@ export function RunLive({
           <Provenance run={run} />
         </div>
       </div>
+
+      <InversionViews run={run} live={live} />
 
       <RunResults run={run} />
     </div>
