@@ -1,6 +1,7 @@
 "use client";
 
-import { useEffect, useState } from "react";
+import { useState } from "react";
+import { useController, type Control } from "react-hook-form";
 import type { ParamDoc } from "@/pipeline/registry";
 import { fieldProblem, fieldValue, labelOfName, moveItem, newItem, removeItem, unitOfName, type Item } from "./object-list";
 
@@ -8,9 +9,12 @@ import { fieldProblem, fieldValue, labelOfName, moveItem, newItem, removeItem, u
 function TextBox({ id, value, numeric, placeholder, invalid, onText }: { id: string; value: unknown; numeric: boolean; placeholder: string; invalid: boolean; onText: (t: string) => void }) {
   const shown = value === undefined ? "" : String(value);
   const [text, setText] = useState(shown);
-  useEffect(() => {
-    setText((t) => (numeric ? (t.trim() !== "" && Number(t) === value ? t : shown) : shown));
-  }, [shown, value, numeric]);
+  const [seen, setSeen] = useState(shown);
+  if (seen !== shown) {
+    // The value changed from outside (reorder, add, remove): show it, unless the text typed reads as it.
+    setSeen(shown);
+    if (!(numeric && text.trim() !== "" && Number(text) === value)) setText(shown);
+  }
   return (
     <input
       id={id}
@@ -40,25 +44,25 @@ function parse(text: string): Item[] {
 /**
  * A setting that is a list of objects (e.g. the inversion's frequency stages) as a list of
  * small forms: each field with its label, unit and limits; add, remove and reorder items.
- * The form holds the list as JSON text (`value`), so submitting works as for other settings.
+ * The form holds the list as JSON text, so submitting works as for other settings.
  */
 export function ObjectListField({
   id,
   name,
   docs,
-  value,
-  onChange,
+  control,
   noun = "item",
 }: {
   id: string;
+  /** The field's name in the form (it holds the list as JSON text). */
   name: string;
   docs: ParamDoc[];
-  value: string;
-  onChange: (text: string) => void;
+  control: Control<never>;
   noun?: string;
 }) {
-  const list = parse(value);
-  const set = (next: Item[]) => onChange(JSON.stringify(next));
+  const { field } = useController({ control, name: name as never });
+  const list = parse(String(field.value ?? "[]"));
+  const set = (next: Item[]) => field.onChange(JSON.stringify(next));
   const setField = (i: number, doc: ParamDoc, raw: string | boolean) => {
     const next = list.map((it) => ({ ...it }));
     const v = fieldValue(doc, raw);

@@ -164,7 +164,7 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
                   ) : d.type === "number" || d.type === "integer" ? (
                     <input id={id} type="number" step="any" className="field mt-1" placeholder={s.params[d.name] === null ? "not set" : undefined} aria-invalid={Boolean(err)} {...register(name, { valueAsNumber: true })} />
                   ) : d.items ? (
-                    <ObjectListField id={id} name={name} docs={d.items} value={String(form.watch(name as never) ?? "[]")} onChange={(t) => form.setValue(name as never, t as never, { shouldDirty: true, shouldValidate: true })} noun={d.name === "stages" ? "stage" : "item"} />
+                    <ObjectListField id={id} name={name} docs={d.items} control={form.control as never} noun={d.name === "stages" ? "stage" : "item"} />
                   ) : isJsonKind(d) ? (
                     <textarea id={id} className="field mt-1 h-16 font-mono text-xs" {...register(name)} />
                   ) : (
