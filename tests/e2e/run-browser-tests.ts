@@ -5,7 +5,8 @@
  * and prints what it measured (page load, trace panel draw time).
  *
  * Options: --keep (leave the temp folder), --data DIR (reuse a prepared data folder),
- * --screenshots (write docs/screenshots/*.png at 1440 and 1024 px and measurements.json).
+ * --screenshots (write docs/screenshots/*.png at 1440 and 1024 px and measurements.json),
+ * --only TEXT (run only the tests whose name contains TEXT; the others are listed as skipped).
  */
 import fs from "node:fs";
 import os from "node:os";
@@ -19,6 +20,7 @@ const argv = process.argv.slice(2);
 const keep = argv.includes("--keep");
 const reuse = argv.includes("--data") ? argv[argv.indexOf("--data") + 1] : undefined;
 const screenshots = argv.includes("--screenshots");
+const only = argv.includes("--only") ? argv[argv.indexOf("--only") + 1] : undefined;
 const shotsDir = path.join(projectRoot, "docs", "screenshots");
 
 const account = (role: string) => {
@@ -79,6 +81,10 @@ function check(condition: unknown, message: string): asserts condition {
 
 async function test(name: string, fn: () => Promise<void>) {
   const t0 = Date.now();
+  if (only && !name.includes(only)) {
+    outcomes.push({ name, status: "skip", ms: 0, note: `not selected by --only` });
+    return;
+  }
   try {
     await fn();
     outcomes.push({ name, status: "pass", ms: Date.now() - t0 });
@@ -253,6 +259,7 @@ async function main() {
     });
 
     await test("inversion view: misfit by stage, iteration slider, cautions, stages editable in the rerun form", async () => {
+      await signIn(page, origin, account("processor").email, account("processor").password);
       const runs = await apiRuns(page, origin);
       let found: { runId: number; label: string } | null = null;
       for (const r of runs.rows) {

@@ -62,7 +62,7 @@ export function MisfitChart({ points, currentIteration }: { points: SeriesPoint[
                 formatter={(v) => Number(v).toPrecision(4)}
                 labelFormatter={(x) => `iteration ${x}`}
               />
-              <Legend wrapperStyle={{ fontSize: 10 }} />
+              <Legend verticalAlign="top" wrapperStyle={{ fontSize: 10, paddingBottom: 4 }} />
               {stages.map((s, i) =>
                 s.jump ? (
                   <ReferenceLine
@@ -102,7 +102,7 @@ export function MisfitChart({ points, currentIteration }: { points: SeriesPoint[
                 />
               ))}
               {currentIteration !== null && currentIteration !== undefined ? (
-                <ReferenceLine x={currentIteration} stroke="#1c2326" strokeWidth={1} label={{ value: "shown", position: "insideBottomLeft", fontSize: 10 }} />
+                <ReferenceLine x={currentIteration} stroke="#1c2326" strokeWidth={1} strokeOpacity={0.5} />
               ) : null}
             </LineChart>
           </ResponsiveContainer>

@@ -153,9 +153,12 @@ export function ModelIterations({
         <p className="w-full text-sm font-medium" data-testid="iteration-shown" aria-live="polite">{caption}</p>
       </div>
 
+      <div className="lg:hidden">
+        <InversionCautions />
+      </div>
       {model.error ? <p role="alert" className="text-sm text-bad">{model.error.message}</p> : null}
       {grid && values && limits ? (
-        <div className="grid gap-4 xl:grid-cols-[1fr_280px]">
+        <div className="grid gap-4 lg:grid-cols-[1fr_260px]">
           <div className="space-y-4">
             <figure>
               <figcaption className="mb-1 text-xs font-medium text-ink-soft">
@@ -193,12 +196,12 @@ export function ModelIterations({
             <figure className="card p-3" data-testid="iteration-profile">
               <figcaption className="text-xs font-medium text-ink-soft">Depth profile at {profile ? profile.x.toFixed(1) : "–"} m, {showing} (click a section to move it)</figcaption>
               {profile ? (
-                <div className="h-80">
+                <div className="h-72">
                   <ResponsiveContainer width="100%" height="100%">
                     <LineChart data={profile.rows} layout="vertical" margin={{ top: 8, right: 10, bottom: 22, left: 4 }}>
                       <CartesianGrid stroke="#eef0ed" />
                       <XAxis type="number" domain={["auto", "auto"]} tick={{ fontSize: 10 }} label={{ value: `${p.short} (${p.unit})`, position: "insideBottom", offset: -12, fontSize: 10 }} />
-                      <YAxis type="number" dataKey="depth" reversed domain={["dataMin", "dataMax"]} tick={{ fontSize: 10 }} width={40} label={{ value: "Depth (m)", angle: -90, position: "insideLeft", fontSize: 10 }} />
+                      <YAxis type="number" dataKey="depth" domain={["dataMin", "dataMax"]} tick={{ fontSize: 10 }} width={40} label={{ value: "Depth (m)", angle: -90, position: "insideLeft", fontSize: 10 }} />
                       <Tooltip formatter={(v) => `${Math.round(Number(v))} ${p.unit}`} labelFormatter={(d) => `${d} m deep`} />
                       <Legend wrapperStyle={{ fontSize: 10 }} verticalAlign="top" />
                       <Line dataKey="start" name="starting model" stroke="#8a9397" strokeDasharray="4 3" dot={false} isAnimationActive={false} />
@@ -217,7 +220,9 @@ export function ModelIterations({
                 {frame.meta.wallS !== undefined ? <><dt className="muted">wall time</dt><dd className="font-mono">{frame.meta.wallS.toFixed(1)} s</dd></> : null}
               </dl>
             ) : null}
-            <InversionCautions />
+            <div className="hidden lg:block">
+              <InversionCautions />
+            </div>
           </div>
         </div>
       ) : (
