@@ -276,8 +276,8 @@ async function main() {
       if (!found) throw new Skip("no inversion run with a recorded iteration in the data folder (npm run demo makes one)");
       await goto(page, `${origin}/runs/${found.runId}?step=${encodeURIComponent(found.label)}`, "run page with inversion");
       await page.waitForSelector("[data-testid=inversion-view]");
-      await page.waitForSelector("[data-testid=misfit-chart] .recharts-line");
-      check((await page.locator("[data-testid=misfit-chart] .recharts-line").count()) >= 1, "no misfit curve");
+      await page.waitForSelector("[data-testid=misfit-chart] .recharts-line-curve", { state: "attached" });
+      check((await page.locator("[data-testid=misfit-chart] .recharts-line-curve").count()) >= 1, "no misfit curve");
       await page.waitForSelector("[data-testid=iteration-model-canvas]");
       check(await page.locator("[data-testid=inversion-cautions]").count(), "cautions missing beside the inverted model");
       check(/one model of many/i.test((await page.textContent("[data-testid=inversion-cautions]")) ?? ""), "cautions not worded for an inverted model");
