@@ -27,6 +27,7 @@ function Wiggles({
   scale,
   title,
   testId,
+  shownSamples,
 }: {
   first: Float32Array;
   second?: Float32Array;
@@ -37,6 +38,8 @@ function Wiggles({
   scale: number;
   title: string;
   testId: string;
+  /** Samples drawn from the trace start (default all). */
+  shownSamples?: number;
 }) {
   const wrap = useRef<HTMLDivElement>(null);
   const canvas = useRef<HTMLCanvasElement>(null);
@@ -63,15 +66,16 @@ function Wiggles({
     const ph = height - M.top - M.bottom;
     const spacing = pw / Math.max(1, traceCount);
     const amp = scale > 0 ? (0.9 * spacing) / scale : 0;
-    const yOf = (k: number) => M.top + (k / Math.max(1, sampleCount - 1)) * ph;
+    const shown = Math.max(2, Math.min(sampleCount, shownSamples ?? sampleCount));
+    const yOf = (k: number) => M.top + (k / Math.max(1, shown - 1)) * ph;
     const draw = (data: Float32Array, colour: string, lw: number) => {
       ctx.strokeStyle = colour;
       ctx.lineWidth = lw;
       for (let t = 0; t < traceCount; t++) {
         const x0 = M.left + (t + 0.5) * spacing;
         ctx.beginPath();
-        const stride = Math.max(1, Math.floor(sampleCount / ph / 2));
-        for (let k = 0; k < sampleCount; k += stride) {
+        const stride = Math.max(1, Math.floor(shown / ph / 2));
+        for (let k = 0; k < shown; k += stride) {
           const x = x0 + data[t * sampleCount + k] * amp;
           if (k === 0) ctx.moveTo(x, yOf(k));
           else ctx.lineTo(x, yOf(k));
@@ -88,7 +92,7 @@ function Wiggles({
     ctx.font = "11px system-ui, sans-serif";
     ctx.textAlign = "right";
     ctx.textBaseline = "middle";
-    const totalMs = (sampleCount - 1) * dtS * 1000;
+    const totalMs = (shown - 1) * dtS * 1000;
     const stepMs = totalMs > 400 ? 100 : totalMs > 150 ? 50 : totalMs > 60 ? 20 : 10;
     for (let ms = Math.ceil((t0S * 1000) / stepMs) * stepMs; ms <= t0S * 1000 + totalMs + 1e-6; ms += stepMs) {
       const k = (ms / 1000 - t0S) / dtS;
@@ -104,7 +108,7 @@ function Wiggles({
     ctx.textAlign = "left";
     ctx.textBaseline = "top";
     ctx.fillText(title, M.left, 4);
-  }, [first, second, traceCount, sampleCount, dtS, t0S, scale, title, width]);
+  }, [first, second, traceCount, sampleCount, shownSamples, dtS, t0S, scale, title, width]);
   return (
     <div ref={wrap} className="w-full">
       <canvas ref={canvas} style={{ width: "100%", height }} role="img" aria-label={title} data-testid={testId} />
@@ -149,7 +153,8 @@ export function StageTraces({ items, stages }: { items: IntermediateItem[]; stag
     const compared = h.offsetsM.map((o, t) => !h.dead[t] && Math.abs(o) >= (settings?.minOffsetM ?? 0) && Math.abs(o) <= (settings?.maxOffsetM ?? Infinity));
     const m = measuredTraces(measure, obs.data.payload, syn.data.payload, h.traceCount, h.sampleCount, first, end, compared);
     const comparedCount = compared.filter(Boolean).length;
-    return { kind: "ok" as const, h, m, first, end, comparedCount };
+    const shownSamples = Math.min(h.sampleCount, end + Math.ceil(0.1 * (end - first)));
+    return { kind: "ok" as const, h, m, first, end, comparedCount, shownSamples };
   }, [obs.data, syn.data, settings, measure]);
 
   if (available.length === 0) {
@@ -195,13 +200,13 @@ export function StageTraces({ items, stages }: { items: IntermediateItem[]; stag
         <div className="grid gap-4 lg:grid-cols-2">
           {view === "measured" ? (
             <>
-              <Wiggles first={shown.m.observed} second={shown.m.synthetic} traceCount={shown.h.traceCount} sampleCount={shown.h.sampleCount} dtS={shown.h.sampleIntervalS} t0S={shown.h.startTimeS} scale={peakAbs(shown.m.observed, shown.m.synthetic)} title={`Shot ${shot}: observed (grey) and synthetic (orange)${measure.includes("normalised") ? ", unit-norm traces" : ""}`} testId="stage-overlay" />
-              <Wiggles first={shown.m.residual} traceCount={shown.h.traceCount} sampleCount={shown.h.sampleCount} dtS={shown.h.sampleIntervalS} t0S={shown.h.startTimeS} scale={peakAbs(shown.m.observed, shown.m.synthetic)} title="Residual (synthetic − observed), same scale" testId="stage-residual" />
+              <Wiggles first={shown.m.observed} second={shown.m.synthetic} traceCount={shown.h.traceCount} sampleCount={shown.h.sampleCount} dtS={shown.h.sampleIntervalS} t0S={shown.h.startTimeS} shownSamples={shown.shownSamples} scale={peakAbs(shown.m.observed, shown.m.synthetic)} title={`Shot ${shot}: observed (grey) and synthetic (orange)${measure.includes("normalised") ? ", unit-norm traces" : ""}`} testId="stage-overlay" />
+              <Wiggles first={shown.m.residual} traceCount={shown.h.traceCount} sampleCount={shown.h.sampleCount} dtS={shown.h.sampleIntervalS} t0S={shown.h.startTimeS} shownSamples={shown.shownSamples} scale={peakAbs(shown.m.observed, shown.m.synthetic)} title="Residual (synthetic − observed), same scale" testId="stage-residual" />
             </>
           ) : (
             <>
-              <Wiggles first={obs.data!.payload} second={syn.data!.payload} traceCount={shown.h.traceCount} sampleCount={shown.h.sampleCount} dtS={shown.h.sampleIntervalS} t0S={shown.h.startTimeS} scale={peakAbs(obs.data!.payload, syn.data!.payload)} title={`Shot ${shot}: observed (grey) and synthetic (orange), low-passed, true amplitude`} testId="stage-overlay" />
-              <Wiggles first={shown.m.residual} traceCount={shown.h.traceCount} sampleCount={shown.h.sampleCount} dtS={shown.h.sampleIntervalS} t0S={shown.h.startTimeS} scale={peakAbs(shown.m.observed, shown.m.synthetic)} title="Residual as the measure sees it" testId="stage-residual" />
+              <Wiggles first={obs.data!.payload} second={syn.data!.payload} traceCount={shown.h.traceCount} sampleCount={shown.h.sampleCount} dtS={shown.h.sampleIntervalS} t0S={shown.h.startTimeS} shownSamples={shown.shownSamples} scale={peakAbs(obs.data!.payload, syn.data!.payload)} title={`Shot ${shot}: observed (grey) and synthetic (orange), low-passed, true amplitude`} testId="stage-overlay" />
+              <Wiggles first={shown.m.residual} traceCount={shown.h.traceCount} sampleCount={shown.h.sampleCount} dtS={shown.h.sampleIntervalS} t0S={shown.h.startTimeS} shownSamples={shown.shownSamples} scale={peakAbs(shown.m.observed, shown.m.synthetic)} title="Residual as the measure sees it" testId="stage-residual" />
             </>
           )}
         </div>
