@@ -80,6 +80,8 @@ export interface ParamDoc {
   minimum?: number;
   maximum?: number;
   optional: boolean;
+  /** For an array of objects (e.g. the inversion's stages): the documentation of each item's fields. */
+  items?: ParamDoc[];
 }
 
 type JsonSchema = {
@@ -97,6 +99,7 @@ type JsonSchema = {
   anyOf?: JsonSchema[];
   oneOf?: JsonSchema[];
   allOf?: JsonSchema[];
+  items?: JsonSchema;
 };
 
 /** JSON Schema of a step's parameters (input side: defaults make fields optional). */
@@ -119,7 +122,11 @@ function kindOf(s: JsonSchema): ParamDoc["type"] {
 
 /** Describes each parameter of a step: type, default, unit-bearing description, choices, limits. */
 export function describeParams(step: StepDefinition): ParamDoc[] {
-  const schema = paramsJsonSchema(step);
+  return describeProperties(paramsJsonSchema(step));
+}
+
+/** Documentation of the properties of an object schema (recursing into arrays of objects). */
+function describeProperties(schema: JsonSchema): ParamDoc[] {
   const props = schema.properties ?? {};
   const required = new Set(schema.required ?? []);
   return Object.entries(props).map(([name, p]) => {
@@ -131,15 +138,18 @@ export function describeParams(step: StepDefinition): ParamDoc[] {
         : undefined;
     const min = p.minimum ?? p.exclusiveMinimum;
     const max = p.maximum ?? p.exclusiveMaximum;
+    const type = kindOf(p);
+    const items = type === "array" && p.items?.properties ? describeProperties(p.items) : undefined;
     return {
       name,
-      type: kindOf(p),
+      type,
       default: p.default,
       description: p.description ?? "",
       ...(choices ? { choices } : {}),
       ...(min !== undefined ? { minimum: min } : {}),
       ...(max !== undefined ? { maximum: max } : {}),
       optional: !required.has(name) || p.default !== undefined,
+      ...(items ? { items } : {}),
     };
   });
 }

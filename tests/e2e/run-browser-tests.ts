@@ -5,7 +5,8 @@
  * and prints what it measured (page load, trace panel draw time).
  *
  * Options: --keep (leave the temp folder), --data DIR (reuse a prepared data folder),
- * --screenshots (write docs/screenshots/*.png at 1440 and 1024 px and measurements.json).
+ * --screenshots (write docs/screenshots/*.png at 1440 and 1024 px and measurements.json),
+ * --only TEXT (run only the tests whose name contains TEXT; the others are listed as skipped).
  */
 import fs from "node:fs";
 import os from "node:os";
@@ -19,6 +20,7 @@ const argv = process.argv.slice(2);
 const keep = argv.includes("--keep");
 const reuse = argv.includes("--data") ? argv[argv.indexOf("--data") + 1] : undefined;
 const screenshots = argv.includes("--screenshots");
+const only = argv.includes("--only") ? argv[argv.indexOf("--only") + 1] : undefined;
 const shotsDir = path.join(projectRoot, "docs", "screenshots");
 
 const account = (role: string) => {
@@ -79,6 +81,10 @@ function check(condition: unknown, message: string): asserts condition {
 
 async function test(name: string, fn: () => Promise<void>) {
   const t0 = Date.now();
+  if (only && !name.includes(only)) {
+    outcomes.push({ name, status: "skip", ms: 0, note: `not selected by --only` });
+    return;
+  }
   try {
     await fn();
     outcomes.push({ name, status: "pass", ms: Date.now() - t0 });
@@ -339,6 +345,59 @@ async function main() {
         }
         await page.setViewportSize({ width: 1440, height: 900 });
       }
+    });
+
+    await test("inversion view: misfit by stage, iteration slider, cautions, stages editable in the rerun form", async () => {
+      await signIn(page, origin, account("processor").email, account("processor").password);
+      const runs = await apiRuns(page, origin);
+      let found: { runId: number; label: string } | null = null;
+      for (const r of runs.rows) {
+        const detail = await apiRun(page, origin, r.id);
+        const inv = detail.steps.find((s) => s.stepId === "waveform-inversion");
+        if (!inv) continue;
+        const res = await page.request.get(`${origin}/api/runs/${r.id}/steps/${encodeURIComponent(inv.label)}/intermediates`);
+        const body = (await res.json()) as { intermediates: Array<{ kind: string }> };
+        if (body.intermediates.some((i) => i.kind === "model")) {
+          found = { runId: r.id, label: inv.label };
+          break;
+        }
+      }
+      if (!found) throw new Skip("no inversion run with a recorded iteration in the data folder (npm run demo makes one)");
+      await goto(page, `${origin}/runs/${found.runId}?step=${encodeURIComponent(found.label)}`, "run page with inversion");
+      await page.waitForSelector("[data-testid=inversion-view]");
+      await page.waitForSelector("[data-testid=misfit-chart] .recharts-line-curve", { state: "attached" });
+      check((await page.locator("[data-testid=misfit-chart] .recharts-line-curve").count()) >= 1, "no misfit curve");
+      await page.waitForSelector("[data-testid=iteration-model-canvas]");
+      check(await page.locator("[data-testid=inversion-cautions]").count(), "cautions missing beside the inverted model");
+      check(/one model of many/i.test((await page.textContent("[data-testid=inversion-cautions]")) ?? ""), "cautions not worded for an inverted model");
+      const slider = page.locator("[data-testid=iteration-slider]");
+      const max = Number(await slider.getAttribute("max"));
+      check(max >= 1, "the slider has only the starting model");
+      const last = (await page.textContent("[data-testid=iteration-shown]")) ?? "";
+      check(/stage \d+/.test(last), `the shown iteration does not name its stage: ${last}`);
+      await slider.fill("0");
+      await page.waitForFunction((before) => (document.querySelector("[data-testid=iteration-shown]")?.textContent ?? "") !== before, last);
+      check(/starting model/.test((await page.textContent("[data-testid=iteration-shown]")) ?? ""), "iteration 0 is not the starting model");
+      await slider.fill(String(max));
+      await page.waitForFunction(() => /stage \d+/.test(document.querySelector("[data-testid=iteration-shown]")?.textContent ?? ""));
+      if (screenshots) {
+        for (const width of [1440, 1024]) {
+          await page.setViewportSize({ width, height: 900 });
+          await page.waitForTimeout(600);
+          await page.locator("[data-testid=inversion-view]").screenshot({ path: path.join(shotsDir, `inversion-${width}.png`) });
+        }
+        await page.setViewportSize({ width: 1440, height: 900 });
+      }
+      // The rerun form edits the stages as a list, not as JSON text.
+      await goto(page, `${origin}/runs/${found.runId}/rerun?from=${encodeURIComponent(found.label)}`);
+      const list = page.locator(`[data-testid="list-${found.label}.stages"]`);
+      await list.waitFor();
+      const before = await list.locator("li").count();
+      await page.click(`[data-testid="list-add-${found.label}.stages"]`);
+      check((await list.locator("li").count()) === before + 1, "adding a stage did not add one");
+      check((await list.locator("label", { hasText: "low pass" }).first().textContent())?.includes("Hz"), "stage fields lack their unit");
+      await list.locator("li").last().getByRole("button", { name: /Remove/ }).click();
+      check((await list.locator("li").count()) === before, "removing a stage did not remove it");
     });
 
     let rerunId = 0;

@@ -6,6 +6,7 @@ import { useQuery, useQueryClient } from "@tanstack/react-query";
 import { ApiError, postJson, runQueries } from "@/app/lib/queries";
 import type { RunView } from "@/app/lib/view-types";
 import { DOOR_LABELS, formatDuration, formatTime } from "@/app/ui/format";
+import { InversionViews } from "@/app/ui/inversion/inversion-view";
 import { StatusBadge } from "@/app/ui/status-badge";
 import { STOPPING_WORD } from "@/app/ui/status-words";
 import { Provenance } from "./provenance";
@@ -83,6 +84,8 @@ export function RunLive({
           <Provenance run={run} canExportAudit={can.auditExport ?? false} />
         </div>
       </div>
+
+      <InversionViews run={run} live={live} />
 
       <RunResults run={run} />
     </div>
