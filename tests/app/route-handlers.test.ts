@@ -139,6 +139,10 @@ describe("sign-in and roles", () => {
     expect(events).toHaveLength(1);
     expect(events[0].actorLabel).toBe(users.lead.name);
     expect(events[0].door).toBe("web");
+    // The same decision again is refused, not recorded twice (issue: duplicate approvals).
+    const again = await reviewsRoute.POST(post(`/api/runs/${runId}/reviews`, { decision: "approved", comment: "fine" }), params({ runId: String(runId) }));
+    expect(again.status).toBe(409);
+    expect(listAudit(getDb(), { action: "review.approve", entityId: String(runId) })).toHaveLength(1);
   });
 
   it("needs a comment to send a run back", async () => {

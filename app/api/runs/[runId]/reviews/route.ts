@@ -2,7 +2,8 @@ import { NextResponse } from "next/server";
 import { z } from "zod";
 import { getDb, writeTransaction } from "@/db/client";
 import { recordAudit } from "@/db/queries/audit";
-import { addReview, listReviews } from "@/db/queries/reviews";
+import { listReviews } from "@/db/queries/reviews";
+import { addReviewOnce } from "@/db/queries/review-decisions";
 import { answer, answerChange, parseId, parseOr400 } from "@/app/lib/api";
 import { requirePermission, webActor } from "@/app/lib/session";
 
@@ -23,7 +24,10 @@ const reviewSchema = z.object({
   comment: z.string().max(4000).default(""),
 });
 
-/** POST /api/runs/:runId/reviews: approve or send back (lead, admin); recorded in the audit trail. */
+/**
+ * POST /api/runs/:runId/reviews: approve or send back (lead, admin); recorded in the audit trail.
+ * A decision that repeats the latest one is refused (409), as the control room's action does.
+ */
 export async function POST(req: Request, ctx: { params: Promise<{ runId: string }> }) {
   return answerChange(req, async (json) => {
     const user = await requirePermission("runs.review");
@@ -31,7 +35,7 @@ export async function POST(req: Request, ctx: { params: Promise<{ runId: string 
     const body = parseOr400(reviewSchema, json, "body");
     const db = getDb();
     const review = writeTransaction(db, (tx) => {
-      const r = addReview(tx, { runId, reviewerUserId: user.id, decision: body.decision, comment: body.comment });
+      const r = addReviewOnce(tx, { runId, reviewerUserId: user.id, decision: body.decision, comment: body.comment });
       recordAudit(tx, {
         actor: webActor(user),
         action: body.decision === "approved" ? "review.approve" : "review.return",
