@@ -14,6 +14,7 @@ import { FdSetupError } from "../kernels/fd/errors";
 import { buildModel, countShapeCells, modelFromCsv, paintShapes, shapeBounds, type GridDescription, type ShapeDescription } from "../kernels/fd/model-grid";
 import { AppError } from "../errors";
 import { profilesToModel } from "../kernels/dispersion/profile-section";
+import { blendTomogram } from "../kernels/traveltime/blend";
 
 const velocity = (what: string) => z.number().describe(`${what}, m/s`);
 const density = z.number().describe("Density, kg/m³");
@@ -96,6 +97,16 @@ export const buildModelParams = z
       .optional()
       .describe(
         'Background of the grid (default "layers"): "layers" the typed layers; "velocity-profiles" the 1D Vs profiles of surface-wave-profile interpolated along the line, each continued below its depth of investigation from its value there; "velocity-profiles-over-layers" the profiles down to their depth of investigation and the typed layers below. Shapes are drawn on top in every case',
+      ),
+    /**
+     * Blend the first-arrival tomogram over the background down to the depth its rays reach.
+     * Optional so that earlier pipelines keep their cache keys. @default false
+     */
+    tomogramAbove: z
+      .boolean()
+      .optional()
+      .describe(
+        "Take Vp (or Vs, for an SH tomogram) from the first-arrival tomogram down to the depth its rays reach in each column, fading over the last metre; Vp is then kept at least 1.5 Vs (default false)",
       ),
   })
   .superRefine((p, ctx) => {
@@ -201,7 +212,7 @@ export const buildModelStep = defineStep({
   description:
     "Builds an elastic model grid (Vp, Vs, density on a regular grid with origin and spacing) from layers with vertical gradients and shapes (rectangle, ellipse, polygon) with their own properties, or from an inline CSV grid (x, z, vp, vs, rho), or from the surface-wave 1D profiles along the line (optionally over the layers below their depth of investigation). Refuses cells with Vs ≤ 0, Vp/Vs ≤ √2 or density ≤ 0, naming the cell.",
   reads: [],
-  optionalReads: ["gathers", "velocityProfiles"],
+  optionalReads: ["gathers", "velocityProfiles", "tomogram"],
   writes: ["model"],
   params: buildModelParams,
   async run(input, p, ctx) {
@@ -220,6 +231,19 @@ export const buildModelStep = defineStep({
       model = buildModel(grid, p.layers, []);
       if (p.from === "velocity-profiles" || p.from === "velocity-profiles-over-layers") {
         model = modelFromProfiles(input.velocityProfiles, grid, p.from === "velocity-profiles-over-layers" ? model : undefined);
+      }
+    }
+    let tomogramCells = 0;
+    if (p.tomogramAbove) {
+      if (!input.tomogram) throw new StepInputError("tomogramAbove needs the tomogram of a first-arrival-tomography step earlier in the pipeline.", "tomogramAbove");
+      const blended = blendTomogram(model, input.tomogram);
+      const target = input.tomogram.wave === "p" ? model.vp : model.vs;
+      target.set(blended.velocity);
+      for (let k = 0; k < target.length; k++) if (blended.weight[k] > 0) tomogramCells++;
+      // A smeared tomogram can come out slower than the shear model allows: keep λ > 0 with a
+      // margin (Vp/Vs ≥ 1.5, Poisson's ratio 0.1).
+      for (let k = 0; k < model.vp.length; k++) {
+        if (model.vp[k] < 1.5 * model.vs[k]) model.vp[k] = 1.5 * model.vs[k];
       }
     }
     const shapes = p.shapes as ShapeDescription[];
@@ -250,6 +274,7 @@ export const buildModelStep = defineStep({
         nx: model.nx, nz: model.nz, spacingM: model.spacingM, originX: model.originX, originZ: model.originZ,
         vpMax, vsMin, vsMax, shapes: shapes.length,
         ...(p.from ? { from: p.from } : {}),
+        ...(p.tomogramAbove ? { tomogramCells } : {}),
       },
     };
   },

@@ -134,3 +134,49 @@ describe("build-model run", () => {
     await expect(buildModelStep.run({}, p, makeStepContext())).rejects.toThrow(/fromSpread needs gathers/);
   });
 });
+
+describe("build-model with a first-arrival tomogram", () => {
+  // A tomogram whose rays reach 2 m everywhere: Vp 300 m/s there. The blend takes the tomogram
+  // down to the reach depth less the 1 m fade, the layers below the reach depth (common practice:
+  // trust a tomogram only where its rays go).
+  const nx = 11;
+  const nz = 9;
+  const tomogram = {
+    kind: "tomogram" as const,
+    wave: "p" as const,
+    nx,
+    nz,
+    spacingM: 0.5,
+    originX: 0,
+    originZ: 0,
+    velocity: new Float32Array(nx * nz).fill(300),
+    startingVelocity: new Float32Array(nx * nz).fill(400),
+    coverageM: new Float32Array(nx * nz).fill(1),
+    rayCount: new Int32Array(nx * nz).fill(1),
+    coverageThresholdM: 1,
+    reachDepthM: new Float32Array(nx).fill(2),
+    rayPoints: new Float32Array(0),
+    rayStart: new Int32Array(0),
+    picks: [],
+    iterations: [],
+  };
+  const settings = (tomogramAbove?: boolean) =>
+    parse({ grid: { originXM: 0, widthM: 5, depthM: 4, spacingM: 0.5 }, layers: [{ topM: 0, vp: 500, vs: 150, rho: 1800 }], ...(tomogramAbove === undefined ? {} : { tomogramAbove }) });
+
+  it("takes Vp from the tomogram above its reach, the layers below, and keeps Vp ≥ 1.5 Vs", async () => {
+    const res = await buildModelStep.run({ tomogram }, settings(true), makeStepContext());
+    const m = res.outputs.model!;
+    const at = (z: number) => m.vp[Math.round(z / 0.5) * m.nx + 4];
+    expect(at(0)).toBeCloseTo(300, 3);
+    expect(at(1)).toBeCloseTo(300, 3);
+    expect(at(1.5)).toBeCloseTo(400, 3); // half way through the 1 m fade
+    expect(at(3)).toBe(500);
+    for (let k = 0; k < m.vp.length; k++) expect(m.vp[k]).toBeGreaterThanOrEqual(1.5 * m.vs[k] - 1e-3);
+  });
+
+  it("leaves the model alone without the setting, and refuses the setting without a tomogram", async () => {
+    const res = await buildModelStep.run({ tomogram }, settings(), makeStepContext());
+    expect(Array.from(res.outputs.model!.vp).every((v) => v === 500)).toBe(true);
+    await expect(buildModelStep.run({}, settings(true), makeStepContext())).rejects.toThrow(/tomogramAbove needs the tomogram/);
+  });
+});
