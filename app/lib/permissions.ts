@@ -80,7 +80,11 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "GET /api/runs/[runId]/reviews": "runs.read",
   "POST /api/runs/[runId]/reviews": "runs.review",
   "GET /api/runs/[runId]/steps/[stepLabel]": "runs.read",
+  "GET /api/runs/[runId]/steps/[stepLabel]/download": "runs.read",
+  "GET /api/runs/[runId]/steps/[stepLabel]/intermediates": "runs.read",
+  "GET /api/runs/[runId]/audit-export": "audit.read",
   "GET /api/artifacts/[hash]": "runs.read",
+  "GET /api/artifacts/[hash]/field": "runs.read",
   "GET /api/artifacts/[hash]/lines": "runs.read",
   "GET /api/artifacts/[hash]/model": "runs.read",
   "GET /api/artifacts/[hash]/positions": "runs.read",
@@ -98,6 +102,7 @@ export const ACTION_REQUIREMENTS: Record<string, Requirement> = {
   changeRole: "users.manage",
   changeActive: "users.manage",
   changeOwnPassword: "signed-in",
+  decideRun: "runs.review",
 };
 
 /** True when `role` (null: nobody signed in) meets `requirement`. */

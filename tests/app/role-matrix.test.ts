@@ -38,6 +38,7 @@ const root = path.resolve(__dirname, "../..");
 const ORIGIN = "http://127.0.0.1:3000";
 let tmp: string;
 const users = {} as Record<Role, { id: number; role: Role; name: string; email: string }>;
+let reviewCount = 0;
 const fx = { runId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0 };
 
 /** Route files on disk, as the keys of ROUTE_REQUIREMENTS ("METHOD /api/..."). */
@@ -70,8 +71,13 @@ const CASES: Record<string, Case> = {
   "GET /api/runs/[runId]/logs": () => ({ url: `/api/runs/${fx.runId}/logs`, params: { runId: String(fx.runId) } }),
   "POST /api/runs/[runId]/rerun": () => ({ url: `/api/runs/${fx.runId}/rerun`, body: { fromLabel: "scale", overrides: { scale: { factor: 2 } } }, params: { runId: String(fx.runId) } }),
   "GET /api/runs/[runId]/reviews": () => ({ url: `/api/runs/${fx.runId}/reviews`, params: { runId: String(fx.runId) } }),
-  "POST /api/runs/[runId]/reviews": () => ({ url: `/api/runs/${fx.runId}/reviews`, body: { decision: "returned", comment: "check sp03" }, params: { runId: String(fx.runId) } }),
+  // A distinct comment each time: repeating the latest decision word for word is refused (409).
+  "POST /api/runs/[runId]/reviews": () => ({ url: `/api/runs/${fx.runId}/reviews`, body: { decision: "returned", comment: `check sp03 (${++reviewCount})` }, params: { runId: String(fx.runId) } }),
   "GET /api/runs/[runId]/steps/[stepLabel]": () => ({ url: `/api/runs/${fx.runId}/steps/scale`, params: { runId: String(fx.runId), stepLabel: "scale" } }),
+  "GET /api/runs/[runId]/steps/[stepLabel]/download": () => ({ url: `/api/runs/${fx.runId}/steps/scale/download`, params: { runId: String(fx.runId), stepLabel: "scale" } }),
+  "GET /api/runs/[runId]/steps/[stepLabel]/intermediates": () => ({ url: `/api/runs/${fx.runId}/steps/scale/intermediates`, params: { runId: String(fx.runId), stepLabel: "scale" } }),
+  "GET /api/runs/[runId]/audit-export": () => ({ url: `/api/runs/${fx.runId}/audit-export?format=json`, params: { runId: String(fx.runId) } }),
+  "GET /api/artifacts/[hash]/field": () => ({ url: `/api/artifacts/${fx.model}/field`, params: { hash: fx.model } }),
   "GET /api/artifacts/[hash]": () => ({ url: `/api/artifacts/${fx.gathers}`, params: { hash: fx.gathers } }),
   "GET /api/artifacts/[hash]/lines": () => ({ url: `/api/artifacts/${fx.picks}/lines?gather=g1`, params: { hash: fx.picks } }),
   "GET /api/artifacts/[hash]/model": () => ({ url: `/api/artifacts/${fx.model}/model`, params: { hash: fx.model } }),
@@ -205,6 +211,7 @@ const ACTION_INPUT: Record<string, () => FormData> = {
   changeRole: () => form({ userId: String(users.auditor.id), role: "auditor" }),
   changeActive: () => form({ userId: String(users.auditor.id), active: "true" }),
   changeOwnPassword: () => form({ current: demoPasswords[currentRole!], next: `${demoPasswords[currentRole!]}-2`, repeat: `${demoPasswords[currentRole!]}-2` }),
+  decideRun: () => form({ runId: String(fx.runId), decision: "returned", comment: `matrix check ${++reviewCount}` }),
 };
 let currentRole: Role | null = null;
 const demoPasswords = {} as Record<Role, string>;
@@ -214,9 +221,13 @@ describe("server actions × roles", () => {
     for (const role of who) {
       const allowed = meets(role, requirement);
       it(`${name} as ${role ?? "nobody"}: ${allowed ? "done" : "refused"}`, async () => {
+        const { decideRun } = await import("@/app/lib/actions/reviews");
         const actions = {
           ...(await import("@/app/lib/actions/users")),
           ...(await import("@/app/lib/actions/password")),
+          // decideRun takes its input as an object (the approve button calls it directly).
+          decideRun: (_prev: FormState, f: FormData) =>
+            decideRun({ runId: Number(f.get("runId")), decision: f.get("decision") as "approved" | "returned", comment: String(f.get("comment")) }),
         } as unknown as Record<string, (prev: FormState, f: FormData) => Promise<FormState>>;
         currentRole = role;
         if (role === null) signOut();
