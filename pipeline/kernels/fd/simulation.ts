@@ -13,7 +13,7 @@ import { FLUSH_BELOW, createReferenceKernel, type FdKernel } from "./reference-k
 import { resampleBandLimitedTraces, resampleBandLimitedTranspose } from "../resample";
 import { FdSetupError } from "./errors";
 import { ricker, sampleWavelet, waveletBand, type SourceWavelet } from "./wavelet";
-import { createWasmKernel } from "./wasm-kernel";
+import { createWasmKernel, MAX_STEPPER_SOURCES, type Stepper, type SteppingPlan } from "./wasm-kernel";
 
 /**
  * Source kinds: point forces on a velocity component, or an explosive (isotropic pressure)
@@ -290,11 +290,14 @@ function checkInside(model: ElasticModel, x: number, z: number, what: string, fi
   }
 }
 
-/** Allocates and binds a kernel for a model grid. */
+/**
+ * Allocates and binds a kernel for a model grid. The WebAssembly kernel comes with its stepper
+ * (room for `maxReceiverPoints` receiver cells, default 2048); the reference kernel has none.
+ */
 export function createKernel(
   kind: "wasm" | "reference",
-  opts: { mode: WaveMode; modelNx: number; modelNz: number; pmlCells: number; freeSurface: boolean },
-): { kernel: FdKernel; layout: FdLayout; mem: Float32Array } {
+  opts: { mode: WaveMode; modelNx: number; modelNz: number; pmlCells: number; freeSurface: boolean; maxReceiverPoints?: number },
+): { kernel: FdKernel; layout: FdLayout; mem: Float32Array; createStepper?: (plan: SteppingPlan) => Stepper } {
   if (kind === "wasm") return createWasmKernel(opts);
   const layout = planLayout(opts);
   const mem = new Float32Array(layout.totalBytes / 4);
@@ -341,6 +344,12 @@ export function checkSimulation(model: ElasticModel, shot: ShotPositions, opts: 
 export interface FdSetup {
   model: ElasticModel;
   kernel: FdKernel;
+  /**
+   * Several-steps-per-call stepping of the WebAssembly kernel (absent for the reference kernel),
+   * with room for `stepperReceiverPoints` receiver cells; used by {@link runShotSteps}.
+   */
+  createStepper?: (plan: SteppingPlan) => Stepper;
+  stepperReceiverPoints: number;
   layout: FdLayout;
   /** The kernel's whole buffer as float32 (fields, coefficients, absorbing memory). */
   mem: Float32Array;
@@ -366,8 +375,10 @@ export interface FdSetup {
 export function prepareSimulation(model: ElasticModel, shot: ShotPositions, opts: SimulationOptions): FdSetup {
   const { mode, component, sourceKind, pmlCells, freeSurface, intervalS, count, startTimeS, band, h, points, vmax, dt } =
     checkSimulation(model, shot, opts);
-  const { kernel, layout, mem } = createKernel(opts.kernel ?? "wasm", {
-    mode, modelNx: model.nx, modelNz: model.nz, pmlCells, freeSurface,
+  // Room for every receiver's read-out cells (at most four each, bilinear) in the stepper.
+  const stepperReceiverPoints = Math.max(2048, 4 * shot.receiverX.length);
+  const { kernel, layout, mem, createStepper } = createKernel(opts.kernel ?? "wasm", {
+    mode, modelNx: model.nx, modelNz: model.nz, pmlCells, freeSurface, maxReceiverPoints: stepperReceiverPoints,
   });
   const smoothing = opts.pmlSmoothingCells ?? 0;
   if (!Number.isInteger(smoothing) || smoothing < 0) throw new RangeError(`pmlSmoothingCells must be an integer ≥ 0, got ${smoothing}`);
@@ -375,7 +386,7 @@ export function prepareSimulation(model: ElasticModel, shot: ShotPositions, opts
   const tEnd = startTimeS + (count - 1) * intervalS + 8 * Math.max(intervalS, dt);
   const steps = Math.max(1, Math.ceil(tEnd / dt + 0.5));
   return {
-    model, kernel, layout, mem, mode, component, sourceKind, freeSurface, h, dt, steps, pointsPerWavelength: points,
+    model, kernel, createStepper, stepperReceiverPoints, layout, mem, mode, component, sourceKind, freeSurface, h, dt, steps, pointsPerWavelength: points,
     output: { intervalS, count, startTimeS },
   };
 }
@@ -519,6 +530,108 @@ export function runTimeSteps(kernel: FdKernel, steps: number, hooks: StepHooks, 
   }
 }
 
+/** Steps of {@link runShotSteps} after which the caller reads the wavefield. */
+export interface WavefieldVisits {
+  /** Whether the wavefield after step n is wanted. */
+  wants(n: number): boolean;
+  /** Called after step n when `wants(n)`: velocities at (n + ½)·dt and stresses at (n + 1)·dt are in the buffer. */
+  visit(n: number): void;
+}
+
+/**
+ * The forward time loop of one shot: the source enters before each step (see {@link simulateShot}
+ * for its timing: value `stf[n]` before step n for a force, `stf[n − 1]` for an explosive source,
+ * none before step 0), every receiver is recorded into `raw[r·steps + n]` (float32, as
+ * {@link recordReceivers}) after each step, and `visits.visit(n)` is called after each wanted step.
+ *
+ * The WebAssembly kernel runs with its stepper (up to 64 steps per call, the increments added and
+ * the receiver cells captured inside the kernel), in chunks that end on multiples of 64 and on
+ * every wanted step; the reference kernel (or a shot beyond the stepper's room) runs one step per
+ * call through {@link runTimeSteps}. Traces and wavefields are the same bit for bit either way
+ * (same float32 increments and flushes, read-out summed in the same order). The cancel flag and
+ * `stepCounter` are handled as by {@link runTimeSteps} (every 64 steps).
+ */
+export function runShotSteps(
+  setup: FdSetup,
+  src: SourceInjection,
+  stf: ArrayLike<number>,
+  rec: ReceiverStencil,
+  raw: Float32Array,
+  visits?: WavefieldVisits,
+  cancelFlag?: Int32Array,
+  stepCounter?: Int32Array,
+): void {
+  const { mem, steps } = setup;
+  const ns = src.index.length;
+  const nr = rec.index.length;
+  if (raw.length < (rec.start.length - 1) * steps) throw new RangeError(`raw must hold receivers × steps = ${(rec.start.length - 1) * steps} values, got ${raw.length}`);
+  if (!setup.createStepper || ns > MAX_STEPPER_SOURCES || nr > setup.stepperReceiverPoints) {
+    runTimeSteps(
+      setup.kernel,
+      steps,
+      {
+        beforeStep(n) {
+          if (!src.atStress) inject(mem, src, stf[n]);
+          else if (n > 0) inject(mem, src, stf[n - 1]);
+        },
+        afterStep(n) {
+          recordReceivers(mem, rec, raw, n, steps);
+          if (visits?.wants(n)) visits.visit(n);
+        },
+      },
+      cancelFlag,
+      stepCounter,
+    );
+    return;
+  }
+  const stepper = setup.createStepper({
+    sources: Array.from(src.index, (index, e) => ({ index, mirror: src.mirror[e] })),
+    atStress: src.atStress,
+    receivers: rec.index,
+  });
+  const nrec = rec.start.length - 1;
+  const { scale } = src;
+  const { start, weight } = rec;
+  const increments = new Float32Array(stepper.maxSteps * ns);
+  for (let n = 0; n < steps; ) {
+    if ((n & 63) === 0) {
+      if (stepCounter) Atomics.store(stepCounter, 0, n);
+      throwIfCancelled(cancelFlag);
+    }
+    // This chunk: steps n .. end − 1, ending at the next multiple of 64 or after a wanted step.
+    let end = Math.min(steps, (n | 63) + 1, n + stepper.maxSteps);
+    let visitLast = false;
+    if (visits) {
+      for (let m = n; m < end; m++) {
+        if (visits.wants(m)) {
+          end = m + 1;
+          visitLast = true;
+          break;
+        }
+      }
+    }
+    const count = end - n;
+    for (let q = 0; q < count; q++) {
+      const step = n + q;
+      // The kernel adds nothing before step 0 of a stress source.
+      const v = src.atStress ? (step > 0 ? stf[step - 1] : 0) : stf[step];
+      for (let e = 0; e < ns; e++) increments[q * ns + e] = f32(scale[e] * v);
+    }
+    const cap = stepper.advance(n, count, increments);
+    for (let r = 0; r < nrec; r++) {
+      const row = r * steps + n;
+      for (let q = 0; q < count; q++) {
+        const at = q * nr;
+        let acc = 0;
+        for (let k = start[r]; k < start[r + 1]; k++) acc += cap[at + k] * weight[k];
+        raw[row + q] = acc;
+      }
+    }
+    if (visitLast) visits?.visit(end - 1);
+    n = end;
+  }
+}
+
 /** Time of raw sample 0 (velocities after step 0), s. */
 export const rawStartS = (dt: number) => 0.5 * dt;
 
@@ -567,7 +680,7 @@ export function copyModelCells(setup: FdSetup, component: VelocityComponent, out
  */
 export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: SimulationOptions): SimulationResult {
   const setup = prepareSimulation(model, shot, opts);
-  const { mem, dt, steps, component } = setup;
+  const { dt, steps, component } = setup;
   const src = sourceInjection(setup, shot.sourceX, shot.sourceZ);
   const stf = sourceTimeFunction(setup, opts.wavelet, src.atStress);
   const rec = receiverStencil(setup, shot.receiverX, shot.receiverZ);
@@ -582,21 +695,22 @@ export function simulateShot(model: ElasticModel, shot: ShotPositions, opts: Sim
   const frames = snapTimes.length > 0 ? new Float32Array(snapTimes.length * model.nx * model.nz) : undefined;
   const frameSize = model.nx * model.nz;
 
-  runTimeSteps(
-    setup.kernel,
-    steps,
-    {
-      beforeStep(n) {
-        if (!src.atStress) inject(mem, src, stf[n]);
-        else if (n > 0) inject(mem, src, stf[n - 1]);
-      },
-      afterStep(n) {
-        recordReceivers(mem, rec, raw, n, steps);
-        if (frames) {
-          for (let q = 0; q < snapSteps.length; q++) if (snapSteps[q] === n) copyModelCells(setup, snapComponent, frames, q * frameSize);
+  const snapAt = new Uint8Array(steps);
+  for (const n of snapSteps) snapAt[n] = 1;
+  runShotSteps(
+    setup,
+    src,
+    stf,
+    rec,
+    raw,
+    frames
+      ? {
+          wants: (n) => snapAt[n] === 1,
+          visit(n) {
+            for (let q = 0; q < snapSteps.length; q++) if (snapSteps[q] === n) copyModelCells(setup, snapComponent, frames, q * frameSize);
+          },
         }
-      },
-    },
+      : undefined,
     opts.cancelFlag,
     opts.stepCounter,
   );

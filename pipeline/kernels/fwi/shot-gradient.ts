@@ -42,13 +42,11 @@ import type { ElasticModel } from "../../types";
 import { misfitAndAdjoint, type InversionMeasure } from "../misfit-adjoint";
 import { FD_C1, FD_C2 } from "../fd/reference-kernel";
 import {
-  inject,
   prepareSimulation,
   receiverStencil,
-  recordReceivers,
   resampleRecords,
   resampleRecordsTranspose,
-  runTimeSteps,
+  runShotSteps,
   sourceInjection,
   sourceTimeFunction,
   throwIfCancelled,
@@ -458,24 +456,24 @@ export function shotGradient(input: ShotGradientInput): ShotGradientOutput {
   const perStep = (mode === "psv" ? 5 : 3) * cells;
   const store = new Float32Array(kept * perStep);
 
-  // ---- Forward solve ----
-  runTimeSteps(
-    setup.kernel,
-    steps,
-    {
-      beforeStep(n) {
-        if (!src.atStress) inject(mem, src, stf[n]);
-        else if (n > 0) inject(mem, src, stf[n - 1]);
-      },
-      afterStep(n) {
-        recordReceivers(mem, rec, raw, n, steps);
-        if (K === 0 || n % K !== 0) return;
-        const at = (n / K) * perStep;
-        for (let q = 0; q < nv; q++) copyCells(mem, velocities[q], grid, store, at + q * cells);
-        if (mode === "psv") strainRatesPsv(mem, o.f0, o.f1, grid, store, at + nv * cells);
-        else strainRatesSh(mem, o.f0, grid, store, at + nv * cells);
-      },
-    },
+  // ---- Forward solve (the WebAssembly kernel several steps per call, chunks ending on kept steps) ----
+  runShotSteps(
+    setup,
+    src,
+    stf,
+    rec,
+    raw,
+    K === 0
+      ? undefined
+      : {
+          wants: (n) => n % K === 0,
+          visit(n) {
+            const at = (n / K) * perStep;
+            for (let q = 0; q < nv; q++) copyCells(mem, velocities[q], grid, store, at + q * cells);
+            if (mode === "psv") strainRatesPsv(mem, o.f0, o.f1, grid, store, at + nv * cells);
+            else strainRatesSh(mem, o.f0, grid, store, at + nv * cells);
+          },
+        },
     input.cancelFlag,
   );
   const synthetic = resampleRecords(raw, nrec, steps, dt, setup.output);
