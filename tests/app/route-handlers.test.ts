@@ -296,5 +296,32 @@ describe("reading runs and traces", () => {
     const { header, payload } = decodeWire<TraceHeaderWire>(await res.arrayBuffer());
     expect(header.decimation).toBe(1); // 16 samples fit in 16
     expect(payload.length).toBe(4 * 16);
+    // A longer gather (40 samples; the route accepts maxSamples of 16 or more) to reach the branch.
+    const db = getDb();
+    const file = path.join(tmp, "long.yaml");
+    fs.writeFileSync(file, "name: route-long\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { traces: 2, samples: 40, value: -2 }\n");
+    const longRun = createRun(db, { source: "pipeline-file", pipelinePath: file, actor: { userId: null, label: "tester", door: "cli" } });
+    await executeRun(db, longRun.runId);
+    const longHash = getRun(db, longRun.runId)!.steps[0].outputs.gathers;
+    const stored = (readArtifactSync(longHash) as GatherSet).gathers[0];
+    const ask = async (maxSamples: number) =>
+      decodeWire<TraceHeaderWire>(
+        await (await tracesRoute.GET(get(`/api/artifacts/${longHash}/traces?gather=g1&maxSamples=${maxSamples}`), params({ hash: longHash }))).arrayBuffer(),
+      );
+    expect((await ask(40)).header.decimation).toBe(1); // 40 fit in 40
+    // One sample too many: the smallest whole factor that fits, ceil(40 / 39) = 2.
+    const by2 = await ask(39);
+    expect(by2.header.decimation).toBe(2);
+    expect(by2.header.sampleCount).toBe(20);
+    expect(by2.payload.length).toBe(2 * 20);
+    // Keeping one sample per window of `factor` multiplies the sample interval by the factor (common practice).
+    expect(by2.header.sampleIntervalS).toBeCloseTo(2 * stored.sampleIntervalS, 12);
+    // ceil(40 / 16) = 3: ceil(40 / 3) = 14 samples per trace, the last window holding one sample.
+    const by3 = await ask(16);
+    expect(by3.header.decimation).toBe(3);
+    expect(by3.header.sampleCount).toBe(14);
+    expect(by3.header.sampleIntervalS).toBeCloseTo(3 * stored.sampleIntervalS, 12);
+    expect(by3.header.startTimeS).toBe(stored.startTimeS);
+    expect(Array.from(by3.payload)).toEqual(new Array(2 * 14).fill(-2));
   });
 });
