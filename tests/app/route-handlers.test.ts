@@ -325,3 +325,53 @@ describe("reading runs and traces", () => {
     expect(Array.from(by3.payload)).toEqual(new Array(2 * 14).fill(-2));
   });
 });
+
+describe("starting a run from the control room (POST /api/runs)", () => {
+  it("queues a run of a pipeline version on a dataset for a processor, records who and how, and the engine runs it", async () => {
+    const db = getDb();
+    const source = getRun(db, runId)!;
+    await as("processor");
+    vi.mocked(launchInBackground).mockClear();
+    const res = await runsRoute.POST(post("/api/runs", { pipelineVersionId: source.pipelineVersionId, datasetId: source.datasetId }));
+    expect(res.status).toBe(202);
+    const { runId: started } = (await res.json()) as { runId: number };
+    expect(started).not.toBe(runId);
+    // Handed to the engine at once, and queued until the engine picks it up.
+    expect(vi.mocked(launchInBackground).mock.calls).toEqual([[started]]);
+    const queued = getRun(db, started)!;
+    expect(queued).toMatchObject({
+      status: "queued",
+      door: "web",
+      startedByUserId: users.processor.id,
+      pipelineVersionId: source.pipelineVersionId,
+      datasetId: source.datasetId,
+      parentRunId: null,
+    });
+    expect(queued.steps.map((s) => [s.label, s.params])).toEqual(source.steps.map((s) => [s.label, s.params]));
+    const events = listAudit(db, { action: "run.start", entityId: String(started) });
+    expect(events).toHaveLength(1);
+    expect(events[0]).toMatchObject({ actorLabel: users.processor.name, door: "web" });
+    // What the background engine would do: execute it; same settings on the same data, so every
+    // step is found in the cache and the outputs are those of the source run.
+    const outcome = await executeRun(db, started);
+    expect(outcome.status).toBe("succeeded");
+    const done = getRun(db, started)!;
+    expect(done.steps.map((s) => s.cacheHit)).toEqual([true, true]);
+    expect(done.steps.map((s) => s.outputs)).toEqual(source.steps.map((s) => s.outputs));
+  });
+
+  it("answers 400 naming the field for a bad body, 404 for an unknown pipeline version, and queues nothing", async () => {
+    const db = getDb();
+    const source = getRun(db, runId)!;
+    await as("processor");
+    vi.mocked(launchInBackground).mockClear();
+    const before = listAudit(db, { action: "run.start" }).length;
+    const bad = await runsRoute.POST(post("/api/runs", { pipelineVersionId: "one", datasetId: source.datasetId }));
+    expect(bad.status).toBe(400);
+    expect((await bad.json()).error).toMatchObject({ code: "bad-input", field: "pipelineVersionId" });
+    const unknown = await runsRoute.POST(post("/api/runs", { pipelineVersionId: 99_999, datasetId: source.datasetId }));
+    expect(unknown.status).toBe(404);
+    expect(vi.mocked(launchInBackground)).not.toHaveBeenCalled();
+    expect(listAudit(db, { action: "run.start" }).length).toBe(before);
+  });
+});

@@ -169,7 +169,7 @@ describe("tracewright command line end to end", { timeout: 240_000 }, () => {
     expect(cancel.stderr).toMatch(new RegExp(`cancel requested for run ${run!.id}`));
     const done = await running;
     expect(done.exitCode).toBe(1);
-    const cancelled = JSON.parse(done.stdout) as RunJson;
+    const cancelled = JSON.parse(String(done.stdout)) as RunJson;
     expect(cancelled.status).toBe("cancelled");
     expect(cancelled.steps.map((s) => s.status)).toEqual(["succeeded", "cancelled"]);
 
