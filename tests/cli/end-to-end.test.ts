@@ -10,7 +10,7 @@ import os from "node:os";
 import path from "node:path";
 import { pathToFileURL } from "node:url";
 import { execa, type ResultPromise } from "execa";
-import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { afterAll, beforeAll, describe, expect, it, onTestFinished } from "vitest";
 
 let tmp: string;
 const cli = path.join(process.cwd(), "tests", "fixtures", "engine", "cli.ts");
@@ -159,6 +159,9 @@ describe("tracewright command line end to end", { timeout: 240_000 }, () => {
       `  - step: test-make-traces\n  - step: test-wait\n    settings: { ms: 600000, startedFlagFile: ${JSON.stringify(started)}, releaseFile: ${JSON.stringify(release)} }\n`,
     );
     const running = twBackground(["run", file, "--json"]);
+    onTestFinished(() => {
+      if (running.exitCode === null) running.kill("SIGKILL");
+    });
     await until(() => fs.existsSync(started), "the wait step to start");
     const list = JSON.parse((await tw(["runs", "--json", "--status", "running"])).stdout) as { runs: Array<{ id: number; pipeline: string }> };
     const run = list.runs.find((r) => r.pipeline === "cli-cancel");
@@ -190,6 +193,9 @@ describe("tracewright command line end to end", { timeout: 240_000 }, () => {
     fs.mkdirSync(root);
     const file = writePipeline("cli-watch", `  - step: test-list-files\n`, "fieldData: ./incoming\n");
     const watcher = twBackground(["watch", root, "--pipeline", file, "--quiet-seconds", "0.3"]);
+    onTestFinished(() => {
+      if (watcher.exitCode === null) watcher.kill("SIGKILL");
+    });
     let stderr = "";
     watcher.stderr!.on("data", (d: Buffer) => (stderr += d.toString()));
     await until(() => stderr.includes(`watching ${root}`), "the watcher to start");
