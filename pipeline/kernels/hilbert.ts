@@ -6,8 +6,9 @@
  * zero-padded trace is kept at k = 0 and at Nyquist, doubled at positive frequencies and zeroed at
  * negative ones, then transformed back (Marple 1999, "Computing the discrete-time analytic signal
  * via FFT", IEEE Trans. Signal Processing 47). The Hilbert transform is the imaginary part, with the
- * convention H[cos] = sin and H[sin] = −cos (Bracewell, The Fourier Transform and Its
- * Applications); the envelope (instantaneous amplitude) is |z|.
+ * convention of the kernel 1/(πt): H[cos] = sin and H[sin] = −cos (Bracewell, The Fourier Transform
+ * and Its Applications, defines the opposite sign; sources in tests/pipeline/kernels/misfit.test.ts);
+ * the envelope (instantaneous amplitude) is |z|, the same in either convention.
  *
  * The discrete transform is circular: without padding, the end of a trace leaks into its start.
  * By default each trace is zero-padded to the power of two at or above twice its length, which

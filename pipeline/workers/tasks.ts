@@ -21,6 +21,23 @@ export function scaleSamples(arg: { samples: Float32Array; factor: number }) {
   return Piscina.move(out);
 }
 
+/**
+ * Marks `flags[mine]`, then waits (Atomics.wait, at most `limitMs`) until `flags[peer]` is marked
+ * by another task; used to check that the pool runs tasks at the same time. Returns whether the
+ * peer was seen (false only when the two tasks did not run at once).
+ */
+export function meetPeer(arg: { flags: Int32Array; mine: number; peer: number; limitMs: number }): { met: boolean } {
+  Atomics.store(arg.flags, arg.mine, 1);
+  Atomics.notify(arg.flags, arg.mine);
+  const end = Date.now() + arg.limitMs;
+  while (Atomics.load(arg.flags, arg.peer) === 0) {
+    const left = end - Date.now();
+    if (left <= 0) return { met: false };
+    Atomics.wait(arg.flags, arg.peer, 0, left);
+  }
+  return { met: true };
+}
+
 // ---- Signal-processing steps: each task runs one kernel on a block of whole traces ----
 
 import { filterTraces, type FilterTracesArgs } from "../kernels/filter";

@@ -300,5 +300,82 @@ describe("reading runs and traces", () => {
     const { header, payload } = decodeWire<TraceHeaderWire>(await res.arrayBuffer());
     expect(header.decimation).toBe(1); // 16 samples fit in 16
     expect(payload.length).toBe(4 * 16);
+    // A longer gather (40 samples; the route accepts maxSamples of 16 or more) to reach the branch.
+    const db = getDb();
+    const file = path.join(tmp, "long.yaml");
+    fs.writeFileSync(file, "name: route-long\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { traces: 2, samples: 40, value: -2 }\n");
+    const longRun = createRun(db, { source: "pipeline-file", pipelinePath: file, actor: { userId: null, label: "tester", door: "cli" } });
+    await executeRun(db, longRun.runId);
+    const longHash = getRun(db, longRun.runId)!.steps[0].outputs.gathers;
+    const stored = (readArtifactSync(longHash) as GatherSet).gathers[0];
+    const ask = async (maxSamples: number) =>
+      decodeWire<TraceHeaderWire>(
+        await (await tracesRoute.GET(get(`/api/artifacts/${longHash}/traces?gather=g1&maxSamples=${maxSamples}`), params({ hash: longHash }))).arrayBuffer(),
+      );
+    expect((await ask(40)).header.decimation).toBe(1); // 40 fit in 40
+    // One sample too many: the smallest whole factor that fits, ceil(40 / 39) = 2.
+    const by2 = await ask(39);
+    expect(by2.header.decimation).toBe(2);
+    expect(by2.header.sampleCount).toBe(20);
+    expect(by2.payload.length).toBe(2 * 20);
+    // Keeping one sample per window of `factor` multiplies the sample interval by the factor (common practice).
+    expect(by2.header.sampleIntervalS).toBeCloseTo(2 * stored.sampleIntervalS, 12);
+    // ceil(40 / 16) = 3: ceil(40 / 3) = 14 samples per trace, the last window holding one sample.
+    const by3 = await ask(16);
+    expect(by3.header.decimation).toBe(3);
+    expect(by3.header.sampleCount).toBe(14);
+    expect(by3.header.sampleIntervalS).toBeCloseTo(3 * stored.sampleIntervalS, 12);
+    expect(by3.header.startTimeS).toBe(stored.startTimeS);
+    expect(Array.from(by3.payload)).toEqual(new Array(2 * 14).fill(-2));
+  });
+});
+
+describe("starting a run from the control room (POST /api/runs)", () => {
+  it("queues a run of a pipeline version on a dataset for a processor, records who and how, and the engine runs it", async () => {
+    const db = getDb();
+    const source = getRun(db, runId)!;
+    await as("processor");
+    vi.mocked(launchInBackground).mockClear();
+    const res = await runsRoute.POST(post("/api/runs", { pipelineVersionId: source.pipelineVersionId, datasetId: source.datasetId }));
+    expect(res.status).toBe(202);
+    const { runId: started } = (await res.json()) as { runId: number };
+    expect(started).not.toBe(runId);
+    // Handed to the engine at once, and queued until the engine picks it up.
+    expect(vi.mocked(launchInBackground).mock.calls).toEqual([[started]]);
+    const queued = getRun(db, started)!;
+    expect(queued).toMatchObject({
+      status: "queued",
+      door: "web",
+      startedByUserId: users.processor.id,
+      pipelineVersionId: source.pipelineVersionId,
+      datasetId: source.datasetId,
+      parentRunId: null,
+    });
+    expect(queued.steps.map((s) => [s.label, s.params])).toEqual(source.steps.map((s) => [s.label, s.params]));
+    const events = listAudit(db, { action: "run.start", entityId: String(started) });
+    expect(events).toHaveLength(1);
+    expect(events[0]).toMatchObject({ actorLabel: users.processor.name, door: "web" });
+    // What the background engine would do: execute it; same settings on the same data, so every
+    // step is found in the cache and the outputs are those of the source run.
+    const outcome = await executeRun(db, started);
+    expect(outcome.status).toBe("succeeded");
+    const done = getRun(db, started)!;
+    expect(done.steps.map((s) => s.cacheHit)).toEqual([true, true]);
+    expect(done.steps.map((s) => s.outputs)).toEqual(source.steps.map((s) => s.outputs));
+  });
+
+  it("answers 400 naming the field for a bad body, 404 for an unknown pipeline version, and queues nothing", async () => {
+    const db = getDb();
+    const source = getRun(db, runId)!;
+    await as("processor");
+    vi.mocked(launchInBackground).mockClear();
+    const before = listAudit(db, { action: "run.start" }).length;
+    const bad = await runsRoute.POST(post("/api/runs", { pipelineVersionId: "one", datasetId: source.datasetId }));
+    expect(bad.status).toBe(400);
+    expect((await bad.json()).error).toMatchObject({ code: "bad-input", field: "pipelineVersionId" });
+    const unknown = await runsRoute.POST(post("/api/runs", { pipelineVersionId: 99_999, datasetId: source.datasetId }));
+    expect(unknown.status).toBe(404);
+    expect(vi.mocked(launchInBackground)).not.toHaveBeenCalled();
+    expect(listAudit(db, { action: "run.start" }).length).toBe(before);
   });
 });

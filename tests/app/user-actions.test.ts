@@ -15,8 +15,8 @@ vi.mock("next/headers", () => ({ cookies: async () => cookieStore, headers: asyn
 vi.mock("next/cache", () => ({ revalidatePath: vi.fn() }));
 
 import { closeDb, getDb } from "@/db/client";
-import { seedDemoUsers } from "@/db/seed";
-import { getUserByEmail, verifyCredentials } from "@/db/queries/users";
+import { DEMO_ACCOUNTS, seedDemoUsers } from "@/db/seed";
+import { getUserByEmail, listUsers, verifyCredentials } from "@/db/queries/users";
 import { listAudit } from "@/db/queries/audit";
 import { addUser, changeActive, changeRole } from "@/app/lib/actions/users";
 
@@ -50,7 +50,12 @@ afterAll(() => {
 describe("people actions", () => {
   it("seeding twice keeps one account per role", () => {
     seedDemoUsers(getDb());
-    for (const role of ["admin", "lead", "processor", "auditor"]) expect(users[role]).toBeDefined();
+    // Our own contract (db/seed.ts): accounts matched by email, never created twice.
+    const demoEmails = new Set(DEMO_ACCOUNTS.map((a) => a.email));
+    const rows = listUsers(getDb()).filter((u) => demoEmails.has(u.email));
+    expect(rows.map((u) => [u.role, u.id]).sort()).toEqual(
+      (["admin", "auditor", "lead", "processor"] as const).map((role) => [role, users[role].id]),
+    );
     expect(getUserByEmail(getDb(), users.lead.email)?.name).toBe("Rosa Okafor-Lind");
   });
 

@@ -5,6 +5,7 @@
 import fs from "node:fs";
 import os from "node:os";
 import path from "node:path";
+import { pathToFileURL } from "node:url";
 import { execa } from "execa";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { parseOverride } from "../../cli/commands/rerun";
@@ -14,6 +15,15 @@ const bin = path.join(process.cwd(), "bin", "tracewright.mjs");
 const tw = (args: string[], env: Record<string, string> = {}) =>
   execa(process.execPath, [bin, ...args], {
     env: { ...process.env, TRACEWRIGHT_DATA_DIR: path.join(tmp, "data"), TRACEWRIGHT_USER: "", ...env },
+    reject: false,
+    cwd: tmp,
+  });
+
+// The same command line with the small engine test steps registered (tests/fixtures/engine/cli.ts).
+const tsx = pathToFileURL(path.join(process.cwd(), "node_modules", "tsx", "dist", "loader.mjs")).href;
+const twWithTestSteps = (args: string[]) =>
+  execa(process.execPath, ["--import", tsx, path.join(process.cwd(), "tests", "fixtures", "engine", "cli.ts"), ...args], {
+    env: { ...process.env, TRACEWRIGHT_DATA_DIR: path.join(tmp, "data-with-runs"), TRACEWRIGHT_USER: "" },
     reject: false,
     cwd: tmp,
   });
@@ -64,8 +74,17 @@ describe("tracewright command line", () => {
   });
 
   it("export refuses an output folder that does not exist, naming --out", async () => {
-    const r = await tw(["export", "1", "--step", "x", "--out", "/nonexistent-folder/x.sgy"]);
+    // A real run with a result (in its own database), so the export gets as far as the --out check.
+    const file = path.join(tmp, "one-step.yaml");
+    fs.writeFileSync(file, "name: one-step\nsurvey: s\nsteps:\n  - step: test-make-traces\n");
+    const ran = await twWithTestSteps(["run", file, "--json"]);
+    expect(ran.exitCode, ran.stderr).toBe(0);
+    const { runId } = JSON.parse(ran.stdout) as { runId: number };
+    const missing = path.join(tmp, "no-such-folder");
+    const r = await twWithTestSteps(["export", String(runId), "--step", "test-make-traces", "--out", path.join(missing, "x.sgy")]);
     expect(r.exitCode).toBe(2);
+    expect(r.stderr).toContain(`--out ${path.join(missing, "x.sgy")}: the folder ${missing} does not exist`);
+    expect(fs.existsSync(missing)).toBe(false);
   });
 
   it("runs list as JSON with stable keys even when empty", async () => {

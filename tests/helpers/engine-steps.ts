@@ -227,9 +227,42 @@ export const poisonStep = defineStep({
   },
 });
 
+/**
+ * A small two-layer elastic model: `nx` columns by `nz` rows at `spacingM`, the top `topRows` rows
+ * at the top velocities, the rest at the bottom ones (density 1800 and 2000 kg/m³).
+ */
+export const makeModel = defineStep({
+  id: "test-make-model",
+  version: 1,
+  title: "make a layered model",
+  description: "test step: writes a small two-layer elastic model",
+  reads: [],
+  writes: ["model"],
+  params: z.object({
+    nx: z.number().int().positive().default(3).describe("columns"),
+    nz: z.number().int().positive().default(2).describe("rows"),
+    spacingM: z.number().positive().default(0.5).describe("grid spacing, m"),
+    topRows: z.number().int().nonnegative().default(1).describe("rows in the top layer"),
+  }),
+  async run(_input, p) {
+    count("test-make-model");
+    const n = p.nx * p.nz;
+    const vp = new Float32Array(n);
+    const vs = new Float32Array(n);
+    const rho = new Float32Array(n);
+    for (let i = 0; i < n; i++) {
+      const top = Math.floor(i / p.nx) < p.topRows;
+      vp[i] = top ? 500 : 1500;
+      vs[i] = top ? 250 : 600;
+      rho[i] = top ? 1800 : 2000;
+    }
+    return { outputs: { model: { kind: "model", nx: p.nx, nz: p.nz, spacingM: p.spacingM, originX: 0, originZ: 0, vp, vs, rho } } };
+  },
+});
+
 /** Registers the test steps once per process. */
 export function registerEngineTestSteps(): void {
-  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles, readTable, readLabel, iterateStep, poisonStep]) {
+  for (const s of [makeTraces, scaleTraces, waitStep, failStep, listFiles, readTable, readLabel, iterateStep, poisonStep, makeModel]) {
     if (!listSteps().some((x) => x.id === s.id)) registerStep(s);
   }
 }

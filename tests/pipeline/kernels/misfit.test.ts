@@ -25,7 +25,14 @@ function rickerAutocorrelation(tauS: number, peakHz: number): number {
 }
 
 describe("Hilbert transform and envelope", () => {
-  it("turns sin into −cos (Bracewell, The Fourier Transform and Its Applications: H[sin] = −cos)", () => {
+  // Sign convention: H[u](t) = (1/π) p.v.∫ u(τ)/(t − τ) dτ (kernel 1/(πt)), under which
+  // H[sin ωt] = −cos ωt and H[cos ωt] = sin ωt for ω > 0 (Wikipedia, "Hilbert transform", table of
+  // selected Hilbert transforms). Bracewell (The Fourier Transform and Its Applications) defines the
+  // transform with the opposite sign, so in his tables H[sin] = +cos: stated by that table's footnote
+  // and by Weisstein, MathWorld "Hilbert Transform", whose table follows Bracewell (1999) and names
+  // the 1/(πt) convention as the other common one (NIST DLMF eq. 1.14.41; King 2009, Hilbert
+  // Transforms, vol. 2, p. 6). Read from those two pages, not from the books themselves.
+  it("turns sin into −cos (kernel 1/(πt) convention; Bracewell's sign is the opposite)", () => {
     const n = 512;
     const x = new Float64Array(n);
     const minusCos = new Float64Array(n);

@@ -73,12 +73,23 @@ describe("unphysical cells", () => {
     expect(() => simulateShot(m, shot, base)).toThrow(message);
   });
 
-  it("refuses Vp/Vs exactly √2 (λ = 0) but accepts just above", () => {
+  it("refuses Vp/Vs at √2 (λ = 0) but accepts the next representable Vp above", () => {
     // λ = ρ(Vp² − 2Vs²) must be positive: Vp/Vs > √2 (Aki & Richards; common practice).
+    // √2·Vs is irrational, so the boundary itself is the pair of adjacent float32 values around it
+    // (the model stores float32): the last one at or below √2·Vs and the first one above. For
+    // float32 values, Vp² and 2Vs² are exact in float64 (24-bit significands, 48-bit products), so
+    // the sign of Vp² − 2Vs² below is exact and independent of the checker.
+    const vs = 200;
+    let below = Math.fround(Math.SQRT2 * vs);
+    if (below * below - 2 * vs * vs > 0) below = nextFloat32Down(below);
+    const above = nextFloat32Up(below);
+    expect(below * below - 2 * vs * vs).toBeLessThanOrEqual(0);
+    expect(above * above - 2 * vs * vs).toBeGreaterThan(0);
     const m = model();
-    m.vp[0] = Math.fround(Math.SQRT2 * 200) - 0.01;
-    expect(() => checkModelCells(m)).toThrow(/Vp\/Vs/);
-    m.vp[0] = 290;
+    m.vp[0] = below;
+    expect(m.vp[0]).toBe(below);
+    expect(() => checkModelCells(m)).toThrow(/Vp\/Vs = 1\.414.*at cell \(column 0, row 0\)/);
+    m.vp[0] = above;
     expect(checkModelCells(m).vsMin).toBe(200);
   });
 
@@ -87,3 +98,17 @@ describe("unphysical cells", () => {
     expect(() => simulateShot(model(), { ...shot, sourceZ: -1 }, base)).toThrow(/The source .* outside the model/);
   });
 });
+
+/** The float32 value just below / above a float32 value `x` > 0 (IEEE 754 binary32: adjacent bit patterns). */
+function nextFloat32Down(x: number): number {
+  const f = new Float32Array([x]);
+  const u = new Uint32Array(f.buffer);
+  u[0] -= 1;
+  return f[0];
+}
+function nextFloat32Up(x: number): number {
+  const f = new Float32Array([x]);
+  const u = new Uint32Array(f.buffer);
+  u[0] += 1;
+  return f[0];
+}
