@@ -24,9 +24,24 @@ import { checkStepOutputs } from "./output-checks";
 import { abortError, type RunLease } from "./run-lease";
 import type { AnyStepDefinition, StepContext, StepResult } from "./step";
 import { createStepRecorder } from "./step-records";
-import type { RunEvents } from "./runner";
 import type { SlotValues } from "./types";
 import type { WorkerPool } from "./workers/pool";
+
+/** Everything a door may want to show while a run goes. */
+export interface RunEvents {
+  onRunStart?: (e: { runId: number; steps: Array<{ label: string; stepId: string }> }) => void;
+  onStepStart?: (e: { position: number; label: string; stepId: string; total: number }) => void;
+  onStepProgress?: (e: { position: number; label: string; fraction: number; message?: string }) => void;
+  onStepEnd?: (e: {
+    position: number;
+    label: string;
+    status: "succeeded" | "failed" | "cancelled";
+    cacheHit: boolean;
+    durationMs: number;
+    error?: string;
+  }) => void;
+  onLog?: (e: { label: string | null; level: string; message: string }) => void;
+}
 
 /** What every step of one run shares. */
 export interface RunScope {

@@ -24,25 +24,13 @@ import { abortError, claimRun } from "./run-lease";
 import { computeStep, reuseCachedResult, type RunScope } from "./run-step";
 import { loadFieldFiles, SlotTable } from "./slots";
 import { sharedWorkerPool, type WorkerPool } from "./workers/pool";
+import type { RunEvents } from "./run-step";
+
+export type { RunEvents };
 
 export { createRun, defaultActor, prepareResume, requestCancel, snapshotGeometryTable, type Actor, type RunRequest } from "./run-create";
 export { HEARTBEAT_STALE_MS, markInterruptedRuns } from "./run-lease";
 
-/** Everything a door may want to show while a run goes. */
-export interface RunEvents {
-  onRunStart?: (e: { runId: number; steps: Array<{ label: string; stepId: string }> }) => void;
-  onStepStart?: (e: { position: number; label: string; stepId: string; total: number }) => void;
-  onStepProgress?: (e: { position: number; label: string; fraction: number; message?: string }) => void;
-  onStepEnd?: (e: {
-    position: number;
-    label: string;
-    status: "succeeded" | "failed" | "cancelled";
-    cacheHit: boolean;
-    durationMs: number;
-    error?: string;
-  }) => void;
-  onLog?: (e: { label: string | null; level: string; message: string }) => void;
-}
 
 export interface ExecuteOptions {
   pool?: WorkerPool;
