@@ -12,6 +12,7 @@ import { waveformInversionParams, waveformInversionStep } from "../steps/wavefor
 import type { TraceHeader } from "../types";
 import type { WorkerPool } from "../workers/pool";
 import { pino } from "pino";
+import { setMaxListeners } from "node:events";
 
 export interface InversionBench {
   grid: { nx: number; nz: number; spacingM: number };
@@ -68,9 +69,12 @@ export async function benchInversion(pool: WorkerPool, iterations = 3): Promise<
     const forwardAllShotsS = (performance.now() - t0) / 1000;
 
     const recorder = memoryStepRecorder();
+    const signal = new AbortController().signal;
+    // One pool task per shot listens to the signal, as in the runner.
+    setMaxListeners(0, signal);
     const ctx = {
       log: pino({ level: "silent" }),
-      signal: new AbortController().signal,
+      signal,
       progress: () => {},
       pool,
       ...recorder,
