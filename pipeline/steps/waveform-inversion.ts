@@ -42,7 +42,7 @@ import {
 } from "../kernels/fwi/parameterisation";
 import { lbfgsIteration, startLbfgs, type LbfgsState } from "../kernels/optim/lbfgs";
 import { estimateWavelet } from "../kernels/wavelet-estimation";
-import { ricker, defaultRickerShiftS } from "../kernels/fd/wavelet";
+import { ricker, defaultRickerShiftS, waveletBand } from "../kernels/fd/wavelet";
 
 const MEASURES = ["least-squares", "trace-normalised-least-squares", "normalised-correlation", "envelope"] as const;
 
@@ -184,6 +184,26 @@ function lowPass(data: Float32Array, traceCount: number, sampleCount: number, in
     sampleCount,
   );
   return filterTraces({ data, traceCount, sampleCount, plan, taperSamples: 0 });
+}
+
+/**
+ * The bounds of a stage: the lowest Vs raised to what the grid carries at the stage's band,
+ * minPoints · fmax · h, with fmax where the stage wavelets' spectra fall below 5 % of their peak
+ * (as the solver's accuracy check measures it).
+ */
+function gridBounds(b: ModelBounds, wavelets: Record<string, Float32Array>, shots: ShotData[], dt: number, h: number, minPoints: number): ModelBounds {
+  let fmax = 0;
+  for (const s of shots) fmax = Math.max(fmax, waveletBand({ kind: "samples", samples: wavelets[s.id], intervalS: dt, startTimeS: 0 }).maxHz);
+  // A hair above the limit, so rounding in the check never refuses a cell at the bound.
+  const floor = minPoints * fmax * h * 1.001;
+  return floor > b.vsMin ? { ...b, vsMin: floor } : b;
+}
+
+/** A copy of the model with Vs raised to `vsMin` where lower (and Vp kept at ratio · Vs). */
+function raiseVs(m: ElasticModel, vsMin: number, ratio: number): ElasticModel {
+  const vs = Float32Array.from(m.vs, (v) => Math.max(v, vsMin));
+  const vp = Float32Array.from(m.vp, (v, i) => Math.max(v, ratio * vs[i]));
+  return { ...m, vs, vp };
 }
 
 /** The first `count` samples of every trace of a gather. */
@@ -334,6 +354,16 @@ export const waveformInversionStep = defineStep({
             waveletFit = await reestimate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag });
             ctx.log.info(`stage ${state.stage + 1}: source wavelet re-estimated (mean relative residual ${waveletFit.toFixed(3)})`);
           }
+          // The grid resolves waves down to Vs = points · fmax · h: in this stage no cell may go
+          // slower, or the solver's accuracy check would refuse the model half way (common practice:
+          // 5 to 8 points per shortest S wavelength).
+          const stageBounds = gridBounds(bounds, state.wavelets, shots, dt, state.model.spacingM, p.minPointsPerWavelength);
+          if (stageBounds.vsMin > bounds.vsMin) {
+            ctx.log.warn(
+              `stage ${state.stage + 1}: Vs kept at or above ${stageBounds.vsMin.toFixed(0)} m/s, the slowest the ${state.model.spacingM} m grid carries at this stage's band with ${p.minPointsPerWavelength} points per wavelength`,
+            );
+            state.model = raiseVs(state.model, stageBounds.vsMin, bounds.minVpVsRatio);
+          }
           const atStart = await evaluate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag }, state.model, true);
           const taper = pointTaper(state.model, shots.map((s) => ({ x: s.positions.sourceX, z: s.positions.sourceZ })), p.sourceTaperM);
           const receivers = new Map<string, { x: number; z: number }>();
@@ -353,7 +383,7 @@ export const waveformInversionStep = defineStep({
               taper,
             }),
             smoothingCells: p.smoothingM / state.model.spacingM,
-            bounds,
+            bounds: stageBounds,
           };
           const x0 = new Float64Array(vectorLength(param));
           state.parameterisation = param;
