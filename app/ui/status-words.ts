@@ -3,7 +3,7 @@
  * words (db/schema.ts RUN_STATUSES, STEP_STATUSES) and the words people read for them. Every
  * page, filter and badge takes its words from here.
  */
-import { RUN_STATUSES, STEP_STATUSES } from "@/db/schema";
+import { RUN_STATUSES, STEP_STATUSES } from "@/db/vocabulary";
 
 export type AnyStatus = (typeof RUN_STATUSES)[number] | (typeof STEP_STATUSES)[number];
 
