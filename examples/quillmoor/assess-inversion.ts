@@ -128,8 +128,16 @@ if (process.argv[1] && import.meta.url === pathToFileURL(path.resolve(process.ar
   const { readArtifactSync } = await import("../../pipeline/artifact-store");
   const db = getDb();
   const arg = process.argv[2];
-  const runId = arg ? Number(arg) : listRuns(db, { pipelineName: "quillmoor-qm1-inversion", status: "succeeded", pageSize: 1 }).rows[0]?.id;
-  const run = runId ? getRun(db, runId) : null;
+  // The given run, else the latest run of the example whose inversion step finished.
+  const candidates = arg ? [Number(arg)] : listRuns(db, { pipelineName: "quillmoor-qm1-inversion", pageSize: 20 }).rows.map((r) => r.id);
+  let run: ReturnType<typeof getRun> = null;
+  for (const id of candidates) {
+    const r = getRun(db, id);
+    if (r?.steps.some((s) => s.stepId === "waveform-inversion" && s.status === "succeeded")) {
+      run = r;
+      break;
+    }
+  }
   const step = run?.steps.find((s) => s.stepId === "waveform-inversion");
   closeDb();
   if (!run || !step?.outputs.model) {
