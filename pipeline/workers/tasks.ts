@@ -182,7 +182,7 @@ export function invertDispersionCurveTask(arg: { frequenciesHz: Float64Array; ve
   return invertDispersionCurve(arg.frequenciesHz, arg.velocitiesMps, arg.options);
 }
 
-import { timeWasmKernel, type KernelTimingOptions } from "../bench/kernel-timing";
+import { timeWasmKernel, type KernelTimingOptions } from "../kernels/fd/kernel-timing";
 
 /** Times the WebAssembly kernel directly in this worker (the solver bench against the C yardstick). */
 export function kernelBenchTask(arg: KernelTimingOptions) {

@@ -6,10 +6,10 @@
  * JavaScript before every step, as the solver adds its source. Used by the solver bench in worker
  * threads; prints nothing.
  */
-import { createWasmKernel } from "../kernels/fd/wasm-kernel";
-import { maxStableDt } from "../kernels/fd/checks";
-import { ricker } from "../kernels/fd/wavelet";
-import type { WaveMode } from "../kernels/fd/layout";
+import { createWasmKernel } from "./wasm-kernel";
+import { maxStableDt } from "./checks";
+import { ricker } from "./wavelet";
+import type { WaveMode } from "./layout";
 
 /** Options of {@link timeWasmKernel}. */
 export interface KernelTimingOptions {
