@@ -86,7 +86,9 @@ export function toAppError(err: unknown): AppError {
   if (err instanceof AppError) return err;
   if (err instanceof RecordError) return new AppError(err.code, err.message, err.field ? { field: err.field } : {}, { cause: err });
   if (err instanceof Error && err.name === "AbortError") return new AppError("cancelled", "The run was cancelled.");
-  if (err instanceof Error && err.name === "StepInputError") return new AppError("bad-input", err.message, {
+  // The solver's refusals of a grid, time step or position (FdSetupError, also when it comes
+  // back from a worker thread with only its name) are input errors of the step that asked.
+  if (err instanceof Error && (err.name === "StepInputError" || err.name === "FdSetupError")) return new AppError("bad-input", err.message, {
     field: (err as Error & { field?: string }).field,
   });
   const msg = err instanceof Error ? err.message : String(err);
