@@ -122,6 +122,34 @@ export function describeAssessment(a: InversionAssessment): string[] {
   ];
 }
 
+export interface StageMisfit {
+  stage: string;
+  startMisfit: number;
+  endMisfit: number;
+  iterations: number;
+}
+
+/** First and last misfit of each stage, from the inversion's misfit series (points grouped by stage). */
+export function stageMisfits(points: Array<{ x: number; y: number; group?: string }>): StageMisfit[] {
+  const byStage = new Map<string, Array<{ x: number; y: number }>>();
+  for (const p of points) {
+    const key = p.group ?? "";
+    (byStage.get(key) ?? byStage.set(key, []).get(key)!).push(p);
+  }
+  return [...byStage].map(([stage, pts]) => {
+    const sorted = [...pts].sort((a, b) => a.x - b.x);
+    return { stage, startMisfit: sorted[0].y, endMisfit: sorted[sorted.length - 1].y, iterations: sorted.length - 1 };
+  });
+}
+
+/** Each stage's misfit reduction, with the scenario's target (the end at most 25 % of the start). */
+export function describeStageMisfits(stages: StageMisfit[]): string[] {
+  return stages.map(
+    (s) =>
+      `misfit ${s.stage.padEnd(16)} ${s.startMisfit.toFixed(1)} → ${s.endMisfit.toFixed(1)} in ${s.iterations} iterations: ${((100 * s.endMisfit) / s.startMisfit).toFixed(0)} % of the start  (target at most 25 %)`,
+  );
+}
+
 if (process.argv[1] && import.meta.url === pathToFileURL(path.resolve(process.argv[1])).href) {
   const { getDb, closeDb } = await import("../../db/client");
   const { getRun, listRuns } = await import("../../db/queries/runs");
@@ -147,4 +175,6 @@ if (process.argv[1] && import.meta.url === pathToFileURL(path.resolve(process.ar
   const model = readArtifactSync(step.outputs.model) as ElasticModel;
   process.stdout.write(`Run ${run.id}: the inverted model against the hidden true ground (invented demo)\n`);
   for (const line of describeAssessment(assessInversion(model))) process.stdout.write(`  ${line}\n`);
+  const misfit = step.series.find((s) => s.name === "misfit");
+  if (misfit) for (const line of describeStageMisfits(stageMisfits(misfit.points))) process.stdout.write(`  ${line}\n`);
 }
