@@ -4,6 +4,7 @@
  * pipeline files (pipeline-file.ts), the differences between two versions, and saving an edit
  * as a new version (never an overwrite).
  */
+import os from "node:os";
 import path from "node:path";
 import { stringify } from "yaml";
 import type { Db } from "../db/client";
@@ -271,7 +272,15 @@ export function savePipelineEdit(
   if (!base) throw new AppError("not-found", `Pipeline ${pipeline.name} has no version with id ${request.baseVersionId}`, { field: "baseVersionId" });
   const baseDefinition = versionDefinition(base);
   const model: EditedPipeline = { ...editorModel(baseDefinition), description: request.edit.description, onBadFile: request.edit.onBadFile, steps: request.edit.steps };
-  const { yaml, resolved } = validateEditedPipeline(model, base.sourcePath ? path.dirname(base.sourcePath) : process.cwd());
+  const checked = validateEditedPipeline(model, base.sourcePath ? path.dirname(base.sourcePath) : process.cwd());
+  // The text recorded is the canonical file of what was validated (settings complete, in schema
+  // order): the file the pipeline page shows and offers, so running it from the command line
+  // finds this very version (same text, same definition) instead of recording another.
+  const yaml = pipelineYaml(editorModel(checked.resolved));
+  const resolved = parsePipelineText(yaml, editedFileLabel(model), os.tmpdir());
+  if (canonicalJson(resolved) !== canonicalJson(checked.resolved)) {
+    throw new AppError("internal", `The pipeline file written for ${pipeline.name} does not read back as the pipeline checked`);
+  }
   const changes = describeDifference(diffPipelines(baseDefinition, resolved));
   const { survey } = ensureSurvey(db, resolved.survey, resolved.profile);
   const saved = savePipelineVersion(db, {

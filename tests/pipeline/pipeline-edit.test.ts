@@ -155,7 +155,8 @@ describe("saving an edit", () => {
     const model = editorModel(JSON.parse(v1.definitionJson) as ResolvedPipeline);
     const build = model.steps[0];
     const spacing = (build.settings.grid as { spacingM: number }).spacingM;
-    build.settings = { ...build.settings, grid: { ...(build.settings.grid as object), spacingM: spacing * 2 } };
+    // Keys in another order than the schema's, as a form may send them.
+    build.settings = Object.fromEntries(Object.entries({ ...build.settings, grid: { ...(build.settings.grid as object), spacingM: spacing * 2 } }).reverse());
     const webActor = { userId: null, label: "Editor Person", door: "web" as const };
     const saved = savePipelineEdit(db, { pipelineId: v1.pipelineId, baseVersionId: v1.id, edit: { description: "changed", onBadFile: model.onBadFile, steps: model.steps }, actor: webActor });
     expect(saved.created).toBe(true);
@@ -165,6 +166,8 @@ describe("saving an edit", () => {
     // Never an overwrite: version 1 is as it was.
     expect(versions[1].definitionJson).toBe(v1.definitionJson);
     expect(versions[0].sourceText).toBe(saved.yaml);
+    // What is recorded is the canonical file of the version (what the pipeline page shows and offers).
+    expect(saved.yaml).toBe(pipelineYaml(editorModel(JSON.parse(versions[0].definitionJson) as ResolvedPipeline)));
     expect(versions[0].createdByLabel).toBe("Editor Person");
     const event = listAudit(db, { action: "pipeline.version", entityId: "edit-check" }).find((e) => e.actorLabel === "Editor Person");
     expect(event).toBeTruthy();
