@@ -97,7 +97,7 @@ export function listPipelineVersions(db: Db) {
 /** Pipelines with their newest version: number, when and by whom, and how many versions. */
 export function listPipelines(db: Db) {
   const stats = db
-    .select({ pipelineId: pipelineVersions.pipelineId, versions: count(), latest: max(pipelineVersions.version) })
+    .select({ pipelineId: pipelineVersions.pipelineId, versions: count().as("versions"), latest: max(pipelineVersions.version).as("latest") })
     .from(pipelineVersions)
     .groupBy(pipelineVersions.pipelineId)
     .as("stats");

@@ -11,7 +11,7 @@ import path from "node:path";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { closeDb, getDb } from "../../db/client";
 import { listAudit } from "../../db/queries/audit";
-import { getPipelineVersion, listVersionsOfPipeline } from "../../db/queries/pipelines";
+import { getPipelineVersion, listPipelines, listVersionsOfPipeline } from "../../db/queries/pipelines";
 import { canonicalJson } from "../../pipeline/artifact-codec";
 import { AppError } from "../../pipeline/errors";
 import { loadPipelineFile, parsePipelineText, type ResolvedPipeline } from "../../pipeline/pipeline-file";
@@ -175,6 +175,9 @@ describe("saving an edit", () => {
     expect(afterJson.version).toBe(2);
     expect(afterJson.changes).toContain(`build-model.grid.spacingM: ${spacing} → ${spacing * 2}`);
     expect(afterJson.changes).toContain('description: "" → "changed"');
+
+    const listed = listPipelines(db).find((p) => p.name === "edit-check")!;
+    expect(listed).toMatchObject({ versions: 2, latestVersion: 2, latestBy: "Editor Person", surveySlug: "edit-site" });
 
     const again = savePipelineEdit(db, { pipelineId: v1.pipelineId, baseVersionId: versions[0].id, edit: { description: "changed", onBadFile: model.onBadFile, steps: model.steps }, actor: webActor });
     expect(again.created).toBe(false);
