@@ -310,6 +310,20 @@ describe("bad input is a 4xx naming the field, never a 500", () => {
     }
   });
 
+  it("a prototype key in an edited pipeline's settings: refused naming it, nothing saved", async () => {
+    const { savePipeline } = await import("@/app/lib/actions/pipelines");
+    const db = getDb();
+    const pv = getPipelineVersion(db, fx.pipelineVersionId)!;
+    const newest = listVersionsOfPipeline(db, pv.pipeline.id)[0];
+    const model = editorModel(versionDefinition(newest));
+    await signInAs(users.processor);
+    const steps = model.steps.map((s) => (s.label === "scale" ? { ...s, settings: JSON.parse('{"factor":5,"constructor":1}') as Record<string, unknown> } : s));
+    const state = await savePipeline({ pipelineId: pv.pipeline.id, baseVersionId: newest.id, description: model.description, onBadFile: model.onBadFile, steps });
+    const i = model.steps.findIndex((s) => s.label === "scale");
+    expect(state.fields).toEqual({ [`steps[${i}].settings.constructor`]: expect.stringMatching(/not allowed/) });
+    expect(listVersionsOfPipeline(db, pv.pipeline.id)[0].id).toBe(newest.id);
+  });
+
   it("a step label with a % that is not an escape: 404 naming the label, not 500", async () => {
     // Next hands route handlers their params already decoded (a literal "%E0%A4%A" in the URL
     // arrives as that text when it cannot be decoded); decoding again threw URIError.

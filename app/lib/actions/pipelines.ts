@@ -10,6 +10,7 @@ import { revalidatePath } from "next/cache";
 import { z } from "zod";
 import { getDb } from "@/db/client";
 import { editFieldError, savePipelineEdit } from "@/pipeline/pipeline-edit";
+import { rejectPrototypeKeys } from "../api";
 import { requirePermission, webActor } from "../session";
 import { errorState, type FormState } from "./form-state";
 
@@ -42,6 +43,8 @@ export interface PipelineSaveState extends FormState {
 export async function savePipeline(input: z.input<typeof editSchema>): Promise<PipelineSaveState> {
   try {
     const user = await requirePermission("pipelines.edit");
+    // As the route handlers do: keys that reach a prototype are refused by name, not dropped.
+    rejectPrototypeKeys((input as { steps?: unknown } | null)?.steps, "steps");
     const body = editSchema.parse(input);
     const saved = savePipelineEdit(getDb(), {
       pipelineId: body.pipelineId,
