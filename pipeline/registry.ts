@@ -70,18 +70,36 @@ export function getStep(id: string): AnyStepDefinition {
   return step;
 }
 
-/** A parameter of a step as people see it (CLI listing, rerun form). */
+/** A parameter of a step as people see it (CLI listing, rerun form, pipeline editor). */
 export interface ParamDoc {
   name: string;
   type: "number" | "integer" | "boolean" | "string" | "enum" | "array" | "object";
   default?: unknown;
   description: string;
   choices?: string[];
+  /** The choices as the schema holds them (numbers stay numbers, e.g. a mains frequency of 0, 50 or 60 Hz). */
+  choiceValues?: unknown[];
   minimum?: number;
   maximum?: number;
+  /** True when the limit itself is refused (zod's `.positive()`, `.gt()`). */
+  exclusiveMinimum?: boolean;
+  exclusiveMaximum?: boolean;
   optional: boolean;
+  /** The setting may be null (the description says what null means). */
+  nullable?: boolean;
   /** For an array of objects (e.g. the inversion's stages): the documentation of each item's fields. */
   items?: ParamDoc[];
+  /** For an array of objects of several kinds (e.g. a model's shapes): one entry per kind, told apart by `key`. */
+  variants?: Array<{ key: string; tag: string; fields: ParamDoc[] }>;
+  /** For an array of plain values or of fixed-length tuples: the documentation of one element. */
+  element?: ParamDoc;
+  /** For a fixed-length tuple (e.g. a picked point [frequency Hz, velocity m/s]): one entry per position. */
+  tuple?: ParamDoc[];
+  /** Smallest and largest number of elements of an array. */
+  minItems?: number;
+  maxItems?: number;
+  /** For an object: the documentation of its fields (e.g. a model's grid). */
+  fields?: ParamDoc[];
 }
 
 type JsonSchema = {
@@ -96,10 +114,13 @@ type JsonSchema = {
   maximum?: number;
   exclusiveMinimum?: number;
   exclusiveMaximum?: number;
+  minItems?: number;
+  maxItems?: number;
   anyOf?: JsonSchema[];
   oneOf?: JsonSchema[];
   allOf?: JsonSchema[];
-  items?: JsonSchema;
+  items?: JsonSchema | false;
+  prefixItems?: JsonSchema[];
 };
 
 /** JSON Schema of a step's parameters (input side: defaults make fields optional). */
@@ -120,36 +141,74 @@ function kindOf(s: JsonSchema): ParamDoc["type"] {
   return "object";
 }
 
-/** Describes each parameter of a step: type, default, unit-bearing description, choices, limits. */
+/** Describes each parameter of a step: type, default, unit-bearing description, choices, limits, and the parts of lists and objects. */
 export function describeParams(step: StepDefinition): ParamDoc[] {
   return describeProperties(paramsJsonSchema(step));
 }
 
-/** Documentation of the properties of an object schema (recursing into arrays of objects). */
+/** Documentation of the properties of an object schema (recursing into objects, lists and tuples). */
 function describeProperties(schema: JsonSchema): ParamDoc[] {
   const props = schema.properties ?? {};
   const required = new Set(schema.required ?? []);
-  return Object.entries(props).map(([name, p]) => {
-    const alt = p.anyOf ?? p.oneOf;
-    const choices = p.enum
-      ? p.enum.map(String)
-      : alt && alt.every((a) => a.const !== undefined || a.enum)
-        ? alt.flatMap((a) => (a.enum ? a.enum.map(String) : [String(a.const)]))
-        : undefined;
-    const min = p.minimum ?? p.exclusiveMinimum;
-    const max = p.maximum ?? p.exclusiveMaximum;
-    const type = kindOf(p);
-    const items = type === "array" && p.items?.properties ? describeProperties(p.items) : undefined;
-    return {
-      name,
-      type,
-      default: p.default,
-      description: p.description ?? "",
-      ...(choices ? { choices } : {}),
-      ...(min !== undefined ? { minimum: min } : {}),
-      ...(max !== undefined ? { maximum: max } : {}),
-      optional: !required.has(name) || p.default !== undefined,
-      ...(items ? { items } : {}),
-    };
-  });
+  return Object.entries(props).map(([name, p]) => describeNode(name, p, required.has(name)));
+}
+
+/** A schema without its "or null" alternative, and whether it had one. */
+function withoutNull(p: JsonSchema): { inner: JsonSchema; nullable: boolean } {
+  if (Array.isArray(p.type) && p.type.includes("null")) {
+    const rest = p.type.filter((t) => t !== "null");
+    return { inner: { ...p, type: rest.length === 1 ? rest[0] : rest }, nullable: true };
+  }
+  const alt = p.anyOf ?? p.oneOf;
+  if (alt && alt.some((a) => a.type === "null")) {
+    const rest = alt.filter((a) => a.type !== "null");
+    const { anyOf: _a, oneOf: _o, ...own } = p;
+    void _a;
+    void _o;
+    return { inner: rest.length === 1 ? { ...rest[0], ...own } : { ...own, anyOf: rest }, nullable: true };
+  }
+  return { inner: p, nullable: false };
+}
+
+function describeNode(name: string, p: JsonSchema, isRequired: boolean): ParamDoc {
+  const { inner, nullable } = withoutNull(p);
+  const alt = inner.anyOf ?? inner.oneOf;
+  const choiceValues = inner.enum
+    ? inner.enum
+    : alt && alt.every((a) => a.const !== undefined || a.enum)
+      ? alt.flatMap((a) => (a.enum ? a.enum : [a.const]))
+      : undefined;
+  const min = inner.minimum ?? inner.exclusiveMinimum;
+  const max = inner.maximum ?? inner.exclusiveMaximum;
+  const type = kindOf(inner);
+  const doc: ParamDoc = {
+    name,
+    type,
+    default: p.default,
+    description: p.description ?? inner.description ?? "",
+    ...(choiceValues ? { choices: choiceValues.map(String), choiceValues } : {}),
+    ...(min !== undefined ? { minimum: min } : {}),
+    ...(max !== undefined ? { maximum: max } : {}),
+    ...(inner.minimum === undefined && inner.exclusiveMinimum !== undefined ? { exclusiveMinimum: true } : {}),
+    ...(inner.maximum === undefined && inner.exclusiveMaximum !== undefined ? { exclusiveMaximum: true } : {}),
+    optional: !isRequired || p.default !== undefined,
+    ...(nullable ? { nullable } : {}),
+  };
+  if (type === "object" && inner.properties) doc.fields = describeProperties(inner);
+  if (type === "array") {
+    if (inner.minItems !== undefined) doc.minItems = inner.minItems;
+    if (inner.maxItems !== undefined) doc.maxItems = inner.maxItems;
+    if (inner.prefixItems) doc.tuple = inner.prefixItems.map((t, k) => describeNode(String(k), t, true));
+    const items = inner.items;
+    if (items && typeof items === "object") {
+      const kinds = items.oneOf ?? items.anyOf;
+      if (items.properties) doc.items = describeProperties(items);
+      else if (kinds && kinds.length > 0 && kinds.every((k) => k.properties)) {
+        // Objects told apart by one field that holds a constant in each (e.g. kind: rectangle | ellipse | polygon).
+        const key = Object.keys(kinds[0].properties!).find((k) => kinds.every((v) => v.properties?.[k]?.const !== undefined)) ?? "kind";
+        doc.variants = kinds.map((v) => ({ key, tag: String(v.properties?.[key]?.const ?? ""), fields: describeProperties(v) }));
+      } else doc.element = describeNode("item", items, true);
+    }
+  }
+  return doc;
 }

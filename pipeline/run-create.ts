@@ -27,7 +27,7 @@ import { planRerun, type RecordedStep } from "./settings";
 export type { Actor };
 
 /** Hash of the pipeline definition and its text: same content, same version. */
-function pipelineContentHash(text: string, resolved: ResolvedPipeline): string {
+export function pipelineContentHash(text: string, resolved: ResolvedPipeline): string {
   return sha256Hex(canonicalJson({ text, resolved }));
 }
 

@@ -124,6 +124,7 @@ async function main() {
   }
   const origin = `http://${host}:${port}`;
   say(`\nControl room: ${origin}  (Ctrl-C to stop)`);
+  showPipelinePages(origin);
   const server = execa(path.join(projectRoot, "node_modules", ".bin", "next"), ["start", "-H", host, "-p", String(port)], {
     cwd: projectRoot,
     stdio: "inherit",
@@ -134,6 +135,11 @@ async function main() {
   process.on("SIGINT", stop);
   process.on("SIGTERM", stop);
   await server;
+}
+
+/** Where the pipelines are edited: the list, each pipeline's versions and differences, the editor (processors and leads). */
+function showPipelinePages(origin: string) {
+  say(`  Pipelines (versions, who saved each, differences, pipeline files; the editor for processors and leads): ${origin}/pipelines`);
 }
 
 main().catch((err) => {

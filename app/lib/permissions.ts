@@ -92,6 +92,7 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "GET /api/artifacts/[hash]/spectra": "runs.read",
   "GET /api/artifacts/[hash]/traces": "runs.read",
   "GET /api/audit": "audit.read",
+  "GET /api/pipeline-versions/[versionId]/yaml": "runs.read",
   "GET /api/auth/[...nextauth]": "public",
   "POST /api/auth/[...nextauth]": "public",
 };
@@ -103,6 +104,7 @@ export const ACTION_REQUIREMENTS: Record<string, Requirement> = {
   changeActive: "users.manage",
   changeOwnPassword: "signed-in",
   decideRun: "runs.review",
+  savePipeline: "pipelines.edit",
 };
 
 /** True when `role` (null: nobody signed in) meets `requirement`. */

@@ -24,6 +24,8 @@ import { artifacts, ROLES, type Role } from "@/db/schema";
 import { seedDemoUsers } from "@/db/seed";
 import { getUserByEmail } from "@/db/queries/users";
 import { getRun } from "@/db/queries/runs";
+import { getPipelineVersion, listVersionsOfPipeline } from "@/db/queries/pipelines";
+import { editorModel, versionDefinition } from "@/pipeline/pipeline-edit";
 import { writeArtifact } from "@/pipeline/artifact-store";
 import { executeRun } from "@/pipeline/runner";
 import { createRun } from "@/pipeline/run-create";
@@ -86,6 +88,7 @@ const CASES: Record<string, Case> = {
   "GET /api/artifacts/[hash]/spectra": () => ({ url: `/api/artifacts/${fx.spectra}/spectra`, params: { hash: fx.spectra } }),
   "GET /api/artifacts/[hash]/traces": () => ({ url: `/api/artifacts/${fx.gathers}/traces`, params: { hash: fx.gathers } }),
   "GET /api/audit": () => ({ url: "/api/audit" }),
+  "GET /api/pipeline-versions/[versionId]/yaml": () => ({ url: `/api/pipeline-versions/${fx.pipelineVersionId}/yaml`, params: { versionId: String(fx.pipelineVersionId) } }),
   "GET /api/auth/[...nextauth]": () => ({ url: "/api/auth/providers", params: { nextauth: ["providers"] } }),
   "POST /api/auth/[...nextauth]": () => ({ url: "/api/auth/_log", body: {}, params: { nextauth: ["_log"] } }),
 };
@@ -212,7 +215,10 @@ const ACTION_INPUT: Record<string, () => FormData> = {
   changeActive: () => form({ userId: String(users.auditor.id), active: "true" }),
   changeOwnPassword: () => form({ current: demoPasswords[currentRole!], next: `${demoPasswords[currentRole!]}-2`, repeat: `${demoPasswords[currentRole!]}-2` }),
   decideRun: () => form({ runId: String(fx.runId), decision: "returned", comment: `matrix check ${++reviewCount}` }),
+  // Each allowed save changes the scale factor, so each makes a new version on the newest one.
+  savePipeline: () => form({ factor: String(10 + ++saved) }),
 };
+let saved = 0;
 let currentRole: Role | null = null;
 const demoPasswords = {} as Record<Role, string>;
 
@@ -222,12 +228,21 @@ describe("server actions × roles", () => {
       const allowed = meets(role, requirement);
       it(`${name} as ${role ?? "nobody"}: ${allowed ? "done" : "refused"}`, async () => {
         const { decideRun } = await import("@/app/lib/actions/reviews");
+        const { savePipeline } = await import("@/app/lib/actions/pipelines");
         const actions = {
           ...(await import("@/app/lib/actions/users")),
           ...(await import("@/app/lib/actions/password")),
           // decideRun takes its input as an object (the approve button calls it directly).
           decideRun: (_prev: FormState, f: FormData) =>
             decideRun({ runId: Number(f.get("runId")), decision: f.get("decision") as "approved" | "returned", comment: String(f.get("comment")) }),
+          // savePipeline takes the editor's model: the matrix pipeline's newest version with the scale factor changed.
+          savePipeline: (_prev: FormState, f: FormData) => {
+            const pv = getPipelineVersion(getDb(), fx.pipelineVersionId)!;
+            const newest = listVersionsOfPipeline(getDb(), pv.pipeline.id)[0];
+            const model = editorModel(versionDefinition(newest));
+            const steps = model.steps.map((s) => (s.label === "scale" ? { ...s, settings: { ...s.settings, factor: Number(f.get("factor")) } } : s));
+            return savePipeline({ pipelineId: pv.pipeline.id, baseVersionId: newest.id, description: model.description, onBadFile: model.onBadFile, steps });
+          },
         } as unknown as Record<string, (prev: FormState, f: FormData) => Promise<FormState>>;
         currentRole = role;
         if (role === null) signOut();
@@ -295,6 +310,20 @@ describe("bad input is a 4xx naming the field, never a 500", () => {
     }
   });
 
+  it("a prototype key in an edited pipeline's settings: refused naming it, nothing saved", async () => {
+    const { savePipeline } = await import("@/app/lib/actions/pipelines");
+    const db = getDb();
+    const pv = getPipelineVersion(db, fx.pipelineVersionId)!;
+    const newest = listVersionsOfPipeline(db, pv.pipeline.id)[0];
+    const model = editorModel(versionDefinition(newest));
+    await signInAs(users.processor);
+    const steps = model.steps.map((s) => (s.label === "scale" ? { ...s, settings: JSON.parse('{"factor":5,"constructor":1}') as Record<string, unknown> } : s));
+    const state = await savePipeline({ pipelineId: pv.pipeline.id, baseVersionId: newest.id, description: model.description, onBadFile: model.onBadFile, steps });
+    const i = model.steps.findIndex((s) => s.label === "scale");
+    expect(state.fields).toEqual({ [`steps[${i}].settings.constructor`]: expect.stringMatching(/not allowed/) });
+    expect(listVersionsOfPipeline(db, pv.pipeline.id)[0].id).toBe(newest.id);
+  });
+
   it("a step label with a % that is not an escape: 404 naming the label, not 500", async () => {
     // Next hands route handlers their params already decoded (a literal "%E0%A4%A" in the URL
     // arrives as that text when it cannot be decoded); decoding again threw URIError.
@@ -303,5 +332,39 @@ describe("bad input is a 4xx naming the field, never a 500", () => {
     const res = await mod.GET(new Request(`${ORIGIN}/api/runs/${fx.runId}/steps/%25E0%25A4%25A`), { params: Promise.resolve({ runId: String(fx.runId), stepLabel: "%E0%A4%A" }) });
     expect(res.status).toBe(404);
     expect((await res.json()).error.message).toContain('no step "%E0%A4%A"');
+  });
+});
+
+describe("the pipeline editor for an auditor (reads everything, changes nothing)", () => {
+  it("saving is refused with the role's message and records no version and no audit event", async () => {
+    const { savePipeline } = await import("@/app/lib/actions/pipelines");
+    const { listAudit } = await import("@/db/queries/audit");
+    const db = getDb();
+    const pv = getPipelineVersion(db, fx.pipelineVersionId)!;
+    const newest = listVersionsOfPipeline(db, pv.pipeline.id)[0];
+    const model = editorModel(versionDefinition(newest));
+    const versionsBefore = listVersionsOfPipeline(db, pv.pipeline.id).length;
+    const auditBefore = listAudit(db, {}).length;
+    await signInAs(users.auditor);
+    const steps = model.steps.map((s) => (s.label === "scale" ? { ...s, settings: { ...s.settings, factor: 99 } } : s));
+    const state = await savePipeline({ pipelineId: pv.pipeline.id, baseVersionId: newest.id, description: model.description, onBadFile: model.onBadFile, steps });
+    expect(state.error).toBe("The auditor role may not edit pipelines.");
+    expect(listVersionsOfPipeline(db, pv.pipeline.id).length).toBe(versionsBefore);
+    expect(listAudit(db, {}).length).toBe(auditBefore);
+  });
+
+  it("the editor page answers 403 (Next's forbidden()), the pipeline page opens", async () => {
+    // next build sets this from next.config.mjs (experimental.authInterrupts); a unit test sets it itself.
+    process.env.__NEXT_EXPERIMENTAL_AUTH_INTERRUPTS = "true";
+    await signInAs(users.auditor);
+    const pv = getPipelineVersion(getDb(), fx.pipelineVersionId)!;
+    const params = Promise.resolve({ pipelineId: String(pv.pipeline.id) });
+    const edit = (await import("@/app/(control)/pipelines/[pipelineId]/edit/page")).default;
+    // forbidden() throws Next's HTTP fallback error, whose digest carries the status the page answers.
+    await expect(edit({ params })).rejects.toMatchObject({ digest: "NEXT_HTTP_ERROR_FALLBACK;403" });
+    const view = (await import("@/app/(control)/pipelines/[pipelineId]/page")).default;
+    await expect(view({ params, searchParams: Promise.resolve({}) })).resolves.toBeTruthy();
+    await signInAs(users.processor);
+    await expect(edit({ params })).resolves.toBeTruthy();
   });
 });

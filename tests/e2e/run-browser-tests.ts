@@ -12,6 +12,7 @@ import fs from "node:fs";
 import os from "node:os";
 import path from "node:path";
 import { build } from "esbuild";
+import { execa } from "execa";
 import type { Page } from "playwright-core";
 import { DEMO_ACCOUNTS } from "../../db/seed";
 import { ensureBuild, pageLoadMs, prepareData, projectRoot, signIn, startBrowser, startMailCatcher, startServer } from "./harness";
@@ -459,6 +460,87 @@ async function main() {
       await page.waitForSelector("[data-testid=param-diff]");
       check((await page.locator("[data-differs=yes]").count()) >= 1, "no differing setting shown");
       await shoot(page, "compare");
+    });
+
+    await test("pipeline editor: a band-pass corner changed and saved as a new version; the diff shows it; the YAML runs from the command line", async () => {
+      await signIn(page, origin, account("processor").email, account("processor").password);
+      await goto(page, `${origin}/pipelines`, "pipelines");
+      const link = page.locator("[data-testid=pipeline-row-quillmoor-qm1-processing] a");
+      check(await link.count(), "the processing pipeline is not listed");
+      await link.click();
+      await page.waitForSelector("[data-testid=versions-table]");
+      const pipelineUrl = page.url().split("?")[0];
+      const versionsBefore = await page.locator("[data-testid^=version-row-]").count();
+      await page.click("[data-testid=edit-pipeline]");
+      await page.waitForSelector("[data-testid=pipeline-editor]");
+      const filterStep = page.locator("[data-testid=editor-step-frequency-filter]");
+      await page.click("[data-testid=editor-toggle-frequency-filter]");
+      const corner = filterStep.locator("[data-setting$='.settings.highCutHz'] input");
+      await corner.waitFor();
+      const before = Number(await corner.inputValue());
+      check(before > 0, `the high corner reads ${before}`);
+      // A corner the schema refuses: the engine's pipeline-file message, beside the field it names.
+      await corner.fill("-5");
+      await page.click("[data-testid=save-pipeline]");
+      await page.waitForSelector("[data-testid=editor-error]");
+      const cliMessage = (await page.textContent("[data-testid=editor-error]")) ?? "";
+      check(/quillmoor-qm1-processing\.yaml line \d+, steps\[\d+\]\.settings\.highCutHz: /.test(cliMessage), `not the pipeline-file error: ${cliMessage}`);
+      check(await filterStep.locator("[data-testid$='.settings.highCutHz']").count(), "no field error beside the corner");
+      // Reorder and back: the up/down buttons move the step.
+      await page.click("[data-testid=editor-down-frequency-filter]");
+      const order = await page.locator("[data-testid=editor-steps] > li").evaluateAll((els) => els.map((e) => e.getAttribute("data-testid")));
+      check(order.indexOf("editor-step-frequency-filter") === order.indexOf("editor-step-spectra") + 1, `moving down did not move the filter below spectra: ${order.join(", ")}`);
+      await page.click("[data-testid=editor-up-frequency-filter]");
+      const after = before === 75 ? 70 : 75;
+      await corner.fill(String(after));
+      await shoot(page, "pipeline-editor");
+      await page.click("[data-testid=save-pipeline]");
+      await page.waitForURL(/\/pipelines\/\d+\?from=\d+&to=\d+/, { timeout: 20_000 });
+      const toId = Number(new URL(page.url()).searchParams.get("to"));
+      check((await page.locator("[data-testid^=version-row-]").count()) === versionsBefore + 1, "saving did not add one version");
+      const newest = page.locator("[data-testid^=version-row-]").first();
+      check(((await newest.textContent()) ?? "").includes(account("processor").name), "the new version does not name who saved it");
+      const diffStep = page.locator("[data-testid=diff-step-frequency-filter]");
+      check((await diffStep.getAttribute("data-status")) === "changed", "the diff does not mark the filter changed");
+      const change = (await diffStep.locator("[data-testid='diff-change-frequency-filter.highCutHz']").textContent()) ?? "";
+      check(change.includes(`${before} Hz`) && change.includes(`${after} Hz`), `the diff does not show ${before} → ${after}: ${change}`);
+      check((await page.locator("[data-testid=pipeline-diff] [data-status=changed]").count()) === 1, "more than the filter differs");
+      await page.locator("[data-testid=version-diff]").scrollIntoViewIfNeeded();
+      await shoot(page, "pipeline-diff");
+      // The pipeline file of the new version, as shown and as downloaded, runs from the command line.
+      const shown = (await page.textContent("[data-testid=pipeline-yaml]")) ?? "";
+      const res = await page.request.get(`${origin}/api/pipeline-versions/${toId}/yaml`);
+      check(res.ok(), `YAML download answered ${res.status()}`);
+      const yaml = await res.text();
+      check(yaml === shown, "the downloaded pipeline file differs from the one shown");
+      check(new RegExp(`highCutHz: ${after}\\b`).test(yaml), "the pipeline file lacks the new corner");
+      const file = path.join(dataDir, `edited-${toId}.yaml`);
+      fs.writeFileSync(file, yaml);
+      const fieldDir = path.join(dataDir, "examples", "quillmoor", "field");
+      const run = await execa(process.execPath, ["--import", "tsx", path.join(projectRoot, "cli", "index.ts"), "run", file, "--field-data", fieldDir, "--as", account("processor").email], {
+        cwd: projectRoot,
+        env: { ...process.env, TRACEWRIGHT_DATA_DIR: dataDir },
+        reject: false,
+      });
+      check(run.exitCode === 0, `the command line refused the edited pipeline (exit ${run.exitCode}): ${(run.stderr || run.stdout).slice(-600)}`);
+      const newestRun = (await apiRuns(page, origin)).rows.at(-1)!;
+      const detail = await apiRun(page, origin, newestRun.id);
+      check(detail.status === "succeeded", `the command-line run ended ${detail.status}`);
+      check(detail.steps.find((s) => s.stepId === "frequency-filter")?.params.highCutHz === after, "the command-line run did not use the new corner");
+      // Same content, same version: the command line recorded no new version for the editor's file.
+      await goto(page, pipelineUrl);
+      check((await page.locator("[data-testid^=version-row-]").count()) === versionsBefore + 1, "running the saved pipeline file made another version");
+      // The audit trail names who changed what.
+      await goto(page, `${origin}/audit?action=pipeline.version`);
+      const audit = (await page.textContent("[data-testid=audit-table]")) ?? "";
+      check(audit.includes(account("processor").name), "the audit trail does not name who saved the version");
+      // An auditor reads the pipeline and may not edit it: no Edit button, the editor answers 403.
+      await signIn(page, origin, account("auditor").email, account("auditor").password);
+      await goto(page, pipelineUrl);
+      check((await page.locator("[data-testid=edit-pipeline]").count()) === 0, "auditor sees the Edit button");
+      const refused = await page.goto(`${pipelineUrl}/edit`);
+      check(refused?.status() === 403, `the editor answered ${refused?.status()} to an auditor`);
+      check((await page.textContent("body"))?.includes("Not allowed for your role"), "editor page not refused");
     });
 
     await test("auditor: no rerun button, and the rerun API answers 403 with a message", async () => {

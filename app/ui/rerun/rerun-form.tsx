@@ -8,7 +8,7 @@ import { z } from "zod";
 import { ApiError, postJson } from "@/app/lib/queries";
 import type { ParamDoc } from "@/pipeline/registry";
 import { readableName, unitOfDescription } from "@/app/ui/format";
-import { ObjectListField } from "./object-list-field";
+import { StructuredSettingField } from "./object-list-field";
 
 interface StepForm {
   label: string;
@@ -166,7 +166,7 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
               const unit = unitOf(d);
               const err = errorOf(s.label, d.name);
               return (
-                <div key={d.name} className={d.items ? "md:col-span-2" : undefined}>
+                <div key={d.name} className={isJsonKind(d) ? "md:col-span-2" : undefined}>
                   <label htmlFor={id} className="label">
                     <span className="text-ink">{readableName(d.name).words}</span>{unit ? <span className="ml-1 muted">({unit})</span> : null}
                     <span className="ml-2 font-mono text-[10px] text-ink-faint">{d.name}</span>
@@ -179,10 +179,8 @@ export function RerunForm({ runId, steps, initialFrom }: { runId: number; steps:
                     </select>
                   ) : d.type === "number" || d.type === "integer" ? (
                     <input id={id} type="number" step="any" className="field mt-1" placeholder={s.params[d.name] === null ? "not set" : undefined} aria-invalid={Boolean(err)} {...register(name, { valueAsNumber: true })} />
-                  ) : d.items ? (
-                    <ObjectListField id={id} name={name} docs={d.items} control={form.control as never} noun={d.name === "stages" ? "stage" : "item"} />
                   ) : isJsonKind(d) ? (
-                    <textarea id={id} className="field mt-1 h-16 font-mono text-xs" {...register(name)} />
+                    <StructuredSettingField id={id} name={name} doc={d} control={form.control as never} />
                   ) : (
                     <input id={id} type="text" className="field mt-1" {...register(name)} />
                   )}

@@ -9,16 +9,19 @@ interface Props {
   surveys: Array<{ id: number; name: string }>;
   datasets: Array<{ id: number; surveyId: number | null; name: string; fileCount: number; contentHash: string; createdAt: number }>;
   versions: Array<{ id: number; name: string; version: number; surveyId: number | null; createdBy: string; createdAt: number }>;
+  /** A version chosen beforehand (the pipeline page's "Run this version"). */
+  initialVersionId?: number;
 }
 
 /** Survey → dataset → pipeline version, then queue the run through the engine. */
-export function StartRunForm({ surveys, datasets, versions }: Props) {
+export function StartRunForm({ surveys, datasets, versions, initialVersionId }: Props) {
   const router = useRouter();
-  const [surveyId, setSurveyId] = useState<number | null>(surveys[0]?.id ?? null);
+  const initialSurvey = versions.find((v) => v.id === initialVersionId)?.surveyId;
+  const [surveyId, setSurveyId] = useState<number | null>(initialSurvey ?? surveys[0]?.id ?? null);
   const ds = datasets.filter((d) => surveyId === null || d.surveyId === surveyId);
   const pv = versions.filter((v) => surveyId === null || v.surveyId === surveyId || v.surveyId === null);
   const [datasetId, setDatasetId] = useState<number | null>(ds[0]?.id ?? null);
-  const [versionId, setVersionId] = useState<number | null>(pv[0]?.id ?? null);
+  const [versionId, setVersionId] = useState<number | null>(pv.find((v) => v.id === initialVersionId)?.id ?? pv[0]?.id ?? null);
   const [error, setError] = useState<string | null>(null);
   const [busy, setBusy] = useState(false);
 

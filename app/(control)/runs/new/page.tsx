@@ -9,8 +9,9 @@ import { StartRunForm } from "@/app/ui/runs/start-run-form";
 export const metadata: Metadata = { title: "Start a run" };
 export const dynamic = "force-dynamic";
 
-export default async function StartRunPage() {
+export default async function StartRunPage({ searchParams }: { searchParams: Promise<{ version?: string }> }) {
   await pageUserWith("runs.start");
+  const wanted = Number((await searchParams).version);
   const db = getDb();
   const surveys = listSurveys(db).map((s) => ({ id: s.id, name: s.name }));
   const datasets = listDatasets(db).map((d) => ({ id: d.id, surveyId: d.surveyId, name: d.name, fileCount: d.fileCount, contentHash: d.contentHash, createdAt: d.createdAt.getTime() }));
@@ -21,7 +22,7 @@ export default async function StartRunPage() {
         <h1>Start a run</h1>
         <p className="text-ink-soft">Choose the field data and the pipeline version. The engine runs it in the background on the server&apos;s worker pool; the run page follows it live.</p>
       </div>
-      <StartRunForm surveys={surveys} datasets={datasets} versions={versions} />
+      <StartRunForm surveys={surveys} datasets={datasets} versions={versions} initialVersionId={versions.some((v) => v.id === wanted) ? wanted : undefined} />
     </div>
   );
 }
