@@ -3,6 +3,7 @@
  * cli/commands/<verb>.ts.
  */
 import { Command } from "commander";
+import { registerAudit } from "./commands/audit";
 import { registerBench } from "./commands/bench";
 import { registerCancel } from "./commands/cancel";
 import { registerExport } from "./commands/export";
@@ -38,6 +39,7 @@ registerExport(program);
 registerUsers(program);
 registerMigrate(program);
 registerBench(program);
+registerAudit(program);
 
 await program.parseAsync(process.argv);
 closeDb();
