@@ -9,6 +9,7 @@ import { registerCancel } from "./commands/cancel";
 import { registerExport } from "./commands/export";
 import { registerMigrate } from "./commands/migrate";
 import { registerRerun } from "./commands/rerun";
+import { registerReproduce } from "./commands/reproduce";
 import { registerResume } from "./commands/resume";
 import { registerRun } from "./commands/run";
 import { registerRuns } from "./commands/runs";
@@ -31,6 +32,7 @@ const program = new Command()
 registerRun(program);
 registerRerun(program);
 registerResume(program);
+registerReproduce(program);
 registerCancel(program);
 registerRuns(program);
 registerWatch(program);
