@@ -6,6 +6,7 @@ import type { Command } from "commander";
 import { reproduceRun, type ReproductionReport } from "../../pipeline/reproduce";
 import { DEFAULT_RELATIVE_TOLERANCE } from "../../pipeline/reproduce-compare";
 import { closeSharedWorkerPool } from "../../pipeline/workers/pool";
+import { getReproduction } from "../../db/queries/reproductions";
 import { AppError } from "../../pipeline/errors";
 import { action, formatDuration, openCliDb, parseId, printJson, resolveActor } from "../shared";
 
@@ -49,7 +50,12 @@ export function registerReproduce(program: Command): void {
         const db = openCliDb();
         const tolerance = Number(opts.tolerance);
         if (!Number.isFinite(tolerance) || tolerance < 0) throw new AppError("bad-input", `--tolerance must be a number ≥ 0, got "${opts.tolerance}"`, { field: "--tolerance" });
-        const actor = resolveActor(db, opts.as, "cli", { doing: "reproduce runs", roles: ["admin", "lead", "auditor"] });
+        // A reproduction requested in the control room is carried out for the person who asked.
+        const requested = opts.reproduction ? getReproduction(db, parseId(opts.reproduction, "--reproduction")) : null;
+        if (opts.reproduction && !requested) throw new AppError("not-found", `No reproduction ${opts.reproduction}`, { field: "--reproduction" });
+        const actor = requested
+          ? { userId: requested.requestedByUserId, label: requested.requestedByLabel, door: requested.door }
+          : resolveActor(db, opts.as, "cli", { doing: "reproduce runs", roles: ["admin", "lead", "auditor"] });
         const interactive = Boolean(process.stderr.isTTY) && !opts.json;
         let lastMessage = "";
         try {
@@ -58,7 +64,7 @@ export function registerReproduce(program: Command): void {
             relativeTolerance: tolerance,
             scratchDir: opts.scratch,
             keepScratch: opts.keepScratch,
-            reproductionId: opts.reproduction ? parseId(opts.reproduction, "--reproduction") : undefined,
+            reproductionId: requested?.id,
             // The same program executes the reproduction (it has the same steps registered).
             engineEntry: process.argv[1]?.endsWith(".ts") ? process.argv[1] : undefined,
             onProgress: (fraction, message) => {

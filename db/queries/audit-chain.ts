@@ -263,3 +263,20 @@ export function sealUnchainedAuditEvents(db: Db): { sealed: number } {
     { behavior: "immediate" },
   );
 }
+
+/**
+ * For exported events: each event's links and the exact text its hash is taken over, so anyone
+ * can check an exported event with any SHA-256 tool (sha256 of `text` = `hash`).
+ */
+export function chainRecords(db: Db, ids: number[]): Map<number, { prevHash: string | null; hash: string | null; text: string | null }> {
+  const out = new Map<number, { prevHash: string | null; hash: string | null; text: string | null }>();
+  const chunk = 500;
+  for (let i = 0; i < ids.length; i += chunk) {
+    const part = ids.slice(i, i + chunk);
+    const rows = db.all<RawRow>(
+      sql`select id, at, actor_user_id, actor_label, door, action, entity_type, entity_id, before_json, after_json, prev_hash, hash from audit_events where id in (${sql.join(part.map((id) => sql`${id}`), sql`, `)})`,
+    );
+    for (const r of rows) out.set(r.id, { prevHash: r.prev_hash, hash: r.hash, text: r.prev_hash === null ? null : canonicalEvent(r.prev_hash, fieldsOf(r)) });
+  }
+  return out;
+}

@@ -16,7 +16,7 @@ vi.mock("next/headers", () => ({ cookies: async () => cookieStore, headers: asyn
 vi.mock("next/cache", () => ({ revalidatePath: vi.fn() }));
 vi.mock("@/pipeline/launch", async (importOriginal) => {
   const actual = await importOriginal<typeof import("@/pipeline/launch")>();
-  return { ...actual, launchInBackground: vi.fn() };
+  return { ...actual, launchInBackground: vi.fn(), launchReproductionInBackground: vi.fn() };
 });
 
 import { closeDb, getDb } from "@/db/client";
@@ -212,6 +212,7 @@ const ACTION_INPUT: Record<string, () => FormData> = {
   changeActive: () => form({ userId: String(users.auditor.id), active: "true" }),
   changeOwnPassword: () => form({ current: demoPasswords[currentRole!], next: `${demoPasswords[currentRole!]}-2`, repeat: `${demoPasswords[currentRole!]}-2` }),
   decideRun: () => form({ runId: String(fx.runId), decision: "returned", comment: `matrix check ${++reviewCount}` }),
+  startReproduction: () => form({ runId: String(fx.runId) }),
 };
 let currentRole: Role | null = null;
 const demoPasswords = {} as Record<Role, string>;
@@ -222,12 +223,15 @@ describe("server actions × roles", () => {
       const allowed = meets(role, requirement);
       it(`${name} as ${role ?? "nobody"}: ${allowed ? "done" : "refused"}`, async () => {
         const { decideRun } = await import("@/app/lib/actions/reviews");
+        const { startReproduction } = await import("@/app/lib/actions/reproductions");
         const actions = {
           ...(await import("@/app/lib/actions/users")),
           ...(await import("@/app/lib/actions/password")),
           // decideRun takes its input as an object (the approve button calls it directly).
           decideRun: (_prev: FormState, f: FormData) =>
             decideRun({ runId: Number(f.get("runId")), decision: f.get("decision") as "approved" | "returned", comment: String(f.get("comment")) }),
+          // so does startReproduction (the reproduce button)
+          startReproduction: (_prev: FormState, f: FormData) => startReproduction({ runId: Number(f.get("runId")) }),
         } as unknown as Record<string, (prev: FormState, f: FormData) => Promise<FormState>>;
         currentRole = role;
         if (role === null) signOut();
