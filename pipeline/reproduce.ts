@@ -209,6 +209,8 @@ function prepareScratch(db: Db, runId: number, scratch: string, actor: Actor): {
   if (run.geometryTableHash) copyArtifact(run.geometryTableHash, scratch, "the run's geometry table");
 
   const sdb = openDatabase(path.join(scratch, "tracewright.db"));
+  // The scratch database has no users: the requester is recorded there by name only.
+  actor = { userId: null, label: actor.label, door: actor.door };
   try {
     const { version } = savePipelineVersion(sdb, {
       name: pv.pipeline.name,

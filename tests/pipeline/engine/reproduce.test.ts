@@ -12,6 +12,7 @@ import path from "node:path";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { closeDb, getDb, type Db } from "../../../db/client";
 import { listReproductions } from "../../../db/queries/reproductions";
+import { createUser } from "../../../db/queries/users";
 import { getRun } from "../../../db/queries/runs";
 import { encodeArtifact } from "../../../pipeline/artifact-codec";
 import { artifactFilePath, readArtifactSync } from "../../../pipeline/artifact-store";
@@ -24,7 +25,8 @@ import { mulberry32 } from "../../helpers/random";
 
 let tmp: string;
 let db: Db;
-const actor = { userId: null, label: "auditor-test", door: "cli" as const };
+/** An auditor with a user record (the scratch database has no users: it must not need them). */
+let actor: { userId: number | null; label: string; door: "cli" };
 
 /** A run of the small pipeline; each test its own band-pass corner, so no test sees another's (changed) artifacts. */
 async function freshRun(name: string, highCutHz: number): Promise<number> {
@@ -55,6 +57,8 @@ beforeAll(() => {
   process.env.TRACEWRIGHT_DATA_DIR = path.join(tmp, "data");
   delete process.env.TRACEWRIGHT_DB;
   db = getDb();
+  const auditor = createUser(db, { email: "auditor@example.org", name: "Audra Test", role: "auditor", password: "a-long-enough-password" });
+  actor = { userId: auditor.id, label: auditor.name, door: "cli" };
   writeQuillmoorSurvey(path.join(tmp, "field"), { sourcePoints: 3, blows: 2, channels: 12, recordLengthS: 0.2 });
 });
 
