@@ -153,6 +153,22 @@ describe("audit hash chain", () => {
     expect(switches).toBeGreaterThan(1);
   });
 
+  it("has one way in: nothing outside the chain module inserts audit events", () => {
+    const root = path.resolve(import.meta.dirname, "../..");
+    const offenders: string[] = [];
+    const walk = (dir: string) => {
+      for (const e of fs.readdirSync(dir, { withFileTypes: true })) {
+        const p = path.join(dir, e.name);
+        if (e.isDirectory()) walk(p);
+        else if (/\.(ts|tsx|mjs)$/.test(e.name) && p !== path.join(root, "db", "queries", "audit-chain.ts")) {
+          if (/insert\(\s*auditEvents\s*\)|insert\s+into\s+[`"']?audit_events/i.test(fs.readFileSync(p, "utf8"))) offenders.push(path.relative(root, p));
+        }
+      }
+    };
+    for (const d of ["app", "cli", "db", "pipeline", "scripts", "examples"]) walk(path.join(root, d));
+    expect(offenders).toEqual([]);
+  });
+
   it("starts the chain in a database written before it, and never seals an erased hash again", () => {
     record(3);
     db.$client.close();
