@@ -3,11 +3,13 @@
  * cli/commands/<verb>.ts.
  */
 import { Command } from "commander";
+import { registerAudit } from "./commands/audit";
 import { registerBench } from "./commands/bench";
 import { registerCancel } from "./commands/cancel";
 import { registerExport } from "./commands/export";
 import { registerMigrate } from "./commands/migrate";
 import { registerRerun } from "./commands/rerun";
+import { registerReproduce } from "./commands/reproduce";
 import { registerResume } from "./commands/resume";
 import { registerRun } from "./commands/run";
 import { registerRuns } from "./commands/runs";
@@ -30,6 +32,7 @@ const program = new Command()
 registerRun(program);
 registerRerun(program);
 registerResume(program);
+registerReproduce(program);
 registerCancel(program);
 registerRuns(program);
 registerWatch(program);
@@ -38,6 +41,7 @@ registerExport(program);
 registerUsers(program);
 registerMigrate(program);
 registerBench(program);
+registerAudit(program);
 
 await program.parseAsync(process.argv);
 closeDb();

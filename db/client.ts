@@ -9,6 +9,7 @@ import { drizzle, type BetterSQLite3Database } from "drizzle-orm/better-sqlite3"
 import { migrate } from "drizzle-orm/better-sqlite3/migrator";
 import * as schema from "./schema";
 import { databasePath, migrationsDir } from "./paths";
+import { sealUnchainedAuditEvents } from "./queries/audit-chain";
 
 export type Db = BetterSQLite3Database<typeof schema> & { $client: Database.Database };
 
@@ -24,6 +25,8 @@ export function openDatabase(file: string): Db {
   sqlite.pragma("synchronous = NORMAL");
   const db = drizzle(sqlite, { schema }) as Db;
   migrate(db, { migrationsFolder: migrationsDir() });
+  // A database written before the audit trail was a hash chain gets its chain started here.
+  sealUnchainedAuditEvents(db);
   return db;
 }
 

@@ -258,6 +258,13 @@ export const auditEvents = sqliteTable(
     entityId: text("entity_id").notNull(),
     beforeJson: text("before_json"),
     afterJson: text("after_json"),
+    /**
+     * Hash chain (db/queries/audit-chain.ts): `hash` of the event before this one (64 zeros for the
+     * first), and SHA-256 over this event's fields and `prev_hash`. Null only in databases made
+     * before the chain existed, until they are sealed on open.
+     */
+    prevHash: text("prev_hash"),
+    hash: text("hash"),
   },
   (t) => [index("audit_events_entity").on(t.entityType, t.entityId), index("audit_events_at").on(t.at)],
 );
@@ -333,3 +340,32 @@ export const stepCheckpoints = sqliteTable("step_checkpoints", {
   artifactHash: text("artifact_hash").notNull(),
   at: integer("at", { mode: "timestamp_ms" }).notNull().default(now),
 });
+
+/**
+ * Reproductions of a run: the run executed again from its recorded inputs and settings in a
+ * scratch data folder without the cache, every artifact compared (pipeline/reproduce.ts).
+ */
+export const runReproductions = sqliteTable(
+  "run_reproductions",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    runId: integer("run_id")
+      .notNull()
+      .references(() => runs.id),
+    requestedByUserId: integer("requested_by_user_id").references(() => users.id),
+    requestedByLabel: text("requested_by_label").notNull(),
+    door: text("door", { enum: DOORS }).notNull(),
+    /** "running" while it goes; then "identical", "within-tolerance", "different" or "failed". */
+    verdict: text("verdict", { enum: ["running", "identical", "within-tolerance", "different", "failed"] }).notNull().default("running"),
+    /** Progress while running (0..1) and what is being done. */
+    progress: real("progress").notNull().default(0),
+    progressMessage: text("progress_message"),
+    /** Per step and artifact: hashes, comparison, differences; the tolerance used. JSON. */
+    detailsJson: text("details_json"),
+    error: text("error"),
+    hostPid: integer("host_pid"),
+    startedAt: integer("started_at", { mode: "timestamp_ms" }).notNull().default(now),
+    finishedAt: integer("finished_at", { mode: "timestamp_ms" }),
+  },
+  (t) => [index("run_reproductions_run").on(t.runId, t.id)],
+);

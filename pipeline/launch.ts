@@ -35,3 +35,33 @@ export function launchInBackground(runId: number, onLaunchFailure?: (err: Error)
   child.unref();
   fs.closeSync(out);
 }
+
+/**
+ * Starts a detached `tracewright reproduce <run> --reproduction <id>` for a reproduction the
+ * control room recorded. Its output goes to <data>/logs/reproduction-<id>.log; progress and the
+ * verdict go to the reproduction's record.
+ */
+export function launchReproductionInBackground(runId: number, reproductionId: number, onLaunchFailure?: (err: Error) => void): void {
+  const logs = path.join(dataDir(), "logs");
+  fs.mkdirSync(logs, { recursive: true });
+  const log = path.join(logs, `reproduction-${reproductionId}.log`);
+  const out = fs.openSync(log, "a");
+  const cli = path.join(projectRoot, "cli", "index.ts");
+  const child = spawn(process.execPath, ["--import", "tsx", cli, "reproduce", String(runId), "--reproduction", String(reproductionId)], {
+    cwd: projectRoot,
+    detached: true,
+    stdio: ["ignore", out, out],
+    // The requester is recorded with the reproduction; the process acts for them.
+    env: { ...process.env, TRACEWRIGHT_DATA_DIR: dataDir() },
+  });
+  child.on("error", (err) => {
+    try {
+      fs.appendFileSync(log, `could not start the reproduction process: ${err.message}\n`);
+      onLaunchFailure?.(err);
+    } catch {
+      // the reproduction stays "running" with no process; the run page shows it as stopped
+    }
+  });
+  child.unref();
+  fs.closeSync(out);
+}

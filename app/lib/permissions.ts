@@ -19,6 +19,8 @@ export const PERMISSIONS = [
   "runs.review",
   /** Read the audit trail. */
   "audit.read",
+  /** Have a run executed again without the cache and its artifacts compared (leads and auditors). */
+  "runs.reproduce",
   /** Add and invite users, change roles, deactivate. */
   "users.manage",
 ] as const;
@@ -26,12 +28,12 @@ export type Permission = (typeof PERMISSIONS)[number];
 
 const PROCESSOR: Permission[] = ["runs.read", "runs.start", "runs.rerun", "runs.cancel", "pipelines.edit", "audit.read"];
 
-/** The table. An auditor reads everything and changes nothing. */
+/** The table. An auditor reads everything and changes nothing (a reproduction changes no result: it only checks one). */
 export const ROLE_PERMISSIONS: Record<Role, readonly Permission[]> = {
   admin: [...PERMISSIONS],
-  lead: [...PROCESSOR, "runs.review"],
+  lead: [...PROCESSOR, "runs.review", "runs.reproduce"],
   processor: PROCESSOR,
-  auditor: ["runs.read", "audit.read"],
+  auditor: ["runs.read", "audit.read", "runs.reproduce"],
 };
 
 /** Plain-language names of the roles for pages. */
@@ -57,6 +59,7 @@ export function forbiddenMessage(role: Role, permission: Permission): string {
     "pipelines.edit": "edit pipelines",
     "runs.review": "approve or send back runs",
     "audit.read": "read the audit trail",
+    "runs.reproduce": "reproduce runs",
     "users.manage": "manage users",
   };
   return `The ${ROLE_LABELS[role].toLowerCase()} role may not ${what[permission]}.`;
@@ -105,6 +108,7 @@ export const ACTION_REQUIREMENTS: Record<string, Requirement> = {
   changeOwnPassword: "signed-in",
   decideRun: "runs.review",
   savePipeline: "pipelines.edit",
+  startReproduction: "runs.reproduce",
 };
 
 /** True when `role` (null: nobody signed in) meets `requirement`. */

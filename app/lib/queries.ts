@@ -62,7 +62,7 @@ export const runQueries = {
       queryKey: ["run", runId],
       queryFn: () => getJson<RunView>(`/api/runs/${runId}`),
       initialData: initial,
-      refetchInterval: (q) => (live(q.state.data?.status) ? LIVE_POLL_MS : false),
+      refetchInterval: (q) => (live(q.state.data?.status) || q.state.data?.reproductions?.some((r) => r.verdict === "running") ? LIVE_POLL_MS : false),
     }),
   logs: (runId: number, runStepId: number | undefined, isLive: boolean) =>
     queryOptions({

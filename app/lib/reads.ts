@@ -5,12 +5,14 @@
 import "server-only";
 import { getDb } from "@/db/client";
 import { listIntermediates } from "@/db/queries/intermediates";
+import { listReproductions, type ReproductionRecord } from "@/db/queries/reproductions";
 import { latestDecisions } from "@/db/queries/review-decisions";
 import { listReviews } from "@/db/queries/reviews";
 import { getRun, getStepLogs, listRuns, type RunFilter, type RunRow } from "@/db/queries/runs";
 import { describeParams, getStep } from "@/pipeline/registry";
 import type { ReviewState } from "./run-filter";
-import type { IntermediateView, LogLine, RunListItem, RunListPage, RunView, StepView } from "./view-types";
+import type { ReproductionReport } from "@/pipeline/reproduce";
+import type { IntermediateView, LogLine, ReproductionView, RunListItem, RunListPage, RunView, StepView } from "./view-types";
 
 const ms = (d: Date | null | undefined) => (d ? d.getTime() : null);
 
@@ -137,6 +139,51 @@ export function readRun(id: number): RunView | null {
       reviewer: r.reviewerName,
       at: r.at.getTime(),
     })),
+    reproductions: listReproductions(db, id).map(toReproductionView),
+  };
+}
+
+function processAlive(pid: number): boolean {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (err) {
+    return (err as NodeJS.ErrnoException).code === "EPERM";
+  }
+}
+
+/** How long a requested reproduction may wait for its process to say who it is, ms. */
+const REPRODUCTION_START_GRACE_MS = 120_000;
+
+function toReproductionView(r: ReproductionRecord): ReproductionView {
+  let report: ReproductionReport | null = null;
+  try {
+    report = r.detailsJson ? (JSON.parse(r.detailsJson) as ReproductionReport | null) : null;
+  } catch {
+    report = null;
+  }
+  const gone = r.verdict === "running" && (r.hostPid !== null ? !processAlive(r.hostPid) : Date.now() - r.startedAt.getTime() > REPRODUCTION_START_GRACE_MS);
+  return {
+    id: r.id,
+    requestedBy: r.requestedByLabel,
+    startedAt: r.startedAt.getTime(),
+    finishedAt: ms(r.finishedAt),
+    verdict: gone ? "stopped" : r.verdict,
+    progress: r.progress,
+    progressMessage: r.progressMessage,
+    error: r.error,
+    relativeTolerance: report?.relativeTolerance ?? null,
+    counts: report?.counts ?? null,
+    differences: (report?.steps ?? [])
+      .filter((s) => s.outcome !== "identical")
+      .map((s) => ({
+        label: s.label,
+        outcome: s.outcome,
+        cacheKeyMatches: s.cacheKeyMatches,
+        artifacts: s.artifacts
+          .filter((a) => a.outcome !== "identical")
+          .map((a) => ({ kind: a.kind, name: a.name, outcome: a.outcome, maxRelativeDifference: a.maxRelativeDifference ?? null, where: a.where ?? null, note: a.note ?? null })),
+      })),
   };
 }
 

@@ -96,6 +96,30 @@ export interface RunView extends RunListItem {
   /** Parent, grandparent, ... (nearest first). */
   parentChain: Array<{ id: number; status: RunStatus; startedBy: string; createdAt: number; rerunFromStep: string | null }>;
   reviews: ReviewView[];
+  /** Reproductions of this run, newest first (pipeline/reproduce.ts). */
+  reproductions: ReproductionView[];
+}
+
+/** One reproduction of a run: who asked, its progress, and its verdict with what differed. */
+export interface ReproductionView {
+  id: number;
+  requestedBy: string;
+  startedAt: number;
+  finishedAt: number | null;
+  /** "stopped": still marked running but its process has gone (no verdict will come). */
+  verdict: "running" | "stopped" | "identical" | "within-tolerance" | "different" | "failed";
+  progress: number;
+  progressMessage: string | null;
+  error: string | null;
+  relativeTolerance: number | null;
+  counts: { identical: number; "within-tolerance": number; different: number; missing: number } | null;
+  /** Steps whose artifacts are not all identical, with those artifacts. */
+  differences: Array<{
+    label: string;
+    outcome: string;
+    cacheKeyMatches: boolean;
+    artifacts: Array<{ kind: string; name: string; outcome: string; maxRelativeDifference: number | null; where: string | null; note: string | null }>;
+  }>;
 }
 
 export interface LogLine {

@@ -9,5 +9,6 @@ export const PERMISSION_WORDS: Record<Permission, string> = {
   "pipelines.edit": "save pipeline versions",
   "runs.review": "approve runs or send them back",
   "audit.read": "read and export the audit trail",
+  "runs.reproduce": "have a run executed again and its results compared",
   "users.manage": "add people, change roles, deactivate accounts",
 };

@@ -2,6 +2,7 @@
 import { and, desc, eq, gte, lte, type SQL } from "drizzle-orm";
 import type { Db } from "../client";
 import { auditEvents, type Door } from "../schema";
+import { appendAuditEvent } from "./audit-chain";
 
 /** Who acts: a known user, or a label (OS user on the CLI, "watcher"), and the door. */
 export interface Actor {
@@ -10,23 +11,24 @@ export interface Actor {
   door: Door;
 }
 
+/**
+ * Records one event: the only way anything writes the audit trail. Each event is linked into the
+ * hash chain (db/queries/audit-chain.ts) in the same transaction that inserts it.
+ */
 export function recordAudit(
   db: Db,
   e: { actor: Actor; action: string; entityType: string; entityId: string | number; before?: unknown; after?: unknown },
 ): void {
-  db.insert(auditEvents)
-    .values({
-      at: new Date(),
-      actorUserId: e.actor.userId,
-      actorLabel: e.actor.label,
-      door: e.actor.door,
-      action: e.action,
-      entityType: e.entityType,
-      entityId: String(e.entityId),
-      beforeJson: e.before === undefined ? null : JSON.stringify(e.before),
-      afterJson: e.after === undefined ? null : JSON.stringify(e.after),
-    })
-    .run();
+  appendAuditEvent(db, {
+    actorUserId: e.actor.userId,
+    actorLabel: e.actor.label,
+    door: e.actor.door,
+    action: e.action,
+    entityType: e.entityType,
+    entityId: String(e.entityId),
+    beforeJson: e.before === undefined ? null : JSON.stringify(e.before),
+    afterJson: e.after === undefined ? null : JSON.stringify(e.after),
+  });
 }
 
 export interface AuditFilter {

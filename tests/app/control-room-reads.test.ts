@@ -6,6 +6,7 @@
  * standard (SEG Technical Standards Committee 2017: 3200-byte textual header, 400-byte binary
  * header with the sample format code at bytes 3225-3226, 5 = IEEE float).
  */
+import { createHash } from "node:crypto";
 import fs from "node:fs";
 import os from "node:os";
 import path from "node:path";
@@ -130,12 +131,32 @@ describe("audit export", () => {
     expect(csv.status).toBe(200);
     const text = await csv.text();
     const lines = text.split("\r\n");
-    expect(lines[0]).toBe("event,when_utc,who,recorded_as,door,action,record_type,record_id,record_name,before,after");
+    expect(lines[0]).toBe("event,when_utc,who,recorded_as,door,action,record_type,record_id,record_name,before,after,prev_hash,hash");
     expect(text).toMatch(/Rosa Okafor-Lind,Rosa Okafor-Lind,web,review\.approve,run,/);
     const json = await auditExportRoute.GET(get(`/api/runs/${runId}/audit-export?format=json`), params({ runId: String(runId) }));
     const body = (await json.json()) as { events: Array<{ id: number; action: string; after: unknown }> };
     expect(body.events.map((e) => e.action)).toContain("review.approve");
     expect(body.events.map((e) => e.id)).toEqual([...body.events.map((e) => e.id)].sort((a, b) => a - b));
     expect(body.events.find((e) => e.action === "review.approve")?.after).toEqual({ decision: "approved", comment: "checked" });
+  });
+
+  it("gives each exported event its chain hashes and the text hashed, checkable with any SHA-256", async () => {
+    await signInAs(users.auditor);
+    const json = await auditExportRoute.GET(get(`/api/runs/${runId}/audit-export?format=json`), params({ runId: String(runId) }));
+    const body = (await json.json()) as {
+      chain: { intact: boolean; checked: number; head: { id: number; hash: string } };
+      events: Array<{ id: number; prevHash: string; hash: string; hashedText: string }>;
+    };
+    expect(body.chain.intact).toBe(true);
+    expect(body.events.length).toBeGreaterThan(0);
+    for (const e of body.events) {
+      // SHA-256 by node:crypto (FIPS 180-4) of the exported text is the exported hash ...
+      expect(createHash("sha256").update(e.hashedText, "utf8").digest("hex")).toBe(e.hash);
+      // ... and the text names the event and the hash before it.
+      const text = JSON.parse(e.hashedText) as unknown[];
+      expect(text.slice(0, 3)).toEqual(["tracewright-audit-event/1", e.prevHash, e.id]);
+    }
+    const csv = await (await auditExportRoute.GET(get(`/api/runs/${runId}/audit-export?format=csv`), params({ runId: String(runId) }))).text();
+    expect(csv).toContain(`,${body.events[0].prevHash},${body.events[0].hash}\r\n`);
   });
 });

@@ -16,7 +16,7 @@ vi.mock("next/headers", () => ({ cookies: async () => cookieStore, headers: asyn
 vi.mock("next/cache", () => ({ revalidatePath: vi.fn() }));
 vi.mock("@/pipeline/launch", async (importOriginal) => {
   const actual = await importOriginal<typeof import("@/pipeline/launch")>();
-  return { ...actual, launchInBackground: vi.fn() };
+  return { ...actual, launchInBackground: vi.fn(), launchReproductionInBackground: vi.fn() };
 });
 
 import { closeDb, getDb } from "@/db/client";
@@ -217,6 +217,7 @@ const ACTION_INPUT: Record<string, () => FormData> = {
   decideRun: () => form({ runId: String(fx.runId), decision: "returned", comment: `matrix check ${++reviewCount}` }),
   // Each allowed save changes the scale factor, so each makes a new version on the newest one.
   savePipeline: () => form({ factor: String(10 + ++saved) }),
+  startReproduction: () => form({ runId: String(fx.runId) }),
 };
 let saved = 0;
 let currentRole: Role | null = null;
@@ -229,6 +230,7 @@ describe("server actions × roles", () => {
       it(`${name} as ${role ?? "nobody"}: ${allowed ? "done" : "refused"}`, async () => {
         const { decideRun } = await import("@/app/lib/actions/reviews");
         const { savePipeline } = await import("@/app/lib/actions/pipelines");
+        const { startReproduction } = await import("@/app/lib/actions/reproductions");
         const actions = {
           ...(await import("@/app/lib/actions/users")),
           ...(await import("@/app/lib/actions/password")),
@@ -243,6 +245,8 @@ describe("server actions × roles", () => {
             const steps = model.steps.map((s) => (s.label === "scale" ? { ...s, settings: { ...s.settings, factor: Number(f.get("factor")) } } : s));
             return savePipeline({ pipelineId: pv.pipeline.id, baseVersionId: newest.id, description: model.description, onBadFile: model.onBadFile, steps });
           },
+          // so does startReproduction (the reproduce button)
+          startReproduction: (_prev: FormState, f: FormData) => startReproduction({ runId: Number(f.get("runId")) }),
         } as unknown as Record<string, (prev: FormState, f: FormData) => Promise<FormState>>;
         currentRole = role;
         if (role === null) signOut();

@@ -581,6 +581,29 @@ async function main() {
       await shoot(page, "audit");
     });
 
+    await test("auditor reproduces a run and sees the audit chain intact", async () => {
+      await signIn(page, origin, account("auditor").email, account("auditor").password);
+      const runs = await apiRuns(page, origin);
+      const processing = runs.rows.find((r) => r.parentRunId === null && r.status === "succeeded");
+      check(processing, "no succeeded run in the demo data");
+      await goto(page, `${origin}/runs/${processing.id}`);
+      await page.waitForSelector("[data-testid=reproduction-panel]");
+      const before = await page.locator("[data-testid=reproduction-panel] details li").count();
+      await page.click("[data-testid=reproduce-button]");
+      // Progress shows while the background process works; the page follows it without a reload.
+      await page.waitForSelector("[data-testid=reproduction-verdict][data-verdict=running]", { timeout: 20_000 });
+      await page.waitForSelector("[data-testid=reproduction-verdict]:not([data-verdict=running])", { timeout: 300_000 });
+      const verdict = await page.getAttribute("[data-testid=reproduction-verdict]", "data-verdict");
+      check(verdict === "identical", `reproduction verdict ${verdict}: ${await page.textContent("[data-testid=reproduction-verdict]")}`);
+      check(/\d+ identical/.test((await page.textContent("[data-testid=reproduction-verdict]")) ?? ""), "no artifact count in the verdict");
+      check((await page.locator("[data-testid=reproduction-panel] details li").count()) >= before, "earlier reproductions lost");
+      await shoot(page, "reproduction");
+      await goto(page, `${origin}/audit?action=run.reproduce`);
+      check((await page.getAttribute("[data-testid=audit-chain]", "data-intact")) === "yes", `audit chain: ${await page.textContent("[data-testid=audit-chain]")}`);
+      check((await page.textContent("[data-testid=audit-table]"))?.includes("run.reproduce.verdict"), "the verdict is not in the audit trail");
+      await shoot(page, "audit-chain");
+    });
+
     await test("admin invites someone by mail and deactivates them", async () => {
       await signIn(page, origin, account("admin").email, account("admin").password);
       await goto(page, `${origin}/people`, "people");

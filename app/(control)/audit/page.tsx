@@ -2,6 +2,7 @@ import type { Metadata } from "next";
 import Link from "next/link";
 import { getDb } from "@/db/client";
 import { searchAudit, type AuditEventRow } from "@/db/queries/audit-search";
+import { verifyAuditChain, type ChainVerdict } from "@/db/queries/audit-chain";
 import { AUDIT_PAGE_SIZE, auditFilterSchema, toAuditSearch } from "@/app/lib/audit-filter";
 import { pageUserWith } from "@/app/lib/page-user";
 import { DOOR_LABELS, formatReadable, formatTime, readableName } from "@/app/ui/format";
@@ -56,6 +57,31 @@ function BeforeAfter({ e }: { e: AuditEventRow }) {
   );
 }
 
+/** The verdict of the chain check over the whole trail (db/queries/audit-chain.ts), at every page view. */
+function ChainPanel({ v }: { v: ChainVerdict }) {
+  return (
+    <section
+      className={`card p-3 text-sm ${v.ok ? "border-ok/40" : "border-bad bg-bad-soft"}`}
+      aria-label="Hash chain check"
+      data-testid="audit-chain"
+      data-intact={v.ok ? "yes" : "no"}
+    >
+      {v.ok ? (
+        <p className="text-ok"><span className="font-medium">Intact.</span> All {v.checked} event{v.checked === 1 ? "" : "s"} checked just now: each holds the SHA-256 hash of its own contents and of the event before it, so none has been changed, inserted or removed since it was written.</p>
+      ) : (
+        <p role="alert" className="text-bad">
+          <span className="font-medium">Broken at event {v.firstBroken!.id}.</span> {v.firstBroken!.reason}. Events from there on cannot be vouched for; {v.checked} checked.
+        </p>
+      )}
+      <p className="mt-1 text-xs muted">
+        Chain head: event {v.headId}, <span className="font-mono break-all">{v.headHash}</span>. Keep it outside Tracewright (a report, an e-mail);{" "}
+        <span className="font-mono">tracewright audit verify --expect-head {v.headId}:…</span> later shows whether the trail was rewritten up to it.
+        {v.chainStart ? ` Events up to ${v.chainStart.sealedThroughId} were written before the chain existed and sealed at event ${v.chainStart.markerId}.` : ""}
+      </p>
+    </section>
+  );
+}
+
 function recordOf(e: AuditEventRow) {
   if (e.entityType === "run") return <Link className="text-accent hover:underline" href={`/runs/${e.entityId}`}>Run {e.entityId}</Link>;
   if (e.entityType === "user") return <span>{e.entityName ?? `person ${e.entityId}`}<span className="block text-[10px] muted">account {e.entityId}</span></span>;
@@ -68,6 +94,7 @@ export default async function AuditPage({ searchParams }: { searchParams: Promis
   const parsed = auditFilterSchema.safeParse(raw);
   const filter = parsed.success ? parsed.data : auditFilterSchema.parse({});
   const { rows: events, total } = searchAudit(getDb(), toAuditSearch(filter));
+  const chain = verifyAuditChain(getDb());
   const pages = Math.max(1, Math.ceil(total / AUDIT_PAGE_SIZE));
   const pageLink = (page: number) => {
     const q = new URLSearchParams(Object.entries({ ...raw, page: String(page) }).filter(([, v]) => v) as Array<[string, string]>);
@@ -78,8 +105,9 @@ export default async function AuditPage({ searchParams }: { searchParams: Promis
     <div className="space-y-4">
       <div>
         <h1>Audit trail</h1>
-        <p className="text-ink-soft">Who did what, when, through which door, with the before and after. Nothing here can be changed or removed.</p>
+        <p className="text-ink-soft">Who did what, when, through which door, with the before and after. Nothing here can be changed or removed without the check below finding it.</p>
       </div>
+      <ChainPanel v={chain} />
       {!parsed.success ? <p role="alert" className="rounded-md bg-warn-soft px-3 py-2 text-sm text-warn">Filter ignored: {parsed.error.issues[0]?.message}</p> : null}
       <form key={JSON.stringify(raw)} className="card grid grid-cols-2 gap-3 p-3 md:grid-cols-6" aria-label="Filter the audit trail">
         <label className="label">Action (or its start)<input name="action" defaultValue={filter.action ?? ""} className="field mt-1" placeholder="e.g. review, run.rerun" /></label>

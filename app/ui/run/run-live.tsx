@@ -10,6 +10,7 @@ import { InversionViews } from "@/app/ui/inversion/inversion-view";
 import { StatusBadge } from "@/app/ui/status-badge";
 import { STOPPING_WORD } from "@/app/ui/status-words";
 import { Provenance } from "./provenance";
+import { ReproductionPanel } from "./reproduction-panel";
 import { ReviewPanel } from "./review-panel";
 import { RunResults } from "./run-results";
 import { StepPanel } from "./step-panel";
@@ -24,7 +25,7 @@ export function RunLive({
 }: {
   initial: RunView;
   initialStep?: string;
-  can: { rerun: boolean; cancel: boolean; review: boolean; auditExport?: boolean };
+  can: { rerun: boolean; cancel: boolean; review: boolean; auditExport?: boolean; reproduce?: boolean };
   /** Settings documentation by step id (readable labels and units). */
   paramDocs?: Record<string, Array<{ name: string; description: string }>>;
 }) {
@@ -82,6 +83,7 @@ export function RunLive({
         <div className="space-y-4 lg:col-span-2 xl:col-span-1">
           <ReviewPanel run={run} canReview={can.review} />
           <Provenance run={run} canExportAudit={can.auditExport ?? false} />
+          <ReproductionPanel run={run} canReproduce={can.reproduce ?? false} />
         </div>
       </div>
 

@@ -24,7 +24,7 @@ export default async function RunPage({ params, searchParams }: { params: Promis
       initial={run}
       initialStep={step}
       paramDocs={readParamDocs(run.steps.map((s) => s.stepId))}
-      can={{ rerun: can(user.role, "runs.rerun"), cancel: can(user.role, "runs.cancel"), review: can(user.role, "runs.review"), auditExport: can(user.role, "audit.read") }}
+      can={{ rerun: can(user.role, "runs.rerun"), cancel: can(user.role, "runs.cancel"), review: can(user.role, "runs.review"), auditExport: can(user.role, "audit.read"), reproduce: can(user.role, "runs.reproduce") }}
     />
   );
 }
