@@ -83,6 +83,7 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "GET /api/runs/[runId]/steps/[stepLabel]/download": "runs.read",
   "GET /api/runs/[runId]/steps/[stepLabel]/intermediates": "runs.read",
   "GET /api/runs/[runId]/audit-export": "audit.read",
+  "GET /api/runs/[runId]/reports/[hash]": "runs.read",
   "GET /api/artifacts/[hash]": "runs.read",
   "GET /api/artifacts/[hash]/field": "runs.read",
   "GET /api/artifacts/[hash]/lines": "runs.read",
@@ -103,6 +104,8 @@ export const ACTION_REQUIREMENTS: Record<string, Requirement> = {
   changeActive: "users.manage",
   changeOwnPassword: "signed-in",
   decideRun: "runs.review",
+  saveRunInterpretation: "runs.review",
+  makeRunReport: "runs.review",
 };
 
 /** True when `role` (null: nobody signed in) meets `requirement`. */

@@ -30,6 +30,9 @@ import { createRun } from "@/pipeline/run-create";
 import { ACTION_REQUIREMENTS, ROUTE_REQUIREMENTS, meets, type Requirement } from "@/app/lib/permissions";
 import type { FormState } from "@/app/lib/actions/form-state";
 import { registerEngineTestSteps } from "../helpers/engine-steps";
+import { runInversionFixture } from "../helpers/inverted-run";
+import { addReview } from "@/db/queries/reviews";
+import { createReport } from "@/pipeline/report/create";
 
 type Handler = (req: Request, ctx: { params: Promise<Record<string, string | string[]>> }) => Promise<Response>;
 type Case = () => { url: string; body?: unknown; params?: Record<string, string | string[]> };
@@ -39,7 +42,7 @@ const ORIGIN = "http://127.0.0.1:3000";
 let tmp: string;
 const users = {} as Record<Role, { id: number; role: Role; name: string; email: string }>;
 let reviewCount = 0;
-const fx = { runId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0 };
+const fx = { runId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0, invertedRunId: 0, report: "" };
 
 /** Route files on disk, as the keys of ROUTE_REQUIREMENTS ("METHOD /api/..."). */
 function routesOnDisk(): Array<{ key: string; file: string; method: string }> {
@@ -77,6 +80,7 @@ const CASES: Record<string, Case> = {
   "GET /api/runs/[runId]/steps/[stepLabel]/download": () => ({ url: `/api/runs/${fx.runId}/steps/scale/download`, params: { runId: String(fx.runId), stepLabel: "scale" } }),
   "GET /api/runs/[runId]/steps/[stepLabel]/intermediates": () => ({ url: `/api/runs/${fx.runId}/steps/scale/intermediates`, params: { runId: String(fx.runId), stepLabel: "scale" } }),
   "GET /api/runs/[runId]/audit-export": () => ({ url: `/api/runs/${fx.runId}/audit-export?format=json`, params: { runId: String(fx.runId) } }),
+  "GET /api/runs/[runId]/reports/[hash]": () => ({ url: `/api/runs/${fx.invertedRunId}/reports/${fx.report}`, params: { runId: String(fx.invertedRunId), hash: fx.report } }),
   "GET /api/artifacts/[hash]/field": () => ({ url: `/api/artifacts/${fx.model}/field`, params: { hash: fx.model } }),
   "GET /api/artifacts/[hash]": () => ({ url: `/api/artifacts/${fx.gathers}`, params: { hash: fx.gathers } }),
   "GET /api/artifacts/[hash]/lines": () => ({ url: `/api/artifacts/${fx.picks}/lines?gather=g1`, params: { hash: fx.picks } }),
@@ -124,8 +128,12 @@ beforeAll(async () => {
   fx.model = record("model", { kind: "model", nx, nz, spacingM: 1, originX: 0, originZ: 0, vp: new Float32Array(6).fill(500), vs: new Float32Array(6).fill(200), rho: new Float32Array(6).fill(1800) });
   fx.snapshots = record("snapshots", { kind: "snapshots", shotId: "g1", component: "vz", nx, nz, spacingM: 1, originX: 0, originZ: 0, timesS: [0, 0.01], frames: new Float32Array(12) });
   fx.picks = record("picks", { kind: "picks", method: "energy-ratio", picks: [{ gatherId: "g1", traceIndex: 0, timeS: 0.01, quality: 0.9, flagged: false }] });
+  // An approved inversion run with one client report, for the report download and actions.
+  fx.invertedRunId = await runInversionFixture(db, tmp, { lowPassHz: [40], iterations: 1 });
+  addReview(db, { runId: fx.invertedRunId, reviewerUserId: users.lead.id, decision: "approved", comment: "" });
+  fx.report = (await createReport(db, fx.invertedRunId, { userId: users.lead.id, label: users.lead.name, door: "cli" })).hash;
   fx.spectra = record("spectra", { kind: "spectra", frequenciesHz: new Float32Array([0, 10]), gathers: [{ gatherId: "g1", mean: new Float32Array([1, 2]), perTrace: new Float32Array([1, 2]) }] });
-});
+}, 180_000);
 
 afterAll(() => {
   closeDb();
@@ -212,6 +220,8 @@ const ACTION_INPUT: Record<string, () => FormData> = {
   changeActive: () => form({ userId: String(users.auditor.id), active: "true" }),
   changeOwnPassword: () => form({ current: demoPasswords[currentRole!], next: `${demoPasswords[currentRole!]}-2`, repeat: `${demoPasswords[currentRole!]}-2` }),
   decideRun: () => form({ runId: String(fx.runId), decision: "returned", comment: `matrix check ${++reviewCount}` }),
+  saveRunInterpretation: () => form({ runId: String(fx.invertedRunId), summary: `matrix interpretation ${++reviewCount}` }),
+  makeRunReport: () => form({ runId: String(fx.invertedRunId), positions: "", shots: "" }),
 };
 let currentRole: Role | null = null;
 const demoPasswords = {} as Record<Role, string>;
@@ -222,12 +232,16 @@ describe("server actions × roles", () => {
       const allowed = meets(role, requirement);
       it(`${name} as ${role ?? "nobody"}: ${allowed ? "done" : "refused"}`, async () => {
         const { decideRun } = await import("@/app/lib/actions/reviews");
+        const { saveRunInterpretation, makeRunReport } = await import("@/app/lib/actions/reports");
         const actions = {
           ...(await import("@/app/lib/actions/users")),
           ...(await import("@/app/lib/actions/password")),
           // decideRun takes its input as an object (the approve button calls it directly).
           decideRun: (_prev: FormState, f: FormData) =>
             decideRun({ runId: Number(f.get("runId")), decision: f.get("decision") as "approved" | "returned", comment: String(f.get("comment")) }),
+          // The report form sends objects too.
+          saveRunInterpretation: (_prev: FormState, f: FormData) => saveRunInterpretation({ runId: Number(f.get("runId")), sections: { summary: String(f.get("summary")) } }),
+          makeRunReport: (_prev: FormState, f: FormData) => makeRunReport({ runId: Number(f.get("runId")), positions: String(f.get("positions")), shots: String(f.get("shots")) }),
         } as unknown as Record<string, (prev: FormState, f: FormData) => Promise<FormState>>;
         currentRole = role;
         if (role === null) signOut();

@@ -20,7 +20,6 @@ import os from "node:os";
 import path from "node:path";
 import { execa } from "execa";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { z } from "zod";
 import PNG from "png-js";
 import { closeDb, getDb, type Db } from "@/db/client";
 import { seedDemoUsers } from "@/db/seed";
@@ -30,56 +29,13 @@ import { saveInterpretation, latestInterpretation } from "@/db/queries/interpret
 import { listRunReports } from "@/db/queries/reports";
 import { searchAudit } from "@/db/queries/audit-search";
 import { getRun } from "@/db/queries/runs";
-import { createRun, executeRun } from "@/pipeline/runner";
 import { readArtifactSync, artifactFilePath } from "@/pipeline/artifact-store";
-import { registerStep, listSteps } from "@/pipeline/registry";
-import { defineStep } from "@/pipeline/step";
-import { buildModel, paintShapes } from "@/pipeline/kernels/fd/model-grid";
-import { simulateShot } from "@/pipeline/kernels/fd/simulation";
 import { createReport, readStoredReport } from "@/pipeline/report/create";
 import { crc32, encodePngRgb } from "@/pipeline/report/png";
 import { INVERTED_MODEL_CAUTIONS } from "@/pipeline/report/cautions";
-import type { ElasticModel, Gather, GatherSet } from "@/pipeline/types";
+import type { ElasticModel } from "@/pipeline/types";
 import { seededRandom } from "../../helpers/random";
-
-const h = 0.25;
-const grid = { originX: 0, originZ: 0, spacingM: h, nx: 65, nz: 25 };
-const truth = paintShapes(buildModel(grid, [{ topM: 0, vp: 400, vs: 200, rho: 1800 }]), [
-  { kind: "rectangle" as const, x0M: 7, x1M: 10, z0M: 1, z1M: 3, vp: 400, vs: 160, rho: 1800 },
-]);
-const sources = [1.5, 8, 14.5];
-const receiverX = Array.from({ length: 16 }, (_, k) => 0.5 + k);
-const output = { intervalS: 0.0005, count: 240, startTimeS: 0 };
-
-/** Synthetic SH shot records over the true ground: the "field data" of this fixture. */
-const shShots = defineStep({
-  id: "test-report-sh-shots",
-  version: 1,
-  title: "synthetic SH shots over a slow block",
-  description: "test step",
-  reads: [],
-  writes: ["gathers"],
-  params: z.object({ peakHz: z.number().default(30).describe("Ricker peak frequency, Hz") }),
-  async run(_input, p) {
-    const gathers: Gather[] = sources.map((sx, s) => {
-      const shot = { sourceX: sx, sourceZ: 0, receiverX, receiverZ: receiverX.map(() => 0) };
-      const r = simulateShot(truth, shot, { mode: "sh", sourceKind: "force-y", component: "y", wavelet: { kind: "ricker", peakHz: p.peakHz }, pmlCells: 10, output });
-      return {
-        id: `SP${s + 1}`,
-        sampleIntervalS: output.intervalS,
-        sampleCount: output.count,
-        startTimeS: 0,
-        traces: receiverX.map((rx, c) => ({
-          sourceFile: `sp${s + 1}.dat`, channel: c + 1, sourcePoint: s + 1, blow: 1, sourceX: sx, sourceZ: 0,
-          receiverX: rx, receiverZ: 0, offset: rx - sx, stackCount: 1, component: "y" as const, dead: false,
-        })),
-        data: r.traces,
-      };
-    });
-    const set: GatherSet = { kind: "gathers", gathers };
-    return { outputs: { gathers: set } };
-  },
-});
+import { runInversionFixture } from "../../helpers/inverted-run";
 
 let tmp: string;
 let db: Db;
@@ -96,42 +52,11 @@ beforeAll(async () => {
   tmp = fs.mkdtempSync(path.join(os.tmpdir(), "tw-report-"));
   process.env.TRACEWRIGHT_DATA_DIR = tmp;
   delete process.env.TRACEWRIGHT_DB;
-  if (!listSteps().some((s) => s.id === shShots.id)) registerStep(shShots);
   db = getDb();
   const account = seedDemoUsers(db).find((a) => a.role === "lead")!;
   const u = getUserByEmail(db, account.email)!;
   lead = { id: u.id, name: u.name };
-  const file = path.join(tmp, "report-fixture.yaml");
-  fs.writeFileSync(
-    file,
-    `name: report-fixture
-survey: brackenfold
-profile: BF-2
-steps:
-  - step: test-report-sh-shots
-  - step: build-model
-    settings:
-      grid: { originXM: 0, spacingM: ${h}, nx: ${grid.nx}, nz: ${grid.nz} }
-      layers: [{ topM: 0, vp: 400, vs: 200, rho: 1800 }]
-  - step: waveform-inversion
-    settings:
-      mode: sh
-      pmlCells: 10
-      waveletFrom: ricker
-      rickerPeakHz: 30
-      fixedOutsideSpread: false
-      smoothingM: 0.25
-      sourceTaperM: 1
-      receiverTaperM: 0
-      firstStepFraction: 0.05
-      stages:
-        - { lowPassHz: 40, measure: least-squares, iterations: 2, stopBelowRelativeChange: 0, reestimateWavelet: false }
-        - { lowPassHz: 60, measure: least-squares, iterations: 2, stopBelowRelativeChange: 0, reestimateWavelet: false }
-`,
-  );
-  runId = createRun(db, { source: "pipeline-file", pipelinePath: file, actor: { userId: null, label: "field processor", door: "cli" } }).runId;
-  const outcome = await executeRun(db, runId);
-  expect(outcome).toMatchObject({ status: "succeeded" });
+  runId = await runInversionFixture(db, tmp);
 }, 240_000);
 
 afterAll(() => {
