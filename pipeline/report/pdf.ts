@@ -9,6 +9,7 @@ import PDFDocument from "pdfkit";
 import { projectRoot } from "../../db/paths";
 import type { ReportContent } from "./content";
 import { depthProfilesFigure, gatherFigure, misfitFigure, modelFigure, valueRange, type Figure, type Shape } from "./figures";
+import { formatUtc, m, mps, vsRangeWords } from "./words";
 
 const FONT_DIR = path.join(projectRoot, "pipeline", "report", "fonts");
 const FONTS = {
@@ -27,20 +28,6 @@ export interface ReportMaking {
   at: Date;
   by: string;
   fingerprint: string;
-}
-
-/** "2026-12-02 07:15 UTC". */
-export function formatUtc(d: Date): string {
-  return `${d.toISOString().slice(0, 16).replace("T", " ")} UTC`;
-}
-
-const m = (v: number, digits = 2) => `${+v.toFixed(digits)} m`;
-const mps = (v: number) => `${Math.round(v)} m/s`;
-
-/** Vs range of a model in words, as the report prints it (the tests read it back from the PDF). */
-export function vsRangeWords(model: { vs: Float32Array }): string {
-  const r = valueRange(model.vs);
-  return `Vs from ${mps(r.min)} to ${mps(r.max)}`;
 }
 
 type Doc = InstanceType<typeof PDFDocument>;
