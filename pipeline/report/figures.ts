@@ -73,7 +73,7 @@ function axes(
   }
   shapes.push({ t: "rect", x: box.x, y: box.y, w: box.w, h: box.h, stroke: INK, width: 0.7 });
   shapes.push({ t: "text", x: box.x + box.w / 2, y: box.y + box.h + 24, text: x.label, size: 8, anchor: "middle", color: INK });
-  shapes.push({ t: "text", x: box.x - 30, y: box.y + box.h / 2, text: y.label, size: 8, anchor: "middle", rotate: -90, color: INK });
+  shapes.push({ t: "text", x: box.x - 34, y: box.y + box.h / 2, text: y.label, size: 8, anchor: "middle", rotate: -90, color: INK });
   return { sx, sy };
 }
 
@@ -277,7 +277,7 @@ export function depthProfilesFigure(starting: ElasticModel, final: ElasticModel,
 export function misfitFigure(stages: Array<{ stage: number; lowPassHz: number | null; points: Array<{ x: number; y: number }> }>, o: { width: number; height: number }): Figure {
   const shapes: Shape[] = [];
   const all = stages.flatMap((s) => s.points);
-  const box = { x: 50, y: 14, w: o.width - 160, h: o.height - 50 };
+  const box = { x: 56, y: 14, w: o.width - 166, h: o.height - 50 };
   if (all.length === 0) {
     shapes.push({ t: "text", x: 0, y: 20, text: "No misfit was recorded.", size: 9, color: SOFT });
     return { width: o.width, height: 30, shapes };
