@@ -18,6 +18,7 @@ import crypto from "node:crypto";
 import fs from "node:fs";
 import os from "node:os";
 import path from "node:path";
+import { pathToFileURL } from "node:url";
 import { execa } from "execa";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import PNG from "png-js";
@@ -40,7 +41,8 @@ import { runInversionFixture } from "../../helpers/inverted-run";
 let tmp: string;
 let db: Db;
 let runId: number;
-let lead: { id: number; name: string };
+let lead: { id: number; name: string; email: string };
+let processorEmail: string;
 
 async function pdfText(file: string, page?: number): Promise<string> {
   const range = page ? ["-f", String(page), "-l", String(page)] : [];
@@ -53,9 +55,10 @@ beforeAll(async () => {
   process.env.TRACEWRIGHT_DATA_DIR = tmp;
   delete process.env.TRACEWRIGHT_DB;
   db = getDb();
-  const account = seedDemoUsers(db).find((a) => a.role === "lead")!;
-  const u = getUserByEmail(db, account.email)!;
-  lead = { id: u.id, name: u.name };
+  const accounts = seedDemoUsers(db);
+  const u = getUserByEmail(db, accounts.find((a) => a.role === "lead")!.email)!;
+  lead = { id: u.id, name: u.name, email: u.email };
+  processorEmail = accounts.find((a) => a.role === "processor")!.email;
   runId = await runInversionFixture(db, tmp);
 }, 240_000);
 
@@ -130,6 +133,29 @@ describe("client report", () => {
     expect(crypto.createHash("sha256").update(fs.readFileSync(artifactFilePath(report.hash))).digest("hex")).toBe(report.hash);
     expect(listRunReports(db, runId).map((r) => [r.hash, r.pages])).toEqual([[report.hash, report.pages]]);
     expect(searchAudit(db, { action: "report.create" }).rows.map((e) => e.entityId)).toEqual([String(runId)]);
+  });
+
+  it("tracewright report writes the PDF for a lead; refuses a processor and positions that are not numbers", { timeout: 120_000 }, async () => {
+    const tsx = pathToFileURL(path.join(process.cwd(), "node_modules", "tsx", "dist", "loader.mjs")).href;
+    const cli = path.join(process.cwd(), "cli", "index.ts");
+    const tw = (args: string[]) => execa(process.execPath, ["--import", tsx, cli, ...args], { env: { ...process.env, TRACEWRIGHT_DATA_DIR: tmp }, reject: false });
+    const out = path.join(tmp, "cli-report.pdf");
+    const made = await tw(["report", String(runId), "--out", out, "--as", lead.email, "--positions", "5,9", "--json"]);
+    expect(made.exitCode, made.stderr).toBe(0);
+    const body = JSON.parse(made.stdout) as { pages: number; hash: string; file: string };
+    expect(body.file).toBe(out);
+    expect(fs.readFileSync(out).subarray(0, 5).toString("latin1")).toBe("%PDF-");
+    const { stdout: info } = await execa("pdfinfo", [out]);
+    expect(info).toMatch(new RegExp(`Pages:\\s+${body.pages}\\b`));
+    expect(await pdfText(out)).toContain("Vs with depth at the positions chosen: 5 m, 9 m.");
+
+    const refused = await tw(["report", String(runId), "--out", path.join(tmp, "other.pdf"), "--as", processorEmail]);
+    expect(refused.exitCode).not.toBe(0);
+    expect(refused.stderr).toContain("may not make client reports");
+    const bad = await tw(["report", String(runId), "--out", path.join(tmp, "bad.pdf"), "--as", lead.email, "--positions", "ten"]);
+    expect(bad.exitCode).toBe(2);
+    expect(bad.stderr).toContain("--positions ten");
+    expect(fs.existsSync(path.join(tmp, "bad.pdf"))).toBe(false);
   });
 
   it("refuses depth profiles outside the model and shots the inversion did not use, naming the choice", async () => {
