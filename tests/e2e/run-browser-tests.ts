@@ -452,7 +452,7 @@ async function main() {
       await page.reload({ waitUntil: "load" });
       check(((await page.textContent("[data-testid=client-report]")) ?? "").includes(summary), "the print page does not show the saved interpretation");
       check((await page.locator("[data-testid=stored-reports] li").count()) >= 1, "the stored report is not listed");
-      await shoot(page, "report-page");
+      await shoot(page, "client-report");
     });
 
     let rerunId = 0;
