@@ -94,6 +94,14 @@ async function reportOnApprovedInversion(leadEmail: string | undefined): Promise
     for (let iz = 0; iz < rows; iz++) sum += m.vs[iz * m.nx + ix];
     if (sum / rows < slowVs) [slowVs, slowX] = [sum / rows, m.originX + ix * m.spacingM];
   }
+  // Away from the slow zone: Vs near the surface and at the bottom of the grid, a quarter along.
+  const ix = Math.round(((slowX - m.originX) / m.spacingM + m.nx / 4) % m.nx);
+  const topVs = m.vs[ix];
+  const bottomVs = m.vs[(m.nz - 1) * m.nx + ix];
+  const bottomM = m.originZ + (m.nz - 1) * m.spacingM;
+  const stages = ((readArtifactSync(inversion.outputs.report) as { data: { stages: Array<{ startMisfit: number; endMisfit: number }> } }).data.stages ?? []).map(
+    (st) => Math.round(100 * (1 - st.endMisfit / st.startMisfit)),
+  );
   recordInterpretation(
     db,
     run.id,
@@ -101,9 +109,8 @@ async function reportOnApprovedInversion(leadEmail: string | undefined): Promise
       summary:
         `The inverted model of line QM-1 shows a zone of low shear-wave velocity centred near ${slowX.toFixed(0)} m along the profile, ` +
         `averaging about ${Math.round(slowVs)} m/s over the top 4 m, slower than the ground on either side. It is consistent with an infilled solution hollow.`,
-      model:
-        "Away from that zone Vs increases steadily with depth, as the cone probe beside the field showed. The surface layer is slower than the starting model assumed.",
-      "data-fit": "The misfit fell in each of the three frequency stages; observed and synthetic waveforms agree in timing across the spread for the shots shown.",
+      model: `Away from that zone, at ${(m.originX + ix * m.spacingM).toFixed(0)} m, Vs rises from about ${Math.round(topVs)} m/s at the surface to about ${Math.round(bottomVs)} m/s at ${bottomM.toFixed(0)} m depth.`,
+      "data-fit": `The misfit fell within each of the ${stages.length} frequency stages, by ${stages.join(", ")} % in turn; compare the observed and synthetic waveforms of the shots shown.`,
       recommendations: `Confirm the extent and depth of the low-velocity zone with a probe or a borehole near ${slowX.toFixed(0)} m before the foundations are designed.`,
     },
     actor,
