@@ -9,7 +9,7 @@ import PDFDocument from "pdfkit";
 import { projectRoot } from "../../db/paths";
 import type { ReportContent } from "./content";
 import { depthProfilesFigure, gatherFigure, misfitFigure, modelFigure, valueRange, type Figure, type Shape } from "./figures";
-import { formatUtc, m, mps, vsRangeWords } from "./words";
+import { fontSafe, formatUtc, m, mps, vsRangeWords } from "./words";
 
 const FONT_DIR = path.join(projectRoot, "pipeline", "report", "fonts");
 const FONTS = {
@@ -93,6 +93,14 @@ export async function renderReportPdf(c: ReportContent, made: ReportMaking): Pro
       ModDate: made.at,
     },
   });
+  // Every string passes through fontSafe on its way in (settings' descriptions and the lead's
+  // text may hold symbols the shipped fonts lack), measured as drawn.
+  const rawText = doc.text.bind(doc);
+  const rawWidth = doc.widthOfString.bind(doc);
+  const rawHeight = doc.heightOfString.bind(doc);
+  doc.text = ((t: string, ...rest: unknown[]) => (rawText as (...a: unknown[]) => Doc)(typeof t === "string" ? fontSafe(t) : t, ...rest)) as typeof doc.text;
+  doc.widthOfString = ((t: string, o?: PDFKit.Mixins.TextOptions) => rawWidth(fontSafe(t), o)) as typeof doc.widthOfString;
+  doc.heightOfString = ((t: string, o?: PDFKit.Mixins.TextOptions) => rawHeight(fontSafe(t), o)) as typeof doc.heightOfString;
   doc.registerFont("sans", FONTS.sans);
   doc.registerFont("bold", FONTS.bold);
   doc.registerFont("mono", FONTS.mono);

@@ -34,6 +34,7 @@ import { readArtifactSync, artifactFilePath } from "@/pipeline/artifact-store";
 import { createReport, readStoredReport } from "@/pipeline/report/create";
 import { crc32, encodePngRgb } from "@/pipeline/report/png";
 import { INVERTED_MODEL_CAUTIONS } from "@/pipeline/report/cautions";
+import { fontSafe } from "@/pipeline/report/words";
 import type { ElasticModel } from "@/pipeline/types";
 import { seededRandom } from "../../helpers/random";
 import { runInversionFixture } from "../../helpers/inverted-run";
@@ -161,6 +162,13 @@ describe("client report", () => {
   it("refuses depth profiles outside the model and shots the inversion did not use, naming the choice", async () => {
     await expect(createReport(db, runId, actor(), { profilePositionsM: [40] })).rejects.toMatchObject({ code: "bad-input", message: expect.stringContaining("40 m") });
     await expect(createReport(db, runId, actor(), { fitShots: ["SP9"] })).rejects.toMatchObject({ code: "bad-input", message: expect.stringContaining("SP9") });
+  });
+});
+
+describe("text for the shipped fonts", () => {
+  it("spells out the symbols the Latin subset lacks and keeps what it holds", () => {
+    // The subset's coverage: @fontsource "latin" (Latin-1, general punctuation, a few signs).
+    expect(fontSafe("\u03b5 \u2265 0.5, \u03c1 in kg/m\u00b3 \u2013 caf\u00e9 \u2022 \u4e2d")).toBe("epsilon >= 0.5, rho in kg/m\u00b3 \u2013 caf\u00e9 \u2022 ?");
   });
 });
 
