@@ -1,7 +1,8 @@
 /** @type {import('next').NextConfig} */
 const nextConfig = {
-  // Native and worker-spawning packages stay outside the server bundle.
-  serverExternalPackages: ["better-sqlite3", "pino", "piscina", "tsx"],
+  // Native and worker-spawning packages stay outside the server bundle (pdfkit reads its font
+  // metrics from its own folder at run time).
+  serverExternalPackages: ["better-sqlite3", "pino", "piscina", "tsx", "pdfkit"],
   poweredByHeader: false,
   reactStrictMode: true,
   // forbidden() renders app/forbidden.tsx for pages a role may not see.

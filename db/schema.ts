@@ -369,3 +369,27 @@ export const runReproductions = sqliteTable(
   },
   (t) => [index("run_reproductions_run").on(t.runId, t.id)],
 );
+
+/**
+ * The lead's interpretation of an approved run, one text per report section. Versioned: every
+ * save is a new row with the next version number of its (run, section); rows are never changed.
+ */
+export const interpretations = sqliteTable(
+  "interpretations",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    runId: integer("run_id")
+      .notNull()
+      .references(() => runs.id),
+    /** Report section the text belongs to, e.g. "summary", "model", "data-fit", "limitations". */
+    section: text("section").notNull(),
+    text: text("text").notNull(),
+    /** 1, 2, ... per (run, section). */
+    version: integer("version").notNull(),
+    authorUserId: integer("author_user_id").references(() => users.id),
+    /** Name of the author (or the OS user on the command line) as it was when saved. */
+    authorLabel: text("author_label").notNull(),
+    at: integer("at", { mode: "timestamp_ms" }).notNull().default(now),
+  },
+  (t) => [uniqueIndex("interpretations_version").on(t.runId, t.section, t.version)],
+);

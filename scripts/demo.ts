@@ -4,6 +4,7 @@
  *  2. adds the demo accounts (one per role),
  *  3. generates the invented Quillmoor survey (examples/quillmoor),
  *  4. runs the example pipelines through the command line, then a rerun with a changed filter,
+ *     then the lead approves the inversion and makes the client report (data/reports/),
  *  5. builds the control room if needed and serves it on http://127.0.0.1:3000.
  * `--prepare-only` stops after step 4 (browser tests use it with a temporary data folder).
  */
@@ -14,7 +15,14 @@ import { getDb, closeDb } from "../db/client";
 import { dataDir, databasePath, projectRoot } from "../db/paths";
 import { seedDemoUsers } from "../db/seed";
 import { describeSurvey } from "../db/queries/surveys";
-import { listRuns } from "../db/queries/runs";
+import { getRun, listRuns } from "../db/queries/runs";
+import { writeTransaction } from "../db/client";
+import { recordAudit } from "../db/queries/audit";
+import { addReviewOnce, latestDecision } from "../db/queries/review-decisions";
+import { getUserByEmail } from "../db/queries/users";
+import { readArtifactSync } from "../pipeline/artifact-store";
+import { recordInterpretation } from "../pipeline/report/interpretation";
+import type { ElasticModel } from "../pipeline/types";
 
 const args = new Set(process.argv.slice(2));
 const prepareOnly = args.has("--prepare-only");
@@ -73,6 +81,69 @@ async function reproduceAndVerifyAudit(auditor: string | undefined) {
   say(`  audit verify exit code ${v.exitCode} (${v.exitCode === 0 ? "intact" : "BROKEN"})`);
 }
 
+/**
+ * What leaves the office: the lead approves the inversion run, writes the interpretation (read
+ * off the inverted model: where the slowest ground near the surface lies) and makes the client
+ * report through the command line, which prints its page count and generation time.
+ */
+async function reportOnApprovedInversion(leadEmail: string | undefined): Promise<void> {
+  const db = getDb();
+  const run = listRuns(db, { pipelineName: "quillmoor-qm1-inversion", status: "succeeded", pageSize: 1 }).rows[0];
+  const lead = leadEmail ? getUserByEmail(db, leadEmail) : null;
+  if (!run || !lead) {
+    closeDb();
+    say("  (no finished inversion run or no lead: no client report)");
+    return;
+  }
+  const actor = { userId: lead.id, label: lead.name, door: "cli" as const };
+  if (latestDecision(db, run.id)?.decision !== "approved") {
+    writeTransaction(db, (tx) => {
+      addReviewOnce(tx, { runId: run.id, reviewerUserId: lead.id, decision: "approved", comment: "Fit and model checked against the probe; approved for the client report." });
+      recordAudit(tx, { actor, action: "review.approve", entityType: "run", entityId: run.id, after: { decision: "approved" } });
+    });
+  }
+  // The slowest column of the top 4 m of the inverted model, as the lead reads it off the section.
+  const inversion = getRun(db, run.id)!.steps.find((s) => s.stepId === "waveform-inversion")!;
+  const m = readArtifactSync(inversion.outputs.model) as ElasticModel;
+  const rows = Math.min(m.nz, Math.round(4 / m.spacingM));
+  let slowX = m.originX;
+  let slowVs = Infinity;
+  for (let ix = 0; ix < m.nx; ix++) {
+    let sum = 0;
+    for (let iz = 0; iz < rows; iz++) sum += m.vs[iz * m.nx + ix];
+    if (sum / rows < slowVs) [slowVs, slowX] = [sum / rows, m.originX + ix * m.spacingM];
+  }
+  // Away from the slow zone: Vs near the surface and at the bottom of the grid, a quarter along.
+  const ix = Math.round(((slowX - m.originX) / m.spacingM + m.nx / 4) % m.nx);
+  const topVs = m.vs[ix];
+  const bottomVs = m.vs[(m.nz - 1) * m.nx + ix];
+  const bottomM = m.originZ + (m.nz - 1) * m.spacingM;
+  const stages = ((readArtifactSync(inversion.outputs.report) as { data: { stages: Array<{ startMisfit: number; endMisfit: number }> } }).data.stages ?? []).map(
+    (st) => Math.round(100 * (1 - st.endMisfit / st.startMisfit)),
+  );
+  recordInterpretation(
+    db,
+    run.id,
+    {
+      summary:
+        `The inverted model of line QM-1 shows a zone of low shear-wave velocity centred near ${slowX.toFixed(0)} m along the profile, ` +
+        `averaging about ${Math.round(slowVs)} m/s over the top 4 m, slower than the ground on either side. It is consistent with an infilled solution hollow.`,
+      model: `Away from that zone, at ${(m.originX + ix * m.spacingM).toFixed(0)} m, Vs rises from about ${Math.round(topVs)} m/s at the surface to about ${Math.round(bottomVs)} m/s at ${bottomM.toFixed(0)} m depth.`,
+      "data-fit": `The misfit fell within each of the ${stages.length} frequency stages, by ${stages.join(", ")} % in turn; compare the observed and synthetic waveforms of the shots shown.`,
+      recommendations: `Confirm the extent and depth of the low-velocity zone with a probe or a borehole near ${slowX.toFixed(0)} m before the foundations are designed.`,
+    },
+    actor,
+  );
+  closeDb();
+  const out = path.join(dataDir(), "reports", `quillmoor-qm1-run-${run.id}.pdf`);
+  fs.mkdirSync(path.dirname(out), { recursive: true });
+  say(`\n  the lead approves run ${run.id}, writes the interpretation and makes the client report`);
+  const positions = [0.3, 0.5, 0.7].map((f) => Math.round(m.originX + f * (m.nx - 1) * m.spacingM));
+  positions[1] = Math.round(slowX);
+  const r = await cli(["report", String(run.id), "--out", out, "--force", "--positions", positions.join(","), "--as", lead.email]);
+  if (r.exitCode !== 0) throw new Error(`the client report failed (exit ${r.exitCode})`);
+}
+
 async function main() {
   say(`Tracewright demo: data in ${dataDir()}`);
   const db = getDb();
@@ -127,6 +198,7 @@ async function main() {
   }
 
   await reproduceAndVerifyAudit(accounts.find((a) => a.role === "auditor")?.email);
+  await reportOnApprovedInversion(lead);
 
   say("\nDemo accounts (invented people; demo passwords):");
   for (const a of accounts) say(`  ${a.role.padEnd(10)} ${a.email.padEnd(34)} ${a.password.padEnd(26)} ${a.name}`);

@@ -18,7 +18,7 @@ export default async function ControlLayout({ children }: { children: React.Reac
   ];
   return (
     <div className="min-h-screen">
-      <header className="border-b border-line bg-panel">
+      <header className="border-b border-line bg-panel print:hidden">
         <div className="mx-auto flex h-14 max-w-[1400px] items-center gap-6 px-5">
           <Link href="/runs" className="flex items-center gap-2 font-semibold">
             {/* eslint-disable-next-line @next/next/no-img-element */}

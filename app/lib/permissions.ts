@@ -86,6 +86,7 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "GET /api/runs/[runId]/steps/[stepLabel]/download": "runs.read",
   "GET /api/runs/[runId]/steps/[stepLabel]/intermediates": "runs.read",
   "GET /api/runs/[runId]/audit-export": "audit.read",
+  "GET /api/runs/[runId]/reports/[hash]": "runs.read",
   "GET /api/artifacts/[hash]": "runs.read",
   "GET /api/artifacts/[hash]/field": "runs.read",
   "GET /api/artifacts/[hash]/lines": "runs.read",
@@ -109,6 +110,8 @@ export const ACTION_REQUIREMENTS: Record<string, Requirement> = {
   decideRun: "runs.review",
   savePipeline: "pipelines.edit",
   startReproduction: "runs.reproduce",
+  saveRunInterpretation: "runs.review",
+  makeRunReport: "runs.review",
 };
 
 /** True when `role` (null: nobody signed in) meets `requirement`. */

@@ -32,6 +32,9 @@ import { createRun } from "@/pipeline/run-create";
 import { ACTION_REQUIREMENTS, ROUTE_REQUIREMENTS, meets, type Requirement } from "@/app/lib/permissions";
 import type { FormState } from "@/app/lib/actions/form-state";
 import { registerEngineTestSteps } from "../helpers/engine-steps";
+import { runInversionFixture } from "../helpers/inverted-run";
+import { addReview } from "@/db/queries/reviews";
+import { createReport } from "@/pipeline/report/create";
 
 type Handler = (req: Request, ctx: { params: Promise<Record<string, string | string[]>> }) => Promise<Response>;
 type Case = () => { url: string; body?: unknown; params?: Record<string, string | string[]> };
@@ -41,7 +44,7 @@ const ORIGIN = "http://127.0.0.1:3000";
 let tmp: string;
 const users = {} as Record<Role, { id: number; role: Role; name: string; email: string }>;
 let reviewCount = 0;
-const fx = { runId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0 };
+const fx = { runId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0, invertedRunId: 0, report: "" };
 
 /** Route files on disk, as the keys of ROUTE_REQUIREMENTS ("METHOD /api/..."). */
 function routesOnDisk(): Array<{ key: string; file: string; method: string }> {
@@ -79,6 +82,7 @@ const CASES: Record<string, Case> = {
   "GET /api/runs/[runId]/steps/[stepLabel]/download": () => ({ url: `/api/runs/${fx.runId}/steps/scale/download`, params: { runId: String(fx.runId), stepLabel: "scale" } }),
   "GET /api/runs/[runId]/steps/[stepLabel]/intermediates": () => ({ url: `/api/runs/${fx.runId}/steps/scale/intermediates`, params: { runId: String(fx.runId), stepLabel: "scale" } }),
   "GET /api/runs/[runId]/audit-export": () => ({ url: `/api/runs/${fx.runId}/audit-export?format=json`, params: { runId: String(fx.runId) } }),
+  "GET /api/runs/[runId]/reports/[hash]": () => ({ url: `/api/runs/${fx.invertedRunId}/reports/${fx.report}`, params: { runId: String(fx.invertedRunId), hash: fx.report } }),
   "GET /api/artifacts/[hash]/field": () => ({ url: `/api/artifacts/${fx.model}/field`, params: { hash: fx.model } }),
   "GET /api/artifacts/[hash]": () => ({ url: `/api/artifacts/${fx.gathers}`, params: { hash: fx.gathers } }),
   "GET /api/artifacts/[hash]/lines": () => ({ url: `/api/artifacts/${fx.picks}/lines?gather=g1`, params: { hash: fx.picks } }),
@@ -127,8 +131,12 @@ beforeAll(async () => {
   fx.model = record("model", { kind: "model", nx, nz, spacingM: 1, originX: 0, originZ: 0, vp: new Float32Array(6).fill(500), vs: new Float32Array(6).fill(200), rho: new Float32Array(6).fill(1800) });
   fx.snapshots = record("snapshots", { kind: "snapshots", shotId: "g1", component: "vz", nx, nz, spacingM: 1, originX: 0, originZ: 0, timesS: [0, 0.01], frames: new Float32Array(12) });
   fx.picks = record("picks", { kind: "picks", method: "energy-ratio", picks: [{ gatherId: "g1", traceIndex: 0, timeS: 0.01, quality: 0.9, flagged: false }] });
+  // An approved inversion run with one client report, for the report download and actions.
+  fx.invertedRunId = await runInversionFixture(db, tmp, { lowPassHz: [40], iterations: 1 });
+  addReview(db, { runId: fx.invertedRunId, reviewerUserId: users.lead.id, decision: "approved", comment: "" });
+  fx.report = (await createReport(db, fx.invertedRunId, { userId: users.lead.id, label: users.lead.name, door: "cli" })).hash;
   fx.spectra = record("spectra", { kind: "spectra", frequenciesHz: new Float32Array([0, 10]), gathers: [{ gatherId: "g1", mean: new Float32Array([1, 2]), perTrace: new Float32Array([1, 2]) }] });
-});
+}, 180_000);
 
 afterAll(() => {
   closeDb();
@@ -218,6 +226,8 @@ const ACTION_INPUT: Record<string, () => FormData> = {
   // Each allowed save changes the scale factor, so each makes a new version on the newest one.
   savePipeline: () => form({ factor: String(10 + ++saved) }),
   startReproduction: () => form({ runId: String(fx.runId) }),
+  saveRunInterpretation: () => form({ runId: String(fx.invertedRunId), summary: `matrix interpretation ${++reviewCount}` }),
+  makeRunReport: () => form({ runId: String(fx.invertedRunId), positions: "", shots: "" }),
 };
 let saved = 0;
 let currentRole: Role | null = null;
@@ -231,6 +241,7 @@ describe("server actions × roles", () => {
         const { decideRun } = await import("@/app/lib/actions/reviews");
         const { savePipeline } = await import("@/app/lib/actions/pipelines");
         const { startReproduction } = await import("@/app/lib/actions/reproductions");
+        const { saveRunInterpretation, makeRunReport } = await import("@/app/lib/actions/reports");
         const actions = {
           ...(await import("@/app/lib/actions/users")),
           ...(await import("@/app/lib/actions/password")),
@@ -247,6 +258,9 @@ describe("server actions × roles", () => {
           },
           // so does startReproduction (the reproduce button)
           startReproduction: (_prev: FormState, f: FormData) => startReproduction({ runId: Number(f.get("runId")) }),
+          // The report form sends objects too.
+          saveRunInterpretation: (_prev: FormState, f: FormData) => saveRunInterpretation({ runId: Number(f.get("runId")), sections: { summary: String(f.get("summary")) } }),
+          makeRunReport: (_prev: FormState, f: FormData) => makeRunReport({ runId: Number(f.get("runId")), positions: String(f.get("positions")), shots: String(f.get("shots")) }),
         } as unknown as Record<string, (prev: FormState, f: FormData) => Promise<FormState>>;
         currentRole = role;
         if (role === null) signOut();

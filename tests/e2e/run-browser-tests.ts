@@ -415,6 +415,47 @@ async function main() {
       check((await list.locator("li").count()) === before, "removing a stage did not remove it");
     });
 
+    await test("client report: a lead approves the inversion, writes the interpretation, makes the PDF; the print page shows the cautions", async () => {
+      await signIn(page, origin, account("lead").email, account("lead").password);
+      const runs = await apiRuns(page, origin);
+      let runId = 0;
+      for (const r of [...runs.rows].reverse()) {
+        if (r.status !== "succeeded") continue;
+        const detail = await apiRun(page, origin, r.id);
+        if (detail.steps.some((s) => s.stepId === "waveform-inversion")) {
+          runId = r.id;
+          break;
+        }
+      }
+      if (!runId) throw new Skip("no finished inversion run in the data folder (npm run demo makes one)");
+      const reviews = await page.request.get(`${origin}/api/runs/${runId}/reviews`);
+      const latest = ((await reviews.json()) as { reviews: Array<{ decision: string }> }).reviews[0];
+      if (latest?.decision !== "approved") {
+        const res = await page.request.post(`${origin}/api/runs/${runId}/reviews`, { data: { decision: "approved", comment: "" } });
+        check(res.ok(), `approving run ${runId} answered ${res.status()}`);
+      }
+      await goto(page, `${origin}/runs/${runId}/report`, "report page");
+      await page.waitForSelector("[data-testid=client-report]");
+      const cautions = (await page.textContent("[data-testid=report-cautions]")) ?? "";
+      check(cautions.includes("must not be the sole basis for excavation, construction or safety decisions"), "the print page lacks the cautions");
+      const summary = `Browser check ${Date.now()}: a slow zone near the middle of the line.`;
+      await page.fill("#interpretation-summary", summary);
+      await page.click("form[aria-label=Interpretation] button[type=submit]");
+      await page.waitForSelector("form[aria-label=Interpretation] [role=status]");
+      await page.click("[data-testid=make-report-button]");
+      await page.waitForSelector("form[aria-label='Make the report'] [role=status] a", { timeout: 120_000 });
+      const href = await page.getAttribute("form[aria-label='Make the report'] [role=status] a", "href");
+      check(href, "no download link after making the report");
+      const pdf = await page.request.get(`${origin}${href}`);
+      check(pdf.ok() && (pdf.headers()["content-type"] ?? "").includes("application/pdf"), `the report download answered ${pdf.status()} ${pdf.headers()["content-type"]}`);
+      const bytes = await pdf.body();
+      check(bytes.subarray(0, 5).toString("latin1") === "%PDF-", "the download is not a PDF");
+      await page.reload({ waitUntil: "load" });
+      check(((await page.textContent("[data-testid=client-report]")) ?? "").includes(summary), "the print page does not show the saved interpretation");
+      check((await page.locator("[data-testid=stored-reports] li").count()) >= 1, "the stored report is not listed");
+      await shoot(page, "client-report");
+    });
+
     let rerunId = 0;
     await test("processor reruns with a changed setting; the new run opens and reuses upstream steps", async () => {
       const run = await apiRun(page, origin, firstRunId);

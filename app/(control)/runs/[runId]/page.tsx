@@ -1,4 +1,5 @@
 import type { Metadata } from "next";
+import Link from "next/link";
 import { notFound } from "next/navigation";
 import { idSchema } from "@/app/lib/api";
 import { pageUserWith } from "@/app/lib/page-user";
@@ -20,11 +21,20 @@ export default async function RunPage({ params, searchParams }: { params: Promis
   if (!run) notFound();
   const { step } = await searchParams;
   return (
-    <RunLive
-      initial={run}
-      initialStep={step}
-      paramDocs={readParamDocs(run.steps.map((s) => s.stepId))}
-      can={{ rerun: can(user.role, "runs.rerun"), cancel: can(user.role, "runs.cancel"), review: can(user.role, "runs.review"), auditExport: can(user.role, "audit.read"), reproduce: can(user.role, "runs.reproduce") }}
-    />
+    <>
+      <RunLive
+        initial={run}
+        initialStep={step}
+        paramDocs={readParamDocs(run.steps.map((s) => s.stepId))}
+        can={{ rerun: can(user.role, "runs.rerun"), cancel: can(user.role, "runs.cancel"), review: can(user.role, "runs.review"), auditExport: can(user.role, "audit.read"), reproduce: can(user.role, "runs.reproduce") }}
+      />
+      {run.status === "succeeded" ? (
+        <p className="mt-4 text-sm">
+          <Link href={`/runs/${run.id}/report`} className="underline" data-testid="client-report-link">
+            Client report: interpretation, print-friendly page and PDF
+          </Link>
+        </p>
+      ) : null}
+    </>
   );
 }
