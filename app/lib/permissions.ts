@@ -17,6 +17,8 @@ export const PERMISSIONS = [
   "pipelines.edit",
   /** Approve a run or send it back. */
   "runs.review",
+  /** Create and change surveys, their profiles and the people on them. */
+  "surveys.edit",
   /** Read the audit trail. */
   "audit.read",
   /** Add and invite users, change roles, deactivate. */
@@ -24,7 +26,7 @@ export const PERMISSIONS = [
 ] as const;
 export type Permission = (typeof PERMISSIONS)[number];
 
-const PROCESSOR: Permission[] = ["runs.read", "runs.start", "runs.rerun", "runs.cancel", "pipelines.edit", "audit.read"];
+const PROCESSOR: Permission[] = ["runs.read", "runs.start", "runs.rerun", "runs.cancel", "pipelines.edit", "surveys.edit", "audit.read"];
 
 /** The table. An auditor reads everything and changes nothing. */
 export const ROLE_PERMISSIONS: Record<Role, readonly Permission[]> = {
@@ -56,6 +58,7 @@ export function forbiddenMessage(role: Role, permission: Permission): string {
     "runs.cancel": "stop runs",
     "pipelines.edit": "edit pipelines",
     "runs.review": "approve or send back runs",
+    "surveys.edit": "change surveys or profiles",
     "audit.read": "read the audit trail",
     "users.manage": "manage users",
   };
@@ -103,6 +106,14 @@ export const ACTION_REQUIREMENTS: Record<string, Requirement> = {
   changeActive: "users.manage",
   changeOwnPassword: "signed-in",
   decideRun: "runs.review",
+  saveNoticePreferences: "signed-in",
+  requestPasswordReset: "public",
+  setPasswordWithLink: "public",
+  addSurvey: "surveys.edit",
+  editSurvey: "surveys.edit",
+  addSurveyProfile: "surveys.edit",
+  editSurveyProfile: "surveys.edit",
+  putPersonOnSurvey: "surveys.edit",
 };
 
 /** True when `role` (null: nobody signed in) meets `requirement`. */
