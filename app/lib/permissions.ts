@@ -95,6 +95,10 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "GET /api/artifacts/[hash]/spectra": "runs.read",
   "GET /api/artifacts/[hash]/traces": "runs.read",
   "GET /api/audit": "audit.read",
+  "GET /api/surveys": "runs.read",
+  "POST /api/surveys": "surveys.edit",
+  "GET /api/surveys/[slug]": "runs.read",
+  "POST /api/surveys/[slug]/profiles": "surveys.edit",
   "GET /api/auth/[...nextauth]": "public",
   "POST /api/auth/[...nextauth]": "public",
 };

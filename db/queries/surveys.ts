@@ -63,8 +63,8 @@ export function listSurveys(db: Db, search = ""): SurveyListRow[] {
   return db
     .select({
       survey: surveys,
-      profileCount: sql<number>`(select count(*) from ${profiles} where ${profiles.surveyId} = ${surveys.id})`,
-      runCount: sql<number>`(select count(*) from ${runs} join ${datasets} on ${datasets.id} = ${runs.datasetId} where ${datasets.surveyId} = ${surveys.id})`,
+      profileCount: sql<number>`(select count(*) from profiles p where p.survey_id = "surveys"."id")`,
+      runCount: sql<number>`(select count(*) from runs r join datasets d on d.id = r.dataset_id where d.survey_id = "surveys"."id")`,
     })
     .from(surveys)
     .where(match)
