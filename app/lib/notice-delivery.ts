@@ -1,9 +1,9 @@
 /**
  * The web server's notice sender: every few seconds it hands the outbox to the engine's sender
- * (pipeline/notice-sender.ts). Started once per server process from instrumentation.ts; does
+ * (pipeline/notice-sender.ts). Started once per server process from instrumentation.ts (no
+ * "server-only" import: the instrumentation layer is not a server-component layer); does
  * nothing without a mail server (TRACEWRIGHT_SMTP_HOST).
  */
-import "server-only";
 import { getDb } from "@/db/client";
 import { deliverNotices, smtpSettings } from "@/pipeline/notice-sender";
 
