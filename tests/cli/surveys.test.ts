@@ -9,26 +9,27 @@ import os from "node:os";
 import path from "node:path";
 import { execa } from "execa";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { openDatabase } from "../../db/client";
+import { createUser } from "../../db/queries/users";
 
 let tmp: string;
 const bin = path.join(process.cwd(), "bin", "tracewright.mjs");
 const tw = (args: string[], env: Record<string, string> = {}) =>
   execa(process.execPath, [bin, ...args], {
-    env: { ...process.env, TRACEWRIGHT_DATA_DIR: path.join(tmp, "data"), TRACEWRIGHT_USER: "", TRACEWRIGHT_NEW_PASSWORD: "a-long-password-1", ...env },
+    env: { ...process.env, TRACEWRIGHT_DATA_DIR: path.join(tmp, "data"), TRACEWRIGHT_DB: path.join(tmp, "data", "tracewright.db"), TRACEWRIGHT_USER: "", ...env },
     reject: false,
     cwd: tmp,
   });
 
-beforeAll(async () => {
+beforeAll(() => {
   tmp = fs.mkdtempSync(path.join(os.tmpdir(), "tw-cli-surveys-"));
-  expect((await tw(["users", "add", "--email", "ines@corvell.example", "--name", "Ines Varga", "--role", "admin"])).exitCode).toBe(0);
-  for (const [email, name, role] of [
-    ["tam@corvell.example", "Tam Whitcombe", "processor"],
-    ["odile@corvell.example", "Odile Brasher", "auditor"],
-  ]) {
-    expect((await tw(["users", "add", "--email", email, "--name", name, "--role", role, "--as", "ines@corvell.example"])).exitCode).toBe(0);
-  }
-}, 60_000);
+  // The accounts go straight into the database the command line will open.
+  const db = openDatabase(path.join(tmp, "data", "tracewright.db"));
+  createUser(db, { email: "ines@corvell.example", name: "Ines Varga", role: "admin", password: "a-long-password-1" });
+  createUser(db, { email: "tam@corvell.example", name: "Tam Whitcombe", role: "processor", password: "a-long-password-1" });
+  createUser(db, { email: "odile@corvell.example", name: "Odile Brasher", role: "auditor", password: "a-long-password-1" });
+  db.$client.close();
+});
 
 afterAll(() => {
   fs.rmSync(tmp, { recursive: true, force: true });
@@ -50,7 +51,7 @@ describe("tracewright surveys", () => {
       { name: "QM-1", orientationDeg: 75, spreadDescription: "", crs: "EPSG:27700", start: [412350, 287640], end: [412395.4, 287652.2], latestApprovedModel: null },
     ]);
     expect(body.people).toEqual([{ email: "tam@corvell.example", name: "Tam Whitcombe", role: "lead" }]);
-  }, 60_000);
+  }, 240_000);
 
   it("refuses bad input naming the option, and an auditor's change", async () => {
     const as = ["--as", "tam@corvell.example"];
@@ -67,5 +68,5 @@ describe("tracewright surveys", () => {
     expect(auditor.exitCode).toBe(2);
     expect(auditor.stderr).toMatch(/auditor role may not change surveys/);
     expect(auditor.stderr).not.toMatch(/\n\s+at /);
-  }, 60_000);
+  }, 240_000);
 });
