@@ -128,6 +128,18 @@ async function apiRun(page: Page, origin: string, id: number) {
   };
 }
 
+/** Retries a read a few times when the loaded server drops the connection (ECONNRESET) instead of answering. */
+async function patiently<T>(read: () => Promise<T>): Promise<T> {
+  for (let attempt = 1; ; attempt++) {
+    try {
+      return await read();
+    } catch (err) {
+      if (attempt >= 4 || !/ECONNRESET|socket hang up/.test((err as Error).message)) throw err;
+      await new Promise((r) => setTimeout(r, 1000 * attempt));
+    }
+  }
+}
+
 /** A captured message with its header folding and quoted-printable soft breaks and escapes undone (RFC 5322 §2.2.3, RFC 2045 §6.7). */
 function unfold(raw: string): string {
   return raw
@@ -576,9 +588,9 @@ async function main() {
       await signIn(page, origin, account("processor").email, account("processor").password);
       // The first demo run with a frequency-filter step (the processing pipeline's).
       let source: { id: number; label: string } | null = null;
-      for (const r of (await apiRuns(page, origin)).rows) {
+      for (const r of (await patiently(() => apiRuns(page, origin))).rows) {
         if (r.status !== "succeeded") continue;
-        const step = (await apiRun(page, origin, r.id)).steps.find((s) => s.stepId === "frequency-filter");
+        const step = (await patiently(() => apiRun(page, origin, r.id))).steps.find((s) => s.stepId === "frequency-filter");
         if (step) {
           source = { id: r.id, label: step.label };
           break;
@@ -594,11 +606,11 @@ async function main() {
       await page.click("[data-testid=start-rerun]");
       await page.waitForURL(/\/runs\/\d+$/, { timeout: 20_000 });
       const failedId = Number(page.url().split("/").pop());
-      const deadline = Date.now() + 120_000;
-      let detail = await apiRun(page, origin, failedId);
+      const deadline = Date.now() + 300_000;
+      let detail = await patiently(() => apiRun(page, origin, failedId));
       while ((detail.status === "queued" || detail.status === "running") && Date.now() < deadline) {
         await page.waitForTimeout(1000);
-        detail = await apiRun(page, origin, failedId);
+        detail = await patiently(() => apiRun(page, origin, failedId));
       }
       check(detail.status === "failed", `the run with highCutHz 2500 ended ${detail.status}`);
       let msg: (typeof mail.messages)[number] | undefined;
