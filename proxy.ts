@@ -14,9 +14,11 @@ import { NextResponse, type NextRequest } from "next/server";
 import { getToken } from "next-auth/jwt";
 import { authSecret } from "@/app/lib/auth-secret";
 
-/** Paths anyone may reach without a session: the sign-in page and next-auth's own routes. */
+/** Paths anyone may reach without a session: the sign-in page, the password-link pages and next-auth's own routes. */
 export function isPublicPath(pathname: string): boolean {
-  return pathname === "/sign-in" || pathname.startsWith("/sign-in/") || pathname === "/api/auth" || pathname.startsWith("/api/auth/");
+  return (
+    ["/sign-in", "/forgot-password", "/set-password", "/api/auth"].some((p) => pathname === p || pathname.startsWith(`${p}/`))
+  );
 }
 
 /**

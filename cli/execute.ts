@@ -1,6 +1,7 @@
 /** Executes a queued run in this process with terminal progress, Ctrl-C cancel and exit codes. */
 import type { Db } from "../db/client";
 import { getRun } from "../db/queries/runs";
+import { deliverNotices } from "../pipeline/notice-sender";
 import { executeRun } from "../pipeline/runner";
 import { closeSharedWorkerPool } from "../pipeline/workers/pool";
 import { terminalProgress } from "./progress";
@@ -57,5 +58,9 @@ export async function executeInTerminal(db: Db, runId: number, opts: { json?: bo
     process.off("SIGINT", onSigint);
     process.off("SIGTERM", onSigint);
     await closeSharedWorkerPool();
+    // The notices of the run's end (and any others waiting) go out now when mail is set up; the
+    // web server's sender picks up whatever this could not send.
+    const mail = await deliverNotices(db);
+    if (mail.failed > 0 && !opts.quiet) process.stderr.write(`${mail.failed} mail notice(s) could not be sent; they stay in the outbox\n`);
   }
 }

@@ -9,8 +9,21 @@ import { index, integer, primaryKey, real, sqliteTable, text, uniqueIndex } from
 
 // The names of roles, states and doors live in a module without the database, so that client
 // code can use them without pulling the schema into a browser bundle.
-export { DOORS, ROLES, RUN_STATUSES, STEP_STATUSES, type Door, type Role, type RunStatus, type StepStatus } from "./vocabulary";
-import { RUN_STATUSES, ROLES, STEP_STATUSES, DOORS } from "./vocabulary";
+export {
+  DOORS,
+  NOTICE_KINDS,
+  ROLES,
+  RUN_STATUSES,
+  STEP_STATUSES,
+  SURVEY_ROLES,
+  type Door,
+  type NoticeKind,
+  type Role,
+  type RunStatus,
+  type StepStatus,
+  type SurveyRole,
+} from "./vocabulary";
+import { RUN_STATUSES, ROLES, STEP_STATUSES, DOORS, NOTICE_KINDS, SURVEY_ROLES } from "./vocabulary";
 
 const now = sql`(unixepoch('subsec') * 1000)`;
 
@@ -35,8 +48,30 @@ export const surveys = sqliteTable("surveys", {
   site: text("site").notNull().default(""),
   client: text("client").notNull().default(""),
   description: text("description").notNull().default(""),
+  /** What the survey is for, in a sentence or two. */
+  purpose: text("purpose").notNull().default(""),
+  /** First and last day in the field, ISO dates "YYYY-MM-DD" (empty when not known). */
+  startDate: text("start_date").notNull().default(""),
+  endDate: text("end_date").notNull().default(""),
+  notes: text("notes").notNull().default(""),
   createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
 });
+
+/** The people on a survey and what they do on it (see SURVEY_ROLES in db/vocabulary.ts). */
+export const surveyPeople = sqliteTable(
+  "survey_people",
+  {
+    surveyId: integer("survey_id")
+      .notNull()
+      .references(() => surveys.id),
+    userId: integer("user_id")
+      .notNull()
+      .references(() => users.id),
+    role: text("role", { enum: SURVEY_ROLES }).notNull().default("processor"),
+    addedAt: integer("added_at", { mode: "timestamp_ms" }).notNull().default(now),
+  },
+  (t) => [primaryKey({ columns: [t.surveyId, t.userId] })],
+);
 
 export const profiles = sqliteTable(
   "profiles",
@@ -48,6 +83,17 @@ export const profiles = sqliteTable(
     /** Line name, e.g. "QM-1". */
     name: text("name").notNull(),
     description: text("description").notNull().default(""),
+    /** Bearing of the line from its start to its end, degrees clockwise from grid north (null: not stated). */
+    orientationDeg: real("orientation_deg"),
+    /** The spread in words, e.g. "48 vertical 4.5 Hz geophones at 1 m". */
+    spreadDescription: text("spread_description").notNull().default(""),
+    /** The coordinate reference of the end coordinates, "EPSG:nnnn" (empty: none stated). */
+    crs: text("crs").notNull().default(""),
+    /** Line ends in the stated reference (easting/northing or x/y in its unit). */
+    startX: real("start_x"),
+    startY: real("start_y"),
+    endX: real("end_x"),
+    endY: real("end_y"),
   },
   (t) => [uniqueIndex("profiles_survey_name").on(t.surveyId, t.name)],
 );
@@ -392,4 +438,63 @@ export const interpretations = sqliteTable(
     at: integer("at", { mode: "timestamp_ms" }).notNull().default(now),
   },
   (t) => [uniqueIndex("interpretations_version").on(t.runId, t.section, t.version)],
+);
+
+/**
+ * Mail notices waiting to be sent, and sent: the engine and the web write rows (db/queries/notices.ts),
+ * a sender delivers them (the web server on a short interval, the command line at the end of a
+ * run). `sentAt` set: delivered; `error`: the last failed attempt.
+ */
+export const notices = sqliteTable(
+  "notices",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    kind: text("kind", { enum: NOTICE_KINDS }).notNull(),
+    toUserId: integer("to_user_id").references(() => users.id),
+    toAddress: text("to_address").notNull(),
+    subject: text("subject").notNull(),
+    body: text("body").notNull(),
+    /** What it is about, e.g. "run" and its id. */
+    entityType: text("entity_type").notNull().default(""),
+    entityId: text("entity_id").notNull().default(""),
+    createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+    /** A sender took it (so two senders never mail it twice); a claim older than a minute is taken over. */
+    claimedAt: integer("claimed_at", { mode: "timestamp_ms" }),
+    sentAt: integer("sent_at", { mode: "timestamp_ms" }),
+    attempts: integer("attempts").notNull().default(0),
+    error: text("error"),
+  },
+  (t) => [index("notices_unsent").on(t.sentAt, t.id)],
+);
+
+/** Notices a person chose not to get (absent row: the notice is wanted). */
+export const noticeOptOuts = sqliteTable(
+  "notice_opt_outs",
+  {
+    userId: integer("user_id")
+      .notNull()
+      .references(() => users.id),
+    kind: text("kind", { enum: NOTICE_KINDS }).notNull(),
+  },
+  (t) => [primaryKey({ columns: [t.userId, t.kind] })],
+);
+
+/**
+ * Mailed links that set a password: a forgotten-password reset or an invitation. Only the SHA-256
+ * of the random token is kept; a link works once (`usedAt`) and until `expiresAt`.
+ */
+export const passwordTokens = sqliteTable(
+  "password_tokens",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    userId: integer("user_id")
+      .notNull()
+      .references(() => users.id),
+    purpose: text("purpose", { enum: ["reset", "invitation"] }).notNull(),
+    tokenHash: text("token_hash").notNull().unique(),
+    createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+    expiresAt: integer("expires_at", { mode: "timestamp_ms" }).notNull(),
+    usedAt: integer("used_at", { mode: "timestamp_ms" }),
+  },
+  (t) => [index("password_tokens_user").on(t.userId)],
 );

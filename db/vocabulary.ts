@@ -15,3 +15,19 @@ export type StepStatus = (typeof STEP_STATUSES)[number];
 /** Which door started something. */
 export const DOORS = ["cli", "web", "watcher"] as const;
 export type Door = (typeof DOORS)[number];
+
+/** What a person does on one survey (survey_people.role). */
+export const SURVEY_ROLES = ["lead", "processor", "field lead", "field assistant"] as const;
+export type SurveyRole = (typeof SURVEY_ROLES)[number];
+
+/** The mail notices a person may choose to get. */
+export const NOTICE_KINDS = ["run-stopped", "review-waiting", "review-decision", "upload-arrived"] as const;
+export type NoticeKind = (typeof NOTICE_KINDS)[number];
+
+/** The notices in words (account page, outbox). */
+export const NOTICE_LABELS: Record<NoticeKind, string> = {
+  "run-stopped": "A run I started failed or was interrupted",
+  "review-waiting": "A run of a survey I lead waits for review",
+  "review-decision": "A lead approved or sent back a run I started",
+  "upload-arrived": "Field files arrived for a survey I am on (with each file's verdict)",
+};

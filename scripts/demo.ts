@@ -23,6 +23,11 @@ import { getUserByEmail } from "../db/queries/users";
 import { readArtifactSync } from "../pipeline/artifact-store";
 import { recordInterpretation } from "../pipeline/report/interpretation";
 import type { ElasticModel } from "../pipeline/types";
+import { addProfile, createSurvey, getProfile, getSurveyBySlug, setSurveyPerson, updateSurvey } from "../db/queries/surveys";
+import { profileFields, newSurvey } from "../db/survey-fields";
+import type { Db } from "../db/client";
+import type net from "node:net";
+import { SMTPServer } from "smtp-server";
 
 const args = new Set(process.argv.slice(2));
 const prepareOnly = args.has("--prepare-only");
@@ -144,11 +149,92 @@ async function reportOnApprovedInversion(leadEmail: string | undefined): Promise
   if (r.exitCode !== 0) throw new Error(`the client report failed (exit ${r.exitCode})`);
 }
 
+/**
+ * The Quillmoor survey as a record (client, site, purpose, dates, the crew on it) with line QM-1's
+ * spread and end coordinates, made before the pipelines run so their notices reach the survey's
+ * lead; and, unless TRACEWRIGHT_SMTP_HOST names a real relay, a local fake SMTP server that accepts
+ * every message, so the command line and the control room send their notices and the Outbox page
+ * shows what was sent. The coordinates are invented (British National Grid, EPSG:27700), 47 m
+ * along a bearing of 75°.
+ */
+async function quillmoorSurveyRecordAndMailCatcher(db: Db): Promise<void> {
+  const demoActor = { userId: null, label: "demo set-up", door: "cli" as const };
+  const details = newSurvey.parse({
+    slug: "quillmoor",
+    name: "Quillmoor playing field",
+    client: "Quillmoor Education Trust",
+    site: "Quillmoor, Brennick Vale",
+    purpose: "Find an infilled solution hollow (position, width, depth) before a school extension is built on the playing field.",
+    startDate: "2026-11-17",
+    endDate: "2026-11-18",
+    notes: "Old estate maps hint at a pond filled with loose rubble and ash. Crew: Rosa Okafor-Lind (field lead), Tam Whitcombe (assistant). Invented demo scenario.",
+  });
+  // A data folder from an earlier demo may hold the survey as a pipeline file created it (a bare name).
+  if (getSurveyBySlug(db, "quillmoor")) updateSurvey(db, "quillmoor", details, demoActor);
+  else createSurvey(db, details, demoActor);
+  const survey = getSurveyBySlug(db, "quillmoor")!;
+  if (!getProfile(db, survey.id, "QM-1")) {
+    addProfile(
+      db,
+      "quillmoor",
+      profileFields.parse({
+        name: "QM-1",
+        description: "Across the suspected hollow; sledgehammer on a steel plate every 2 m from x = -1 m to 49 m, 4 blows per source point.",
+        orientationDeg: 75,
+        spreadDescription: "48 vertical 4.5 Hz geophones at 1.0 m, first at x = 0 m",
+        crs: "EPSG:27700",
+        startX: 412350.0,
+        startY: 287640.0,
+        endX: 412395.4,
+        endY: 287652.17,
+      }),
+      demoActor,
+    );
+  }
+  for (const [email, role] of [
+    ["rosa.okafor-lind@corvell.example", "lead"],
+    ["tam.whitcombe@corvell.example", "processor"],
+  ] as const) {
+    const person = getUserByEmail(db, email);
+    if (person) setSurveyPerson(db, "quillmoor", person.id, role, demoActor);
+  }
+  say("  survey record: Quillmoor playing field, line QM-1 (EPSG:27700), Rosa Okafor-Lind lead, Tam Whitcombe processor");
+
+  if (process.env.TRACEWRIGHT_SMTP_HOST) {
+    say(`  mail notices go to ${process.env.TRACEWRIGHT_SMTP_HOST}:${process.env.TRACEWRIGHT_SMTP_PORT ?? 25}`);
+    return;
+  }
+  let caught = 0;
+  const catcher = new SMTPServer({
+    authOptional: true,
+    disabledCommands: ["STARTTLS"],
+    logger: false,
+    onData(stream, _session, callback) {
+      stream.on("data", () => undefined);
+      stream.on("end", () => {
+        caught++;
+        callback();
+      });
+    },
+  });
+  await new Promise<void>((resolve) => catcher.listen(0, "127.0.0.1", () => resolve()));
+  // Does not keep the demo alive by itself: it stops with the control room (or after --prepare-only).
+  catcher.server.unref();
+  const port = (catcher.server.address() as net.AddressInfo).port;
+  process.env.TRACEWRIGHT_SMTP_HOST = "127.0.0.1";
+  process.env.TRACEWRIGHT_SMTP_PORT = String(port);
+  process.on("exit", () => {
+    if (caught) process.stdout.write(`  the demo's mail catcher accepted ${caught} message(s); read them on the Outbox page\n`);
+  });
+  say(`  fake mail server (accepts every message, delivers none) on 127.0.0.1:${port}: notices appear on the Outbox page`);
+}
+
 async function main() {
   say(`Tracewright demo: data in ${dataDir()}`);
   const db = getDb();
   say(`  database ready: ${databasePath()}`);
   const accounts = seedDemoUsers(db);
+  await quillmoorSurveyRecordAndMailCatcher(db);
   closeDb();
 
   // The survey's files are generated data: they live under the data folder, not in the source tree.

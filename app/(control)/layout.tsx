@@ -10,11 +10,13 @@ export default async function ControlLayout({ children }: { children: React.Reac
   const user = await pageUser();
   const links = [
     { href: "/runs", label: "Runs" },
+    { href: "/surveys", label: "Surveys" },
     ...(can(user.role, "runs.start") ? [{ href: "/runs/new", label: "Start a run" }] : []),
     { href: "/pipelines", label: "Pipelines" },
     { href: "/compare", label: "Compare settings" },
     ...(can(user.role, "audit.read") ? [{ href: "/audit", label: "Audit trail" }] : []),
     ...(can(user.role, "users.manage") ? [{ href: "/people", label: "People" }] : []),
+    ...(can(user.role, "audit.read") ? [{ href: "/outbox", label: "Outbox" }] : []),
   ];
   return (
     <div className="min-h-screen">
@@ -28,7 +30,7 @@ export default async function ControlLayout({ children }: { children: React.Reac
           <MainNav links={links} />
           <div className="ml-auto flex items-center gap-3 text-sm">
             <span data-testid="signed-in-as">
-              {user.name} <span className="rounded bg-accent-soft px-1.5 py-0.5 text-xs text-accent">{ROLE_LABELS[user.role]}</span>
+              <Link href="/account" className="hover:underline" data-testid="account-link">{user.name}</Link> <span className="rounded bg-accent-soft px-1.5 py-0.5 text-xs text-accent">{ROLE_LABELS[user.role]}</span>
             </span>
             <SignOutButton />
           </div>

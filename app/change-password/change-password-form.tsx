@@ -9,17 +9,17 @@ function FieldError({ state, name }: { state: FormState; name: string }) {
   return msg ? <p className="mt-1 text-xs text-bad">{msg}</p> : null;
 }
 
-/** Current password, new password twice; on success goes to the runs list. */
-export function ChangePasswordForm() {
+/** Current password, new password twice; on success goes to the runs list (or stays, with `stay`, on the account page). */
+export function ChangePasswordForm({ stay = false }: { stay?: boolean }) {
   const [state, action, pending] = useActionState(changeOwnPassword, {});
   useEffect(() => {
     // A full load, so that the layout re-reads the account and no longer sends the person back here.
-    if (state.ok) window.location.assign("/runs");
-  }, [state.ok]);
+    if (state.ok && !stay) window.location.assign("/runs");
+  }, [state.ok, stay]);
   return (
     <form action={action} className="space-y-4" aria-label="Choose your password">
       <div>
-        <label htmlFor="current" className="label">Current (temporary) password</label>
+        <label htmlFor="current" className="label">{stay ? "Current password" : "Current (temporary) password"}</label>
         <input id="current" name="current" type="password" autoComplete="current-password" required className="field mt-1" />
         <FieldError state={state} name="current" />
       </div>
@@ -36,7 +36,7 @@ export function ChangePasswordForm() {
       {state.error && !state.fields ? <p role="alert" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{state.error}</p> : null}
       {state.ok ? <p role="status" className="text-sm">{state.ok}</p> : null}
       <button type="submit" className="btn-primary w-full justify-center" disabled={pending}>
-        {pending ? "Saving…" : "Save and go on"}
+        {pending ? "Saving…" : stay ? "Change password" : "Save and go on"}
       </button>
     </form>
   );

@@ -1,23 +1,50 @@
 /**
- * Outgoing mail (invitations). SMTP host and port come from TRACEWRIGHT_SMTP_HOST and
- * TRACEWRIGHT_SMTP_PORT (plain SMTP, no TLS: meant for a local relay). Without a host the
- * message is not sent and the caller shows the temporary password to the administrator.
+ * Outgoing mail of the control room: invitations (a link to set one's password, or a temporary
+ * password when no mail server is set up) and password-reset links. Transport and settings are
+ * the engine's (pipeline/notice-sender.ts), so the command line and the web send the same way.
  */
 import "server-only";
-import nodemailer from "nodemailer";
+import { sendMail, smtpSettings, type MailOutcome } from "@/pipeline/notice-sender";
 
-/** Outcome of a send attempt. */
-export type MailOutcome = { sent: true } | { sent: false; reason: string };
+export { smtpSettings, type MailOutcome };
 
-/** The SMTP settings from the environment, or null when mail is not set up. */
-export function smtpSettings(): { host: string; port: number; from: string } | null {
-  const host = process.env.TRACEWRIGHT_SMTP_HOST;
-  if (!host) return null;
-  const port = Number(process.env.TRACEWRIGHT_SMTP_PORT ?? 25);
-  return { host, port, from: process.env.TRACEWRIGHT_MAIL_FROM ?? "Tracewright <tracewright@localhost>" };
+/** Sends an invitation with a link that sets the person's password; never throws. */
+export async function sendInvitationLink(input: { to: string; name: string; role: string; link: string; expiresAt: Date; invitedBy: string }): Promise<MailOutcome> {
+  return sendMail({
+    to: input.to,
+    subject: "Your Tracewright control room account",
+    text: [
+      `Hello ${input.name},`,
+      "",
+      `${input.invitedBy} has added you to the Tracewright control room as ${input.role}.`,
+      "Choose your password with this link (it works once, until " + input.expiresAt.toISOString().slice(0, 16).replace("T", " ") + " UTC):",
+      "",
+      `    ${input.link}`,
+      "",
+      "Then sign in with this e-mail address and the password you chose.",
+    ].join("\n"),
+  });
 }
 
-/** Sends an invitation with a temporary password; never throws. */
+/** Sends a password-reset link; never throws. */
+export async function sendPasswordResetLink(input: { to: string; name: string; link: string; expiresAt: Date }): Promise<MailOutcome> {
+  return sendMail({
+    to: input.to,
+    subject: "Reset your Tracewright password",
+    text: [
+      `Hello ${input.name},`,
+      "",
+      "Someone (we hope you) asked to reset the password of your Tracewright control room account.",
+      "Choose a new password with this link (it works once, until " + input.expiresAt.toISOString().slice(0, 16).replace("T", " ") + " UTC):",
+      "",
+      `    ${input.link}`,
+      "",
+      "If you did not ask for this, ignore this mail: your password stays as it is.",
+    ].join("\n"),
+  });
+}
+
+/** Sends an invitation with a temporary password (the fallback when links cannot be mailed); never throws. */
 export async function sendInvitation(input: {
   to: string;
   name: string;
@@ -26,36 +53,18 @@ export async function sendInvitation(input: {
   signInUrl: string;
   invitedBy: string;
 }): Promise<MailOutcome> {
-  const smtp = smtpSettings();
-  if (!smtp) return { sent: false, reason: "no SMTP server is configured (TRACEWRIGHT_SMTP_HOST)" };
-  if (!Number.isInteger(smtp.port) || smtp.port <= 0) return { sent: false, reason: `TRACEWRIGHT_SMTP_PORT is not a port number` };
-  const transport = nodemailer.createTransport({
-    host: smtp.host,
-    port: smtp.port,
-    secure: false,
-    ignoreTLS: true,
-    connectionTimeout: 5_000,
+  return sendMail({
+    to: input.to,
+    subject: "Your Tracewright control room account",
+    text: [
+      `Hello ${input.name},`,
+      "",
+      `${input.invitedBy} has added you to the Tracewright control room as ${input.role}.`,
+      `Sign in at ${input.signInUrl} with this email and the temporary password:`,
+      "",
+      `    ${input.temporaryPassword}`,
+      "",
+      "You will be asked to choose your own password after your first sign-in.",
+    ].join("\n"),
   });
-  try {
-    await transport.sendMail({
-      from: smtp.from,
-      to: input.to,
-      subject: "Your Tracewright control room account",
-      text: [
-        `Hello ${input.name},`,
-        "",
-        `${input.invitedBy} has added you to the Tracewright control room as ${input.role}.`,
-        `Sign in at ${input.signInUrl} with this email and the temporary password:`,
-        "",
-        `    ${input.temporaryPassword}`,
-        "",
-        "Ask your administrator to set a new password after your first sign-in.",
-      ].join("\n"),
-    });
-    return { sent: true };
-  } catch (err) {
-    return { sent: false, reason: `the mail server refused or could not be reached (${err instanceof Error ? err.message : String(err)})` };
-  } finally {
-    transport.close();
-  }
 }

@@ -17,6 +17,8 @@ export const PERMISSIONS = [
   "pipelines.edit",
   /** Approve a run or send it back. */
   "runs.review",
+  /** Create and change surveys, their profiles and the people on them. */
+  "surveys.edit",
   /** Read the audit trail. */
   "audit.read",
   /** Have a run executed again without the cache and its artifacts compared (leads and auditors). */
@@ -26,7 +28,7 @@ export const PERMISSIONS = [
 ] as const;
 export type Permission = (typeof PERMISSIONS)[number];
 
-const PROCESSOR: Permission[] = ["runs.read", "runs.start", "runs.rerun", "runs.cancel", "pipelines.edit", "audit.read"];
+const PROCESSOR: Permission[] = ["runs.read", "runs.start", "runs.rerun", "runs.cancel", "pipelines.edit", "surveys.edit", "audit.read"];
 
 /** The table. An auditor reads everything and changes nothing (a reproduction changes no result: it only checks one). */
 export const ROLE_PERMISSIONS: Record<Role, readonly Permission[]> = {
@@ -58,6 +60,7 @@ export function forbiddenMessage(role: Role, permission: Permission): string {
     "runs.cancel": "stop runs",
     "pipelines.edit": "edit pipelines",
     "runs.review": "approve or send back runs",
+    "surveys.edit": "change surveys or profiles",
     "audit.read": "read the audit trail",
     "runs.reproduce": "reproduce runs",
     "users.manage": "manage users",
@@ -97,6 +100,10 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "GET /api/artifacts/[hash]/traces": "runs.read",
   "GET /api/audit": "audit.read",
   "GET /api/pipeline-versions/[versionId]/yaml": "runs.read",
+  "GET /api/surveys": "runs.read",
+  "POST /api/surveys": "surveys.edit",
+  "GET /api/surveys/[slug]": "runs.read",
+  "POST /api/surveys/[slug]/profiles": "surveys.edit",
   "GET /api/auth/[...nextauth]": "public",
   "POST /api/auth/[...nextauth]": "public",
 };
@@ -112,6 +119,14 @@ export const ACTION_REQUIREMENTS: Record<string, Requirement> = {
   startReproduction: "runs.reproduce",
   saveRunInterpretation: "runs.review",
   makeRunReport: "runs.review",
+  saveNoticePreferences: "signed-in",
+  requestPasswordReset: "public",
+  setPasswordWithLink: "public",
+  addSurvey: "surveys.edit",
+  editSurvey: "surveys.edit",
+  addSurveyProfile: "surveys.edit",
+  editSurveyProfile: "surveys.edit",
+  putPersonOnSurvey: "surveys.edit",
 };
 
 /** True when `role` (null: nobody signed in) meets `requirement`. */

@@ -25,7 +25,10 @@ export default async function SignInPage({ searchParams }: { searchParams: Promi
           <h1 className="mb-4">Sign in</h1>
           <SignInForm next={safeNext} initialError={error ? signInErrorMessage(error) : undefined} />
         </div>
-        <p className="mt-4 text-xs muted">
+        <p className="mt-4 text-sm">
+          <a href="/forgot-password" className="text-accent hover:underline" data-testid="forgot-password-link">Forgotten your password?</a>
+        </p>
+        <p className="mt-2 text-xs muted">
           Accounts are added by an administrator. The demo prints its accounts when it starts.
         </p>
       </div>

@@ -8,6 +8,7 @@ export const PERMISSION_WORDS: Record<Permission, string> = {
   "runs.cancel": "stop runs",
   "pipelines.edit": "save pipeline versions",
   "runs.review": "approve runs or send them back",
+  "surveys.edit": "create and change surveys, profiles and who is on them",
   "audit.read": "read and export the audit trail",
   "runs.reproduce": "have a run executed again and its results compared",
   "users.manage": "add people, change roles, deactivate accounts",

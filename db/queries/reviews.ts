@@ -3,6 +3,7 @@ import { desc, eq } from "drizzle-orm";
 import type { Db } from "../client";
 import { reviews, runs, users } from "../schema";
 import { RecordError } from "../errors";
+import { queueReviewDecisionNotice } from "./notices";
 
 export type ReviewDecision = "approved" | "returned";
 
@@ -60,5 +61,8 @@ export function addReview(
     .values({ runId: input.runId, reviewerUserId: input.reviewerUserId, decision: input.decision, comment, at: new Date() })
     .returning()
     .get();
-  return listReviews(db, input.runId).find((r) => r.id === row.id)!;
+  const recorded = listReviews(db, input.runId).find((r) => r.id === row.id)!;
+  // Whoever started the run hears of the decision (db/queries/notices.ts; the sender mails it).
+  queueReviewDecisionNotice(db, input.runId, { decision: recorded.decision, reviewer: recorded.reviewerName, comment: recorded.comment });
+  return recorded;
 }

@@ -8,6 +8,7 @@ import { writeTransaction, type Db } from "../client";
 import { RecordError } from "../errors";
 import { rejectedFiles, runSteps, runs } from "../schema";
 import { recordAudit, type Actor } from "./audit";
+import { queueRunEndNotices } from "./notices";
 
 export type RunRecord = typeof runs.$inferSelect;
 export type RunStepRecord = typeof runSteps.$inferSelect;
@@ -117,13 +118,15 @@ export function writeHeartbeat(db: Db, runId: number, pid: number, at: Date): vo
   db.update(runs).set({ heartbeatAt: at }).where(ownedBy(runId, pid)).run();
 }
 
-/** Marks a running run interrupted, and its running step cancelled. */
+/** Marks a running run interrupted, and its running step cancelled; queues the notice to whoever started it. */
 export function markRunInterrupted(db: Db, runId: number): void {
   writeTransaction(db, (tx) => {
-    tx.update(runs)
+    const done = tx
+      .update(runs)
       .set({ status: "interrupted", error: "The process running this run stopped before it finished.", finishedAt: new Date() })
       .where(and(eq(runs.id, runId), eq(runs.status, "running")))
       .run();
+    if (done.changes > 0) queueRunEndNotices(tx, runId);
     tx.update(runSteps)
       .set({ status: "cancelled", error: "interrupted" })
       .where(and(eq(runSteps.runId, runId), eq(runSteps.status, "running")))
@@ -133,7 +136,8 @@ export function markRunInterrupted(db: Db, runId: number): void {
 
 /**
  * Ends a run this process owns: its status and error, and steps still waiting marked cancelled
- * (cancelled run) or skipped (failed run). False when the run was no longer ours.
+ * (cancelled run) or skipped (failed run), and the mail notices of its end (a failed run to whoever
+ * started it, a succeeded one to the survey's leads for review). False when the run was no longer ours.
  */
 export function finishOwnedRun(db: Db, runId: number, pid: number, outcome: { status: "succeeded" | "failed" | "cancelled"; error?: string }): boolean {
   return writeTransaction(db, (tx) => {
@@ -143,6 +147,7 @@ export function finishOwnedRun(db: Db, runId: number, pid: number, outcome: { st
       .where(ownedBy(runId, pid))
       .run();
     if (done.changes === 0) return false;
+    queueRunEndNotices(tx, runId);
     if (outcome.status !== "succeeded") {
       tx.update(runSteps)
         .set({ status: outcome.status === "cancelled" ? "cancelled" : "skipped" })

@@ -22,7 +22,9 @@ vi.mock("@/pipeline/launch", async (importOriginal) => {
 import { closeDb, getDb } from "@/db/client";
 import { artifacts, ROLES, type Role } from "@/db/schema";
 import { seedDemoUsers } from "@/db/seed";
-import { getUserByEmail } from "@/db/queries/users";
+import { createUser, getUserByEmail } from "@/db/queries/users";
+import { issuePasswordToken } from "@/db/queries/password-tokens";
+import { ensureSurvey } from "@/db/queries/surveys";
 import { getRun } from "@/db/queries/runs";
 import { getPipelineVersion, listVersionsOfPipeline } from "@/db/queries/pipelines";
 import { editorModel, versionDefinition } from "@/pipeline/pipeline-edit";
@@ -45,6 +47,7 @@ let tmp: string;
 const users = {} as Record<Role, { id: number; role: Role; name: string; email: string }>;
 let reviewCount = 0;
 const fx = { runId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0, invertedRunId: 0, report: "" };
+let surveyCount = 0;
 
 /** Route files on disk, as the keys of ROUTE_REQUIREMENTS ("METHOD /api/..."). */
 function routesOnDisk(): Array<{ key: string; file: string; method: string }> {
@@ -93,6 +96,14 @@ const CASES: Record<string, Case> = {
   "GET /api/artifacts/[hash]/traces": () => ({ url: `/api/artifacts/${fx.gathers}/traces`, params: { hash: fx.gathers } }),
   "GET /api/audit": () => ({ url: "/api/audit" }),
   "GET /api/pipeline-versions/[versionId]/yaml": () => ({ url: `/api/pipeline-versions/${fx.pipelineVersionId}/yaml`, params: { versionId: String(fx.pipelineVersionId) } }),
+  "GET /api/surveys": () => ({ url: "/api/surveys?q=test" }),
+  "POST /api/surveys": () => ({ url: "/api/surveys", body: { slug: `matrix-survey-${++surveyCount}`, name: `Matrix survey ${surveyCount}` } }),
+  "GET /api/surveys/[slug]": () => ({ url: "/api/surveys/test-site", params: { slug: "test-site" } }),
+  "POST /api/surveys/[slug]/profiles": () => ({
+    url: "/api/surveys/test-site/profiles",
+    body: { name: `M-${++surveyCount}`, crs: "EPSG:27700", startX: 0, startY: 0, endX: 47, endY: 0 },
+    params: { slug: "test-site" },
+  }),
   "GET /api/auth/[...nextauth]": () => ({ url: "/api/auth/providers", params: { nextauth: ["providers"] } }),
   "POST /api/auth/[...nextauth]": () => ({ url: "/api/auth/_log", body: {}, params: { nextauth: ["_log"] } }),
 };
@@ -121,6 +132,7 @@ beforeAll(async () => {
   fs.writeFileSync(file, "name: matrix\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { traces: 3, samples: 8, value: 1 }\n  - step: test-scale\n    label: scale\n    settings: { factor: 3 }\n");
   const prepared = createRun(db, { source: "pipeline-file", pipelinePath: file, actor: { userId: users.processor.id, label: users.processor.name, door: "cli" } });
   fx.runId = prepared.runId;
+  ensureSurvey(db, "test-site", "matrix-line");
   await executeRun(db, fx.runId);
   const run = getRun(db, fx.runId)!;
   fx.gathers = run.steps[1].outputs.gathers;
@@ -228,6 +240,19 @@ const ACTION_INPUT: Record<string, () => FormData> = {
   startReproduction: () => form({ runId: String(fx.runId) }),
   saveRunInterpretation: () => form({ runId: String(fx.invertedRunId), summary: `matrix interpretation ${++reviewCount}` }),
   makeRunReport: () => form({ runId: String(fx.invertedRunId), positions: "", shots: "" }),
+  saveNoticePreferences: () => form({ "run-stopped": "on", "review-waiting": ++surveyCount % 2 ? "on" : "" }),
+  requestPasswordReset: () => form({ email: users.processor.email }),
+  setPasswordWithLink: () => {
+    const db = getDb();
+    const holder = getUserByEmail(db, "link-holder@example.org") ?? createUser(db, { email: "link-holder@example.org", name: "Link Holder", role: "processor", password: "link-holder-password" });
+    const { token } = issuePasswordToken(db, holder.id, "reset");
+    return form({ token, next: `fresh-password-${++surveyCount}`, repeat: `fresh-password-${surveyCount}` });
+  },
+  addSurvey: () => form({ slug: `action-survey-${++surveyCount}`, name: `Action survey ${surveyCount}` }),
+  editSurvey: () => form({ slug: "test-site", name: `Test site ${++surveyCount}`, client: "Matrix client" }),
+  addSurveyProfile: () => form({ survey: "test-site", name: `A-${++surveyCount}`, crs: "EPSG:27700", startX: "0", startY: "0", endX: "47", endY: "1" }),
+  editSurveyProfile: () => form({ survey: "test-site", name: "matrix-line", spreadDescription: `spread ${++surveyCount}` }),
+  putPersonOnSurvey: () => form({ survey: "test-site", email: users.lead.email, role: ++surveyCount % 2 ? "lead" : "processor" }),
 };
 let saved = 0;
 let currentRole: Role | null = null;
@@ -244,6 +269,8 @@ describe("server actions × roles", () => {
         const { saveRunInterpretation, makeRunReport } = await import("@/app/lib/actions/reports");
         const actions = {
           ...(await import("@/app/lib/actions/users")),
+          ...(await import("@/app/lib/actions/account")),
+          ...(await import("@/app/lib/actions/surveys")),
           ...(await import("@/app/lib/actions/password")),
           // decideRun takes its input as an object (the approve button calls it directly).
           decideRun: (_prev: FormState, f: FormData) =>
@@ -271,6 +298,7 @@ describe("server actions × roles", () => {
           expect(state.ok).toBeTruthy();
         } else if (role === null) expect(state.error).toBe("Sign in to continue.");
         else expect(state.error).toMatch(/role may not/);
+        if (!allowed && role === "auditor" && requirement === "surveys.edit") expect(state.error).toMatch(/may not change surveys or profiles/);
       });
     }
   }
@@ -279,8 +307,15 @@ describe("server actions × roles", () => {
 describe("cross-site writes are refused on every state-changing route handler", () => {
   const mutating = Object.entries(ROUTE_REQUIREMENTS).filter(([k, r]) => !k.startsWith("GET ") && r !== "public").map(([k]) => k);
 
-  it("covers the four state-changing handlers", () => {
-    expect(mutating.sort()).toEqual(["POST /api/runs", "POST /api/runs/[runId]/cancel", "POST /api/runs/[runId]/rerun", "POST /api/runs/[runId]/reviews"]);
+  it("covers the six state-changing handlers", () => {
+    expect(mutating.sort()).toEqual([
+      "POST /api/runs",
+      "POST /api/runs/[runId]/cancel",
+      "POST /api/runs/[runId]/rerun",
+      "POST /api/runs/[runId]/reviews",
+      "POST /api/surveys",
+      "POST /api/surveys/[slug]/profiles",
+    ]);
   });
 
   const foreign: Array<[string, Record<string, string>]> = [

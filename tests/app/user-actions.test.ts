@@ -8,6 +8,7 @@ import os from "node:os";
 import path from "node:path";
 import type { AddressInfo } from "node:net";
 import { SMTPServer } from "smtp-server";
+import { readable } from "../helpers/mail-catcher";
 import { afterAll, beforeAll, describe, expect, it, vi } from "vitest";
 import { cookieStore, signInAs, signOut } from "./session-cookie";
 
@@ -89,7 +90,7 @@ describe("people actions", () => {
     expect(listAudit(getDb(), { action: "user.invite" })[0].actorLabel).toBe(users.admin.name);
   });
 
-  it("mails the invitation when SMTP is set up", async () => {
+  it("mails the invitation, with a link to choose a password, when SMTP is set up", async () => {
     const received: Array<{ to: string[]; text: string }> = [];
     const smtp = new SMTPServer({
       authOptional: true,
@@ -114,7 +115,8 @@ describe("people actions", () => {
       expect(state.temporaryPassword).toBeUndefined();
       expect(received).toHaveLength(1);
       expect(received[0].to).toEqual(["ola.brent@corvell.example"]);
-      expect(received[0].text).toMatch(/temporary password/);
+      expect(readable(received[0].text)).toMatch(/\/set-password\?token=[A-Za-z0-9_-]{43}/);
+      expect(readable(received[0].text)).not.toMatch(/temporary password/);
     } finally {
       delete process.env.TRACEWRIGHT_SMTP_HOST;
       delete process.env.TRACEWRIGHT_SMTP_PORT;

@@ -129,6 +129,26 @@ async function apiRun(page: Page, origin: string, id: number) {
   };
 }
 
+/** Retries a read a few times when the loaded server drops the connection (ECONNRESET) instead of answering. */
+async function patiently<T>(read: () => Promise<T>): Promise<T> {
+  for (let attempt = 1; ; attempt++) {
+    try {
+      return await read();
+    } catch (err) {
+      if (attempt >= 4 || !/ECONNRESET|socket hang up/.test((err as Error).message)) throw err;
+      await new Promise((r) => setTimeout(r, 1000 * attempt));
+    }
+  }
+}
+
+/** A captured message with its header folding and quoted-printable soft breaks and escapes undone (RFC 5322 §2.2.3, RFC 2045 §6.7). */
+function unfold(raw: string): string {
+  return raw
+    .replace(/\r\n[ \t]+/g, " ")
+    .replace(/=\r?\n/g, "")
+    .replace(/=([0-9A-F]{2})/g, (_m, h: string) => String.fromCharCode(parseInt(h, 16)));
+}
+
 async function main() {
   const dataDir = reuse ?? fs.mkdtempSync(path.join(os.tmpdir(), "tw-e2e-"));
   process.stdout.write(`Browser tests (data in ${dataDir})\n`);
@@ -657,11 +677,132 @@ async function main() {
       await page.waitForSelector("[role=status]");
       check((await page.textContent("[role=status]"))?.includes("mailed"), "invitation not reported as mailed");
       const msg = mail.messages.find((m) => m.to.includes(email));
-      check(msg && /temporary password/i.test(msg.raw), "no invitation reached the mail catcher");
+      check(msg && /set-password\?token=/.test(unfold(msg.raw)), "no invitation with a link reached the mail catcher");
+      check(!/temporary password/i.test(unfold(msg.raw)), "the invitation still carries a temporary password");
       const row = page.locator(`[data-testid="user-${email}"]`);
       await row.locator("text=Deactivate").click();
       await row.locator("text=Deactivated").waitFor();
       await shoot(page, "people");
+    });
+
+    await test("surveys & mail: processor creates a survey and a profile; the survey page lists it; an auditor sees no forms", async () => {
+      await signIn(page, origin, account("processor").email, account("processor").password);
+      const slug = `harrow-${Date.now().toString(36)}`;
+      await goto(page, `${origin}/surveys`, "surveys");
+      check(await page.locator("nav >> text=Surveys").count(), "no Surveys entry in the navigation");
+      await page.fill("#survey-new-slug", slug);
+      await page.fill("#survey-new-name", "Harrow Down car park");
+      await page.fill("#survey-new-client", "Brennick Vale Council");
+      await page.fill("#survey-new-startDate", "2026-12-03");
+      await page.fill("#survey-new-endDate", "2026-12-01");
+      await page.click("[data-testid=survey-new-submit]");
+      await page.waitForSelector("[data-testid=field-error-endDate]");
+      await page.fill("#survey-new-endDate", "2026-12-04");
+      await page.click("[data-testid=survey-new-submit]");
+      await page.waitForURL(new RegExp(`/surveys/${slug}$`), { timeout: 20_000 });
+      check((await page.textContent("[data-testid=survey-title]"))?.includes("Harrow Down car park"), "survey page title");
+      check((await page.textContent("[data-testid=survey-details]"))?.includes("Brennick Vale Council"), "client missing on the survey page");
+      await page.click("[data-testid=add-profile-toggle]");
+      await page.fill("#profile-new-name", "HD-1");
+      await page.fill("#profile-new-crs", "27700");
+      await page.fill("#profile-new-startX", "412350");
+      await page.fill("#profile-new-startY", "287640");
+      await page.fill("#profile-new-endX", "412395.4");
+      await page.fill("#profile-new-endY", "287652.2");
+      await page.fill("#profile-new-spreadDescription", "24 vertical 4.5 Hz geophones at 2 m");
+      await page.click("[data-testid=profile-new-submit]");
+      await page.waitForSelector("[data-testid=field-error-crs]");
+      await page.fill("#profile-new-crs", "EPSG:27700");
+      await page.click("[data-testid=profile-new-submit]");
+      await page.waitForURL(/\/profiles\/HD-1$/, { timeout: 20_000 });
+      const details = (await page.textContent("[data-testid=profile-details]")) ?? "";
+      check(details.includes("EPSG:27700") && details.includes("412395.4"), `profile page lacks the ends: ${details}`);
+      await shoot(page, "profile");
+      await goto(page, `${origin}/surveys?q=${encodeURIComponent("Brennick Vale Council")}`);
+      check((await page.locator(`[data-testid=survey-row-${slug}]`).count()) === 1, "the search does not find the new survey by its client");
+      await goto(page, `${origin}/surveys/quillmoor`, "survey page");
+      check(await page.locator("[data-testid=profile-row-QM-1]").count(), "the demo survey lists no QM-1");
+      await shoot(page, "survey");
+      await signIn(page, origin, account("auditor").email, account("auditor").password);
+      await goto(page, `${origin}/surveys/${slug}`);
+      check((await page.locator("[data-testid=add-profile-toggle]").count()) === 0, "an auditor is offered the profile form");
+      const res = await page.request.post(`${origin}/api/surveys`, { data: { slug: `${slug}-x`, name: "Not allowed" } });
+      check(res.status() === 403, `auditor creating a survey: expected 403, got ${res.status()}`);
+    });
+
+    await test("surveys & mail: a failing run's notice reaches the mail catcher and the outbox", async () => {
+      await signIn(page, origin, account("processor").email, account("processor").password);
+      // The first demo run with a frequency-filter step (the processing pipeline's).
+      let source: { id: number; label: string } | null = null;
+      for (const r of (await patiently(() => apiRuns(page, origin))).rows) {
+        if (r.status !== "succeeded") continue;
+        const step = (await patiently(() => apiRun(page, origin, r.id))).steps.find((s) => s.stepId === "frequency-filter");
+        if (step) {
+          source = { id: r.id, label: step.label };
+          break;
+        }
+      }
+      check(source, "no succeeded demo run has a frequency-filter step");
+      const filter = { label: source.label };
+      // A high corner above the Nyquist frequency (2000 Hz at 0.25 ms) passes the form's checks but
+      // is refused by the step when it sees the data: the run fails.
+      await goto(page, `${origin}/runs/${source.id}/rerun?from=${encodeURIComponent(filter.label)}`);
+      await page.locator(`#f-${filter.label}-highCutHz`).fill("2500");
+      const before = mail.messages.length;
+      await page.click("[data-testid=start-rerun]");
+      await page.waitForURL(/\/runs\/\d+$/, { timeout: 20_000 });
+      const failedId = Number(page.url().split("/").pop());
+      const deadline = Date.now() + 300_000;
+      let detail = await patiently(() => apiRun(page, origin, failedId));
+      while ((detail.status === "queued" || detail.status === "running") && Date.now() < deadline) {
+        await page.waitForTimeout(1000);
+        detail = await patiently(() => apiRun(page, origin, failedId));
+      }
+      check(detail.status === "failed", `the run with highCutHz 2500 ended ${detail.status}`);
+      let msg: (typeof mail.messages)[number] | undefined;
+      while (!msg && Date.now() < deadline) {
+        msg = mail.messages.slice(before).find((m) => m.to.includes(account("processor").email) && new RegExp(`run ${failedId} .*failed`).test(unfold(m.raw)));
+        if (!msg) await page.waitForTimeout(500);
+      }
+      check(msg, `no failed-run notice for run ${failedId} reached the catcher (${mail.messages.length - before} new messages)`);
+      check(unfold(msg.raw).includes(`/runs/${failedId}`), "the notice has no link to the run");
+      check(/Nyquist/.test(unfold(msg.raw)), "the notice does not say why the run failed");
+      await goto(page, `${origin}/outbox`, "outbox");
+      check((await page.textContent("[data-testid=outbox]"))?.includes(`run ${failedId}`), "the outbox does not list the notice");
+      await shoot(page, "outbox");
+    });
+
+    await test("surveys & mail: password reset by a mailed link, which works once", async () => {
+      await page.context().clearCookies();
+      await goto(page, `${origin}/sign-in`);
+      await page.click("[data-testid=forgot-password-link]");
+      await page.waitForURL(/\/forgot-password$/);
+      const who = account("auditor").email;
+      const before = mail.messages.length;
+      await page.fill("#reset-email", who);
+      await page.click("button[type=submit]");
+      await page.waitForSelector("[data-testid=reset-requested]");
+      const deadline = Date.now() + 20_000;
+      let msg: (typeof mail.messages)[number] | undefined;
+      while (!msg && Date.now() < deadline) {
+        msg = mail.messages.slice(before).find((m) => m.to.includes(who));
+        if (!msg) await page.waitForTimeout(250);
+      }
+      check(msg, "no reset mail reached the catcher");
+      const link = /(http:\/\/[^\s]+\/set-password\?token=[A-Za-z0-9_-]+)/.exec(unfold(msg.raw))?.[1];
+      check(link, "the reset mail holds no link");
+      check(link.startsWith(origin), `the link points elsewhere: ${link}`);
+      await page.goto(link);
+      await page.waitForSelector("[data-testid=set-password-for]");
+      await page.fill("#next", "odile-chose-this-one");
+      await page.fill("#repeat", "odile-chose-this-one");
+      await page.click("button[type=submit]");
+      await page.waitForSelector("[data-testid=password-set]");
+      await shoot(page, "password-set");
+      await page.goto(link);
+      await page.waitForSelector("[data-testid=set-password-error]");
+      check(/used already/.test((await page.textContent("[data-testid=set-password-error]")) ?? ""), "a used link is not refused as used");
+      await signIn(page, origin, who, "odile-chose-this-one");
     });
   } finally {
     await browser.close();

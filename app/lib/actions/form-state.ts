@@ -9,6 +9,8 @@ export interface FormState {
   fields?: Record<string, string>;
   /** Shown to the administrator when an invitation could not be mailed. */
   temporaryPassword?: string;
+  /** Where the form goes after success (e.g. the page of what was just created). */
+  redirectTo?: string;
 }
 
 /** Renders a thrown error as form state (field errors for zod and AppError with a field). */

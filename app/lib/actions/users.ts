@@ -13,7 +13,9 @@ import { recordAudit } from "@/db/queries/audit";
 import { createUser, setUserActive, setUserRole } from "@/db/queries/users";
 import { ROLES } from "@/db/schema";
 import { AppError } from "@/pipeline/errors";
-import { sendInvitation } from "../mail";
+import { controlRoomOrigin } from "@/db/queries/notices";
+import { issuePasswordToken } from "@/db/queries/password-tokens";
+import { sendInvitation, sendInvitationLink, smtpSettings } from "../mail";
 import { requirePermission, webActor } from "../session";
 import { errorState, type FormState } from "./form-state";
 
@@ -25,7 +27,7 @@ const addUserSchema = z.object({
   password: z.union([z.literal(""), z.string().min(10, "Passwords need 10 characters or more.").max(200)]),
 });
 
-/** Adds a user with a chosen password, or invites them with a temporary one (mailed when SMTP is set up). */
+/** Adds a user with a chosen password, or invites them: a mailed link to choose a password, else a temporary password. */
 export async function addUser(_prev: FormState, form: FormData): Promise<FormState> {
   try {
     const admin = await requirePermission("users.manage");
@@ -49,12 +51,27 @@ export async function addUser(_prev: FormState, form: FormData): Promise<FormSta
     });
     revalidatePath("/people");
     if (!invite) return { ok: `${user.name} can now sign in as ${user.role}.` };
+    // With a mail server the invitation carries a link to choose a password (once, within seven
+    // days); the generated password is then never shown. Without one, or when the mail fails, the
+    // administrator passes the temporary password on.
+    if (smtpSettings()) {
+      const link = issuePasswordToken(db, user.id, "invitation");
+      const linkMail = await sendInvitationLink({
+        to: user.email,
+        name: user.name,
+        role: user.role,
+        link: `${controlRoomOrigin()}/set-password?token=${link.token}`,
+        expiresAt: link.expiresAt,
+        invitedBy: admin.name,
+      });
+      if (linkMail.sent) return { ok: `Invitation mailed to ${user.email} with a link to choose a password.` };
+    }
     const mail = await sendInvitation({
       to: user.email,
       name: user.name,
       role: user.role,
       temporaryPassword: password,
-      signInUrl: `${process.env.NEXTAUTH_URL ?? "http://127.0.0.1:3000"}/sign-in`,
+      signInUrl: `${controlRoomOrigin()}/sign-in`,
       invitedBy: admin.name,
     });
     if (mail.sent) return { ok: `Invitation mailed to ${user.email}.` };
