@@ -45,7 +45,6 @@ function transferServer(): Server {
     relativeLocation: true,
     // Same origin only: no cross-origin answers at all.
     allowedOrigins: () => false,
-    maxSize: () => uploadLimits().maxFileBytes,
     async onUploadCreate(_req, upload) {
       try {
         const meta = upload.metadata ?? {};
