@@ -32,7 +32,7 @@ import type { FormState } from "@/app/lib/actions/form-state";
 import { registerEngineTestSteps } from "../helpers/engine-steps";
 
 type Handler = (req: Request, ctx: { params: Promise<Record<string, string | string[]>> }) => Promise<Response>;
-type Case = () => { url: string; body?: unknown; params?: Record<string, string | string[]>; headers?: Record<string, string>; rawBody?: Uint8Array };
+type Case = () => { url: string; body?: unknown; params?: Record<string, string | string[]>; headers?: Record<string, string>; rawBody?: Uint8Array<ArrayBuffer> };
 
 const root = path.resolve(__dirname, "../..");
 const ORIGIN = "http://127.0.0.1:3000";

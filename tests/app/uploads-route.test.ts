@@ -64,7 +64,8 @@ function announce(sessionId: number, name: string, size: number, headers: Record
   );
 }
 
-function patch(location: string, offset: number, body: BodyInit, headers: Record<string, string> = {}) {
+function patch(location: string, offset: number, data: Uint8Array | ReadableStream<Uint8Array>, headers: Record<string, string> = {}) {
+  const body = data instanceof Uint8Array ? new Uint8Array(data) : data;
   return transferRoute.PATCH(
     new Request(`${ORIGIN}${location}`, {
       method: "PATCH",
