@@ -2,7 +2,7 @@
 import { and, desc, eq, inArray, ne, sql } from "drizzle-orm";
 import { writeTransaction, type Db } from "../client";
 import { RecordError } from "../errors";
-import { pipelines, pipelineVersions, profiles, surveys, uploadFiles, uploadSessions } from "../schema";
+import { datasets, pipelines, pipelineVersions, profiles, runs, surveys, uploadFiles, uploadSessions } from "../schema";
 import { recordAudit, type Actor } from "./audit";
 
 export type UploadSessionRow = typeof uploadSessions.$inferSelect;
@@ -182,13 +182,25 @@ export function countReceivingFiles(db: Db, sessionId: number): number {
 }
 
 /**
- * The pipeline a profile's uploads are processed with: the most recently saved pipeline version
- * whose pipeline belongs to the profile's survey and whose definition names the profile. Null
- * when none does (the dataset is then recorded and nothing is queued).
+ * The pipeline a profile's uploads are processed with: the pipeline version of the latest run on
+ * a dataset of the profile (what the crew last processed it with), else the most recently saved
+ * version whose pipeline belongs to the profile's survey and names the profile. Null when there is
+ * none (the dataset is then recorded and nothing is queued).
  */
 export function findProfilePipelineVersion(db: Db, profileId: number): { id: number; name: string; version: number } | null {
   const p = getProfileWithSurvey(db, profileId);
   if (!p) return null;
+  const lastRun = db
+    .select({ id: pipelineVersions.id, name: pipelines.name, version: pipelineVersions.version })
+    .from(runs)
+    .innerJoin(datasets, eq(datasets.id, runs.datasetId))
+    .innerJoin(pipelineVersions, eq(pipelineVersions.id, runs.pipelineVersionId))
+    .innerJoin(pipelines, eq(pipelines.id, pipelineVersions.pipelineId))
+    .where(eq(datasets.profileId, profileId))
+    .orderBy(desc(runs.id))
+    .limit(1)
+    .get();
+  if (lastRun) return lastRun;
   const rows = db
     .select({ id: pipelineVersions.id, name: pipelines.name, version: pipelineVersions.version, definitionJson: pipelineVersions.definitionJson })
     .from(pipelineVersions)

@@ -14,10 +14,10 @@ import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { closeDb, getDb, type Db } from "../../db/client";
 import { getDataset, listDatasetFiles } from "../../db/queries/datasets";
 import { ensureSurvey } from "../../db/queries/surveys";
-import { getUploadSession, listUploadFiles } from "../../db/queries/uploads";
+import { findProfilePipelineVersion, getUploadSession, listUploadFiles } from "../../db/queries/uploads";
 import { getRun } from "../../db/queries/runs";
 import { writeSeg2 } from "../../pipeline/io/seg2";
-import { createRun } from "../../pipeline/run-create";
+import { createRun, registerPipelineAndDataset } from "../../pipeline/run-create";
 import {
   admitFile,
   checkArrivedFile,
@@ -239,6 +239,25 @@ describe("completing an upload", () => {
     expect(done.runId).toBeNull();
     expect(done.pipeline).toBeNull();
     expect(getDataset(db, done.datasetId)?.fileCount).toBe(1);
+  });
+
+  it("queues the pipeline last run on the profile, else the latest one saved naming it", () => {
+    const write = (name: string, profile: string) => {
+      const file = path.join(tmp, `${name}.yaml`);
+      // A field folder of the profile's own, so the run's dataset is the profile's.
+      const folder = path.join(tmp, `field-${profile}`);
+      fs.mkdirSync(folder, { recursive: true });
+      fs.writeFileSync(path.join(folder, "sp01-b1.sg2"), seg2(50 + profile.charCodeAt(1)));
+      fs.writeFileSync(file, `name: ${name}\nsurvey: upload-site\nprofile: ${profile}\nfieldData: ${folder}\nsteps:\n  - step: test-make-traces\n    settings: { traces: 2, samples: 4, value: 1 }\n`);
+      return file;
+    };
+    const ran = createRun(db, { source: "pipeline-file", pipelinePath: write("l3-ran", "L3"), actor });
+    registerPipelineAndDataset(db, { pipelinePath: write("l3-saved-later", "L3"), actor });
+    const l3 = ensureSurvey(db, "upload-site", "L3").profile!.id;
+    expect(findProfilePipelineVersion(db, l3)?.id).toBe(ran.pipelineVersionId);
+    const saved = registerPipelineAndDataset(db, { pipelinePath: write("l4-saved", "L4"), actor });
+    // Registering made a dataset of the profile but ran nothing: the saved version is the one.
+    expect(findProfilePipelineVersion(db, ensureSurvey(db, "upload-site", "L4").profile!.id)?.id).toBe(saved.pipelineVersionId);
   });
 
   it("refuses an upload without any accepted file", () => {
