@@ -349,7 +349,7 @@ export function UploadPanel({ profile, pipeline, limits, initialUpload = null }:
             <tbody>
               {rows.map((r) => (
                 <tr key={r.key} className="border-t border-line align-top" data-testid="upload-row" data-name={r.name} data-state={r.state} data-transfer={r.transferId ?? ""}>
-                  <td className="px-4 py-1.5 font-mono text-xs">{r.name}</td>
+                  <td className="px-4 py-1.5 font-mono text-xs whitespace-nowrap">{r.name}</td>
                   <td className="px-2 py-1.5 whitespace-nowrap">{formatBytes(r.size)}</td>
                   <td className="px-2 py-1.5">
                     <div className="h-2 rounded bg-ground" role="progressbar" aria-label={`${r.name} sent`} aria-valuemin={0} aria-valuemax={r.size} aria-valuenow={r.sent}>
