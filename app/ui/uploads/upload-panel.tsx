@@ -248,12 +248,12 @@ export function UploadPanel({ profile, pipeline, limits, initialUpload = null }:
     pump();
   }
 
-  async function complete() {
+  async function complete(leaveOutUnfinished = false) {
     if (sessionRef.current === null) return;
     setCompleting(true);
     setError(null);
     try {
-      const res = await postJson<{ datasetId: number; runId: number | null; files: number }>(`/api/upload-sessions/${sessionRef.current}/complete`, {});
+      const res = await postJson<{ datasetId: number; runId: number | null; files: number }>(`/api/upload-sessions/${sessionRef.current}/complete`, { leaveOutUnfinished });
       setDone(res);
     } catch (err) {
       setError(err instanceof ApiError ? err.message : String(err));
@@ -271,6 +271,8 @@ export function UploadPanel({ profile, pipeline, limits, initialUpload = null }:
 
   const count = (s: RowState) => rows.filter((r) => r.state === s).length;
   const inFlight = rows.some((r) => ["waiting", "sending", "checking", "paused", "interrupted"].includes(r.state));
+  const moving = rows.some((r) => ["waiting", "sending", "checking"].includes(r.state));
+  const stopped = count("paused") + count("interrupted");
   const sentBytes = rows.reduce((s, r) => s + r.sent, 0);
   const totalBytes = rows.reduce((s, r) => s + r.size, 0);
 
@@ -405,6 +407,11 @@ export function UploadPanel({ profile, pipeline, limits, initialUpload = null }:
               <button type="button" className="btn-primary" disabled={completing || inFlight || count("accepted") === 0} onClick={() => void complete()} data-testid="complete-upload">
                 {completing ? "Completing…" : "Mark upload complete"}
               </button>
+              {stopped > 0 && !moving ? (
+                <button type="button" className="btn" disabled={completing || count("accepted") === 0} onClick={() => void complete(true)} data-testid="complete-without-unfinished">
+                  Complete without the {stopped} unfinished
+                </button>
+              ) : null}
               <span className="text-ink-soft">
                 The {count("accepted")} accepted files become one dataset of {profile.surveyName} {profile.name}
                 {pipeline ? `, processed with ${pipeline.name} v${pipeline.version}` : ""}. Refused and duplicate files are left out.
