@@ -498,3 +498,60 @@ export const passwordTokens = sqliteTable(
   },
   (t) => [index("password_tokens_user").on(t.userId)],
 );
+
+/**
+ * A crew's upload of field files to one profile from the browser. Nothing of it becomes a dataset
+ * while it is open: marking it complete turns its accepted files into one dataset.
+ */
+export const uploadSessions = sqliteTable(
+  "upload_sessions",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    surveyId: integer("survey_id")
+      .notNull()
+      .references(() => surveys.id),
+    profileId: integer("profile_id")
+      .notNull()
+      .references(() => profiles.id),
+    createdByUserId: integer("created_by_user_id").references(() => users.id),
+    createdByLabel: text("created_by_label").notNull(),
+    state: text("state", { enum: ["open", "complete", "abandoned"] }).notNull().default("open"),
+    /** The dataset its accepted files became, once complete. */
+    datasetId: integer("dataset_id").references(() => datasets.id),
+    /** The run queued on completion (the profile's pipeline), if any. */
+    runId: integer("run_id"),
+    createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+    completedAt: integer("completed_at", { mode: "timestamp_ms" }),
+  },
+  (t) => [index("upload_sessions_profile").on(t.profileId, t.id)],
+);
+
+/** One file sent in an upload: its transfer, then the verdict of the checks on arrival. */
+export const uploadFiles = sqliteTable(
+  "upload_files",
+  {
+    id: integer("id").primaryKey({ autoIncrement: true }),
+    sessionId: integer("session_id")
+      .notNull()
+      .references(() => uploadSessions.id),
+    /** The resumable-transfer id (the last segment of its upload address). */
+    transferId: text("transfer_id").notNull().unique(),
+    name: text("name").notNull(),
+    sizeBytes: integer("size_bytes").notNull(),
+    /** Bytes the server received for it over every request (a resumed transfer sends none twice). */
+    receivedBytes: integer("received_bytes").notNull().default(0),
+    sha256: text("sha256"),
+    /** Format told from the bytes: "seg2", "segy", "geometry-table". */
+    format: text("format"),
+    verdict: text("verdict", { enum: ["receiving", "accepted", "duplicate", "refused"] }).notNull().default("receiving"),
+    /** Why it was refused (the reader's message, with file name and byte offset) or what it duplicates. */
+    message: text("message").notNull().default(""),
+    /** Byte offset the reader named, for a refused binary file. */
+    byteOffset: integer("byte_offset"),
+    /** Where the accepted content is kept, relative to the data folder (content-addressed). */
+    storedPath: text("stored_path"),
+    createdAt: integer("created_at", { mode: "timestamp_ms" }).notNull().default(now),
+    checkedAt: integer("checked_at", { mode: "timestamp_ms" }),
+  },
+  (t) => [index("upload_files_session").on(t.sessionId, t.id), index("upload_files_sha").on(t.sha256)],
+);

@@ -28,6 +28,8 @@ import { profileFields, newSurvey } from "../db/survey-fields";
 import type { Db } from "../db/client";
 import type net from "node:net";
 import { SMTPServer } from "smtp-server";
+import { ensureSurvey } from "../db/queries/surveys";
+import { admitFile, checkArrivedFile, completeUpload, openUpload, transfersDir, uploadLimits } from "../pipeline/uploads";
 
 const args = new Set(process.argv.slice(2));
 const prepareOnly = args.has("--prepare-only");
@@ -285,6 +287,7 @@ async function main() {
 
   await reproduceAndVerifyAudit(accounts.find((a) => a.role === "auditor")?.email);
   await reportOnApprovedInversion(lead);
+  await demoUploadFromTheField(fieldDir, processor);
 
   say("\nDemo accounts (invented people; demo passwords):");
   for (const a of accounts) say(`  ${a.role.padEnd(10)} ${a.email.padEnd(34)} ${a.password.padEnd(26)} ${a.name}`);
@@ -319,6 +322,48 @@ async function main() {
 /** Where the pipelines are edited: the list, each pipeline's versions and differences, the editor (processors and leads). */
 function showPipelinePages(origin: string) {
   say(`  Pipelines (versions, who saved each, differences, pipeline files; the editor for processors and leads): ${origin}/pipelines`);
+}
+
+/**
+ * Uploads from the field: the crew's folder sent as the upload page sends it, through the same
+ * code the transfer route calls once a file has arrived (admission with the size limits, checks on
+ * arrival with the engine's readers, completion into a dataset, the profile's pipeline queued),
+ * without the HTTP layer. One copy of a record is sent twice under another name and one record is
+ * cut short, so the upload shows a duplicate and a refusal. The queued run is executed by the
+ * engine as the control room would (every step comes from the cache: same content as the folder).
+ */
+async function demoUploadFromTheField(fieldDir: string, processorEmail: string | undefined) {
+  const db = getDb();
+  const user = processorEmail ? getUserByEmail(db, processorEmail) : null;
+  const actor = { userId: user?.id ?? null, label: user?.name ?? "field crew", door: "web" as const };
+  const profile = ensureSurvey(db, "quillmoor", "QM-1").profile!;
+  const session = openUpload(db, profile.id, actor);
+  const limits = uploadLimits();
+  fs.mkdirSync(transfersDir(), { recursive: true });
+  const files = fs.readdirSync(fieldDir).sort().map((name) => ({ name, bytes: fs.readFileSync(path.join(fieldDir, name)) }));
+  const first = files.find((f) => f.name.endsWith(".sg2"));
+  if (first) {
+    files.push({ name: first.name.replace(/\.sg2$/, " (copy).sg2"), bytes: first.bytes });
+    files.push({ name: "sp99-b1.sg2", bytes: first.bytes.subarray(0, Math.floor(first.bytes.length / 2)) });
+  }
+  const verdicts: Record<string, number> = {};
+  for (const [i, f] of files.entries()) {
+    const transferId = `demo-${session.id}-${i}`;
+    admitFile(db, { sessionId: session.id, transferId, name: f.name, sizeBytes: f.bytes.length, limits });
+    fs.writeFileSync(path.join(transfersDir(), transferId), f.bytes);
+    const checked = checkArrivedFile(db, transferId, path.join(transfersDir(), transferId));
+    verdicts[checked.verdict] = (verdicts[checked.verdict] ?? 0) + 1;
+    if (checked.verdict !== "accepted") say(`    ${checked.verdict}: ${checked.message}`);
+  }
+  const done = completeUpload(db, session.id, actor);
+  closeDb();
+  say(`\n  upload ${session.id} to quillmoor QM-1: ${Object.entries(verdicts).map(([v, n]) => `${n} ${v}`).join(", ")}; dataset ${done.datasetId}`);
+  if (done.runId !== null) {
+    say(`  run ${done.runId} queued with ${done.pipeline?.name} v${done.pipeline?.version}; executing it`);
+    const r = await cli(["execute-run", String(done.runId)]);
+    if (r.exitCode !== 0) throw new Error(`the run of the upload failed (exit ${r.exitCode})`);
+  }
+  say(`  the upload page: /uploads?survey=quillmoor&profile=QM-1 (processors and leads)`);
 }
 
 main().catch((err) => {

@@ -13,6 +13,7 @@ export default async function ControlLayout({ children }: { children: React.Reac
     { href: "/surveys", label: "Surveys" },
     ...(can(user.role, "runs.start") ? [{ href: "/runs/new", label: "Start a run" }] : []),
     { href: "/pipelines", label: "Pipelines" },
+    ...(can(user.role, "uploads.send") ? [{ href: "/uploads", label: "Upload field files" }] : []),
     { href: "/compare", label: "Compare settings" },
     ...(can(user.role, "audit.read") ? [{ href: "/audit", label: "Audit trail" }] : []),
     ...(can(user.role, "users.manage") ? [{ href: "/people", label: "People" }] : []),

@@ -13,6 +13,8 @@ export const PERMISSIONS = [
   "runs.rerun",
   /** Ask a running run to stop. */
   "runs.cancel",
+  /** Upload field files to a profile and mark an upload complete (it becomes a dataset). */
+  "uploads.send",
   /** Save new pipeline versions. */
   "pipelines.edit",
   /** Approve a run or send it back. */
@@ -28,7 +30,7 @@ export const PERMISSIONS = [
 ] as const;
 export type Permission = (typeof PERMISSIONS)[number];
 
-const PROCESSOR: Permission[] = ["runs.read", "runs.start", "runs.rerun", "runs.cancel", "pipelines.edit", "surveys.edit", "audit.read"];
+const PROCESSOR: Permission[] = ["runs.read", "runs.start", "runs.rerun", "runs.cancel", "uploads.send", "pipelines.edit", "surveys.edit", "audit.read"];
 
 /** The table. An auditor reads everything and changes nothing (a reproduction changes no result: it only checks one). */
 export const ROLE_PERMISSIONS: Record<Role, readonly Permission[]> = {
@@ -58,6 +60,7 @@ export function forbiddenMessage(role: Role, permission: Permission): string {
     "runs.start": "start runs",
     "runs.rerun": "rerun steps",
     "runs.cancel": "stop runs",
+    "uploads.send": "upload field files",
     "pipelines.edit": "edit pipelines",
     "runs.review": "approve or send back runs",
     "surveys.edit": "change surveys or profiles",
@@ -104,6 +107,12 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "POST /api/surveys": "surveys.edit",
   "GET /api/surveys/[slug]": "runs.read",
   "POST /api/surveys/[slug]/profiles": "surveys.edit",
+  "POST /api/upload-sessions": "uploads.send",
+  "GET /api/upload-sessions/[sessionId]": "runs.read",
+  "POST /api/upload-sessions/[sessionId]/complete": "uploads.send",
+  "POST /api/uploads/[[...path]]": "uploads.send",
+  "PATCH /api/uploads/[[...path]]": "uploads.send",
+  "HEAD /api/uploads/[[...path]]": "uploads.send",
   "GET /api/auth/[...nextauth]": "public",
   "POST /api/auth/[...nextauth]": "public",
 };

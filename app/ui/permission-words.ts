@@ -6,6 +6,7 @@ export const PERMISSION_WORDS: Record<Permission, string> = {
   "runs.start": "start runs",
   "runs.rerun": "rerun with changed settings",
   "runs.cancel": "stop runs",
+  "uploads.send": "upload field files to a profile",
   "pipelines.edit": "save pipeline versions",
   "runs.review": "approve runs or send them back",
   "surveys.edit": "create and change surveys, profiles and who is on them",

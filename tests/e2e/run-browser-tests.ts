@@ -15,6 +15,7 @@ import { build } from "esbuild";
 import { execa } from "execa";
 import type { Page } from "playwright-core";
 import { DEMO_ACCOUNTS } from "../../db/seed";
+import { writeSeg2 } from "../../pipeline/io/seg2";
 import { ensureBuild, pageLoadMs, prepareData, projectRoot, signIn, startBrowser, startMailCatcher, startServer } from "./harness";
 
 const argv = process.argv.slice(2);
@@ -804,6 +805,152 @@ async function main() {
       check(/used already/.test((await page.textContent("[data-testid=set-password-error]")) ?? ""), "a used link is not refused as used");
       await signIn(page, origin, who, "odile-chose-this-one");
     });
+    // Uploads from the field. SEG-2 layout used to predict the reader's byte offset (Pullan 1990,
+    // Geophysics 55(9)): trace count at bytes 6–7, trace pointers from byte 32, a trace descriptor
+    // block's size X at its bytes 2–3 with the trace's data right after it.
+    const uploadRows = (p: Page) =>
+      p.locator("[data-testid=upload-row]").evaluateAll((els) =>
+        els.map((e) => ({ name: e.getAttribute("data-name") ?? "", state: e.getAttribute("data-state") ?? "", transfer: e.getAttribute("data-transfer") ?? "", message: e.querySelector("[data-testid=upload-message]")?.textContent ?? "" })),
+      );
+    const uploadSessionOf = (p: Page) => Number(new URL(p.url()).searchParams.get("upload"));
+    /** A SEG-2 file of about `megabytes` MB (48 or more float32 traces of a smooth signal). */
+    const bigSeg2 = (megabytes: number) => {
+      const traces = 48;
+      const samples = Math.ceil((megabytes * 1e6) / (4 * traces));
+      return writeSeg2({
+        fileStrings: { COMPANY: "Corvell Ground Imaging" },
+        traces: Array.from({ length: traces }, (_, i) => ({
+          strings: { CHANNEL_NUMBER: String(i + 1), SAMPLE_INTERVAL: "0.00025", RECEIVER_LOCATION: String(i) },
+          samples: Float32Array.from({ length: samples }, (_, k) => Math.sin(0.01 * k + i)),
+        })),
+      });
+    };
+    const uploadTmp = fs.mkdtempSync(path.join(os.tmpdir(), "tw-upload-files-"));
+
+    await test("upload: the example folder with a malformed file and a duplicate becomes a processed run", async () => {
+      await signIn(page, origin, account("processor").email, account("processor").password);
+      const field = path.join(dataDir, "examples", "quillmoor", "field");
+      const folder = path.join(uploadTmp, "qm1-field");
+      fs.mkdirSync(folder);
+      for (const f of fs.readdirSync(field)) fs.copyFileSync(path.join(field, f), path.join(folder, f));
+      const sp = fs.readFileSync(path.join(field, "sp03-b2.sg2"));
+      const view = new DataView(sp.buffer, sp.byteOffset, sp.byteLength);
+      const little = sp[0] === 0x55;
+      const lastTrace = view.getUint32(32 + 4 * (view.getUint16(6, little) - 1), little);
+      const lastData = lastTrace + view.getUint16(lastTrace + 2, little);
+      fs.writeFileSync(path.join(folder, "sp03-b5.sg2"), sp.subarray(0, lastData + 100)); // cut inside the last trace's samples
+      // A copy under another name, added once the folder is in (files of one drop go three at a
+      // time, so which of two equal files arrives first would be a race).
+      const copy = path.join(uploadTmp, "sp03-b2 (copy).sg2");
+      fs.copyFileSync(path.join(field, "sp03-b2.sg2"), copy);
+      const total = fs.readdirSync(folder).length + 1;
+
+      await goto(page, `${origin}/uploads?survey=quillmoor&profile=QM-1`, "uploads");
+      check(((await page.textContent("[data-testid=upload-target]")) ?? "").includes("QM-1"), "the page does not name the profile");
+      const t0 = Date.now();
+      const allChecked = (n: number) =>
+        page.waitForFunction(
+          (count) => {
+            const rows = [...document.querySelectorAll("[data-testid=upload-row]")];
+            return rows.length === count && rows.every((r) => ["accepted", "duplicate", "refused"].includes(r.getAttribute("data-state") ?? ""));
+          },
+          n,
+          { timeout: 180_000 },
+        );
+      await page.setInputFiles("[data-testid=choose-folder]", folder);
+      await allChecked(total - 1);
+      const folderBytes = fs.readdirSync(folder).reduce((s, f) => s + fs.statSync(path.join(folder, f)).size, 0);
+      measured[`upload of the example folder, ${total - 1} files, ${(folderBytes / 1e6).toFixed(1)} MB (s)`] = ((Date.now() - t0) / 1000).toFixed(1);
+      await page.setInputFiles("[data-testid=choose-files]", copy);
+      await allChecked(total);
+      const rows = await uploadRows(page);
+      const bad = rows.find((r) => r.name === "sp03-b5.sg2");
+      check(bad?.state === "refused", `the cut file is ${bad?.state}`);
+      check(bad.message.includes(`sp03-b5.sg2: byte ${lastData}:`), `the refusal does not name byte ${lastData}: ${bad.message}`);
+      const dup = rows.find((r) => r.name === "sp03-b2 (copy).sg2");
+      check(dup?.state === "duplicate" && dup.message.includes("sp03-b2.sg2"), `the copy is ${dup?.state}: ${dup?.message}`);
+      const others = rows.filter((r) => r !== bad && r !== dup);
+      check(others.length === total - 2 && others.every((r) => r.state === "accepted"), `not all other files accepted: ${others.filter((r) => r.state !== "accepted").map((r) => `${r.name} ${r.state} ${r.message}`).join("; ")}`);
+      await shoot(page, "uploads");
+
+      await page.click("[data-testid=complete-upload]");
+      await page.waitForSelector("[data-testid=upload-done]");
+      const session = (await (await page.request.get(`${origin}/api/upload-sessions/${uploadSessionOf(page)}`)).json()) as { state: string; datasetId: number; runId: number | null };
+      check(session.state === "complete" && session.runId !== null, `upload ${uploadSessionOf(page)}: ${JSON.stringify(session)}`);
+      // The run the upload queued goes from queued to done in the background, with no terminal.
+      let run = await apiRun(page, origin, session.runId);
+      for (let i = 0; i < 360 && ["queued", "running"].includes(run.status); i++) {
+        await page.waitForTimeout(500);
+        run = await apiRun(page, origin, session.runId);
+      }
+      check(run.status === "succeeded", `the upload's run ${run.id} is ${run.status}`);
+      measured["upload's run: steps from the cache"] = `${run.steps.filter((s) => s.cacheHit).length} of ${run.steps.length}`;
+      await goto(page, `${origin}/runs/${run.id}`);
+    });
+
+    await test("upload: a transfer interrupted half-way resumes from the offset the server holds", async () => {
+      const file = path.join(uploadTmp, "sp98-b1.sg2");
+      const bytes = bigSeg2(16);
+      fs.writeFileSync(file, bytes);
+      await goto(page, `${origin}/uploads?survey=quillmoor&profile=QM-1`);
+      const offsets: number[] = [];
+      const onRequest = (r: import("playwright-core").Request) => {
+        if (r.method() === "PATCH" && r.url().includes("/api/uploads/")) offsets.push(Number(r.headers()["upload-offset"]));
+      };
+      page.on("request", onRequest);
+      // The field connection drops after the first chunk: every later chunk fails until it is back.
+      let patches = 0;
+      await page.route("**/api/uploads/**", async (route) => {
+        if (route.request().method() !== "PATCH" || ++patches === 1) return route.continue();
+        return route.abort("connectionreset");
+      });
+      try {
+        await page.setInputFiles("[data-testid=choose-files]", file);
+        await page.waitForSelector("[data-testid=upload-row][data-state=interrupted]", { timeout: 60_000 });
+      } finally {
+        await page.unroute("**/api/uploads/**");
+      }
+      const [row] = await uploadRows(page);
+      const head = await page.request.fetch(`${origin}/api/uploads/${row.transfer}`, { method: "HEAD", headers: { "tus-resumable": "1.0.0" } });
+      const held = Number(head.headers()["upload-offset"]);
+      check(held > 0 && held < bytes.length, `the server holds ${held} of ${bytes.length} bytes`);
+      offsets.length = 0;
+      await page.click("[data-testid=resume-file]");
+      await page.waitForSelector("[data-testid=upload-row][data-state=accepted]", { timeout: 60_000 });
+      page.off("request", onRequest);
+      check(offsets[0] === held, `the resumed transfer started at byte ${offsets[0]}, the server held ${held}`);
+      const session = (await (await page.request.get(`${origin}/api/upload-sessions/${uploadSessionOf(page)}`)).json()) as { files: Array<{ name: string; sizeBytes: number; receivedBytes: number; verdict: string }> };
+      const f = session.files.find((x) => x.name === "sp98-b1.sg2");
+      check(f?.verdict === "accepted", `sp98-b1.sg2 is ${f?.verdict}`);
+      check(f.receivedBytes === bytes.length, `the server received ${f.receivedBytes} bytes for a ${bytes.length}-byte file (bytes sent twice)`);
+      measured["interrupted upload resumed at byte"] = `${held} of ${bytes.length}`;
+    });
+
+    await test("upload: throughput of a 200 MB field file through the route", async () => {
+      const file = path.join(uploadTmp, "sp97-b1.sg2");
+      const bytes = bigSeg2(200);
+      fs.writeFileSync(file, bytes);
+      await goto(page, `${origin}/uploads?survey=quillmoor&profile=QM-1`);
+      const t0 = Date.now();
+      await page.setInputFiles("[data-testid=choose-files]", file);
+      await page.waitForSelector("[data-testid=upload-row][data-state=accepted], [data-testid=upload-row][data-state=refused]", { timeout: 300_000 });
+      const seconds = (Date.now() - t0) / 1000;
+      const [row] = await uploadRows(page);
+      check(row.state === "accepted", `the 200 MB file was ${row.state}: ${row.message}`);
+      measured[`upload of one ${(bytes.length / 1e6).toFixed(0)} MB SEG-2 file, sent, checked and kept (MB/s)`] = (bytes.length / 1e6 / seconds).toFixed(1);
+    });
+
+    await test("auditor: the upload page and the transfer route answer 403", async () => {
+      await signIn(page, origin, account("auditor").email, account("auditor").password);
+      check((await page.locator("nav >> text=Upload field files").count()) === 0, "auditor sees the upload link");
+      const res = await page.goto(`${origin}/uploads?survey=quillmoor&profile=QM-1`);
+      check(res?.status() === 403, `the upload page answered ${res?.status()}`);
+      const tus = await page.request.post(`${origin}/api/uploads`, { headers: { "tus-resumable": "1.0.0", "upload-length": "10", "upload-metadata": `sessionId ${btoa("1")},filename ${btoa("a.sg2")}`, origin } });
+      check(tus.status() === 403, `the transfer route answered ${tus.status()}`);
+      const open = await page.request.post(`${origin}/api/upload-sessions`, { data: { profileId: 1 }, headers: { origin } });
+      check(open.status() === 403, `opening an upload answered ${open.status()}`);
+    });
+    fs.rmSync(uploadTmp, { recursive: true, force: true });
   } finally {
     await browser.close();
     await server.stop();
