@@ -39,6 +39,7 @@ export interface FieldCheckThresholds {
   fastestVelocityMps: number;
   noiseGuardMs: number;
   noiseMinWindowMs: number;
+  noiseMinOffsetM: number;
   noisyTraceRatio: number;
   noisyBlowWarnRatio: number;
   noisyBlowReshootRatio: number;
@@ -204,7 +205,9 @@ function measureShot(s: FieldShot, th: FieldCheckThresholds): TraceMeasures {
   const noiseEnd = new Int32Array(nt);
   for (let t = 0; t < nt; t++) {
     const x = Math.abs(s.receiverX[t] - s.sourceX);
-    noiseEnd[t] = Math.max(0, Math.min(ns, toIndex(x / th.fastestVelocityMps - th.noiseGuardMs / 1000)));
+    // The traces next to the source are left out: their pre-trigger window is short and the
+    // source's own near field (the plate, the crew) reaches them first (common practice).
+    noiseEnd[t] = x < th.noiseMinOffsetM ? 0 : Math.max(0, Math.min(ns, toIndex(x / th.fastestVelocityMps - th.noiseGuardMs / 1000)));
   }
   const noise = windowRms(s.data, nt, ns, all0, noiseEnd, Math.max(2, Math.round(th.noiseMinWindowMs / 1000 / dt)));
   for (let t = 0; t < nt; t++) if (dead[t]) noise[t] = NaN;
@@ -407,6 +410,10 @@ export function checkFieldShots(shots: FieldShot[], th: FieldCheckThresholds, on
       const maxLag = Math.max(1, Math.min(ma.coarseCount - 1, Math.round(th.maxTriggerSlipMs / 1000 / ma.coarseIntervalS)));
       const r = recordLag(ma.coarse, mb.coarse, a.channel.length, ma.coarseCount, skip, ma.coarseIntervalS, 0, ma.coarseCount, maxLag);
       if (!(r.correlation >= th.sameSourceCorrelation)) continue;
+      // Blows logged at different positions count as shot at one position only when they agree
+      // without a shift: a source moved along the line beyond the end of the spread delays every
+      // arrival alike, which would pass for a trigger slip.
+      if (a.sourceX !== b.sourceX && !(Math.abs(r.lagS) * 1000 < th.triggerWarnMs)) continue;
       if (!(r.correlation <= bestMatch[i])) bestMatch[i] = r.correlation;
       if (!(r.correlation <= bestMatch[j])) bestMatch[j] = r.correlation;
       parent[root(i)] = root(j);

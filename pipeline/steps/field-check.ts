@@ -27,6 +27,8 @@ export const fieldCheckParams = z
     noiseGuardMs: z.number().min(0).default(2).describe("Gap between the end of the noise window and the earliest possible arrival, ms"),
     /** @default 5 */
     noiseMinWindowMs: z.number().positive().default(5).describe("Shortest noise window that is measured, ms"),
+    /** @default 1.5 */
+    noiseMinOffsetM: z.number().min(0).default(1.5).describe("Traces nearer the source than this are not measured for noise, m (short pre-trigger window, the source's own near field)"),
     /** @default 5 */
     noisyTraceRatio: z.number().gt(1).default(5).describe("A trace whose noise exceeds this multiple of the folder's median noise is noisy (ratio)"),
     /** @default 2.5 */
@@ -59,8 +61,8 @@ export const fieldCheckParams = z
     sameSourceCorrelation: z.number().min(0).max(1).default(0.9).describe("Two blows whose records correlate at least this well (at the best lag) were shot at one position; their lag is the trigger slip (correlation coefficient)"),
     /** @default 1 */
     blowCompareIntervalMs: z.number().positive().default(1).describe("Traces and blows are correlated on means over blocks of this length, ms (speed; keep it below a quarter period of the highest frequency that matters)"),
-    /** @default 0.5 */
-    minSymmetry: z.number().min(-1).max(1).default(0.5).describe("Source position from the record alone: judged only where the mirrored traces correlate at least this well about the best point (correlation coefficient); strong lateral changes make records asymmetric"),
+    /** @default 0.7 */
+    minSymmetry: z.number().min(-1).max(1).default(0.7).describe("Source position from the record alone: judged only where the mirrored traces correlate at least this well about the best point (correlation coefficient); strong lateral changes make records asymmetric"),
     /** @default 0.6 */
     sourceWarnM: z.number().positive().default(0.6).describe("Source position: difference from the log that warns, m"),
     /** @default 1 */
