@@ -11,6 +11,7 @@ export default async function ControlLayout({ children }: { children: React.Reac
   const links = [
     { href: "/runs", label: "Runs" },
     ...(can(user.role, "runs.start") ? [{ href: "/runs/new", label: "Start a run" }] : []),
+    { href: "/field-checks", label: "Field checks" },
     { href: "/compare", label: "Compare settings" },
     ...(can(user.role, "audit.read") ? [{ href: "/audit", label: "Audit trail" }] : []),
     ...(can(user.role, "users.manage") ? [{ href: "/people", label: "People" }] : []),

@@ -92,6 +92,7 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "GET /api/artifacts/[hash]/spectra": "runs.read",
   "GET /api/artifacts/[hash]/traces": "runs.read",
   "GET /api/audit": "audit.read",
+  "GET /api/field-checks/[runId]": "runs.read",
   "GET /api/auth/[...nextauth]": "public",
   "POST /api/auth/[...nextauth]": "public",
 };
