@@ -39,7 +39,7 @@ const ORIGIN = "http://127.0.0.1:3000";
 let tmp: string;
 const users = {} as Record<Role, { id: number; role: Role; name: string; email: string }>;
 let reviewCount = 0;
-const fx = { runId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0 };
+const fx = { runId: 0, fieldCheckRunId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0 };
 
 /** Route files on disk, as the keys of ROUTE_REQUIREMENTS ("METHOD /api/..."). */
 function routesOnDisk(): Array<{ key: string; file: string; method: string }> {
@@ -86,6 +86,7 @@ const CASES: Record<string, Case> = {
   "GET /api/artifacts/[hash]/spectra": () => ({ url: `/api/artifacts/${fx.spectra}/spectra`, params: { hash: fx.spectra } }),
   "GET /api/artifacts/[hash]/traces": () => ({ url: `/api/artifacts/${fx.gathers}/traces`, params: { hash: fx.gathers } }),
   "GET /api/audit": () => ({ url: "/api/audit" }),
+  "GET /api/field-checks/[runId]": () => ({ url: `/api/field-checks/${fx.fieldCheckRunId}`, params: { runId: String(fx.fieldCheckRunId) } }),
   "GET /api/auth/[...nextauth]": () => ({ url: "/api/auth/providers", params: { nextauth: ["providers"] } }),
   "POST /api/auth/[...nextauth]": () => ({ url: "/api/auth/_log", body: {}, params: { nextauth: ["_log"] } }),
 };
@@ -115,6 +116,10 @@ beforeAll(async () => {
   const prepared = createRun(db, { source: "pipeline-file", pipelinePath: file, actor: { userId: users.processor.id, label: users.processor.name, door: "cli" } });
   fx.runId = prepared.runId;
   await executeRun(db, fx.runId);
+  const fieldFile = path.join(tmp, "matrix-field.yaml");
+  fs.writeFileSync(fieldFile, "name: matrix-field\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { traces: 6, samples: 300, value: 1 }\n  - step: field-check\n");
+  fx.fieldCheckRunId = createRun(db, { source: "pipeline-file", pipelinePath: fieldFile, actor: { userId: users.processor.id, label: users.processor.name, door: "cli" } }).runId;
+  await executeRun(db, fx.fieldCheckRunId);
   const run = getRun(db, fx.runId)!;
   fx.gathers = run.steps[1].outputs.gathers;
   fx.pipelineVersionId = run.pipelineVersionId!;
