@@ -11,6 +11,7 @@ import { importRecordsParams, importRecordsStep } from "../../../pipeline/steps/
 import { geometryParams, geometryStep } from "../../../pipeline/steps/geometry";
 import { fieldCheckParams, fieldCheckStep, type FieldCheckReport } from "../../../pipeline/steps/field-check";
 import type { GatherSet } from "../../../pipeline/types";
+import { loadPipelineFile } from "../../../pipeline/pipeline-file";
 import { makeStepContext } from "../../helpers/step-context";
 
 let survey: QuillmoorSurvey;
@@ -141,5 +142,11 @@ describe("field-check on the Quillmoor field data", () => {
     const r = fieldCheckParams.safeParse({ sourceWarnM: 2, sourceReshootM: 1 });
     expect(r.success).toBe(false);
     expect(r.error!.issues[0].path).toEqual(["sourceReshootM"]);
+  });
+
+  it("runs from the example's pipeline file for the watcher: raw blows, positions from the crew's table", () => {
+    const { resolved } = loadPipelineFile(new URL("../../../examples/quillmoor/qm1-field-check.yaml", import.meta.url).pathname);
+    expect(resolved.steps.map((s) => s.stepId)).toEqual(["import-records", "geometry", "field-check"]);
+    expect(resolved.steps[1].params.positionsFrom).toBe("table");
   });
 });
