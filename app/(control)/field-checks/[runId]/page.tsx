@@ -11,7 +11,8 @@ export const dynamic = "force-dynamic";
 
 const VERDICT_CLASS: Record<string, string> = { ok: "bg-ok-soft text-ok", warn: "bg-warn-soft text-warn", reshoot: "bg-bad-soft text-bad" };
 const VERDICT_WORDS: Record<string, string> = { ok: "All good", warn: "Warnings", reshoot: "Reshoot needed" };
-const fmt = (v: number, digits = 1) => (Number.isFinite(v) ? v.toFixed(digits) : "–");
+/** A figure at `digits` decimals ("–" when not judged; no "-0.0"). */
+const fmt = (v: number, digits = 1) => (Number.isFinite(v) ? (Number(v.toFixed(digits)) || 0).toFixed(digits) : "–");
 
 export default async function FieldCheckPage({ params }: { params: Promise<{ runId: string }> }) {
   await pageUserWith("runs.read");
