@@ -3,10 +3,17 @@
  * do) when a field check finds something that needs a reshoot, with every such finding in the
  * body; not sent when nothing does, nor without an SMTP host.
  */
+import fs from "node:fs";
 import net from "node:net";
+import os from "node:os";
+import path from "node:path";
 import { afterAll, afterEach, beforeAll, describe, expect, it } from "vitest";
 import { SMTPServer } from "smtp-server";
-import { fieldCheckMail, sendFieldCheckMail } from "../../pipeline/field-check-mail";
+import { closeDb, getDb } from "../../db/client";
+import { fieldCheckMail, fieldCheckOfRun, sendFieldCheckMail } from "../../pipeline/field-check-mail";
+import { executeRun } from "../../pipeline/runner";
+import { createRun } from "../../pipeline/run-create";
+import { registerEngineTestSteps } from "../helpers/engine-steps";
 import { checkFieldShots, type FieldShot } from "../../pipeline/kernels/field-check-verdicts";
 import { fieldCheckParams, type FieldCheckReport } from "../../pipeline/steps/field-check";
 import { gaussianSource, mulberry32 } from "../helpers/random";
@@ -95,5 +102,36 @@ describe("the field lead's mail", () => {
     expect(await sendFieldCheckMail({ to: "rosa@corvell.example", report: clean, folder: "/incoming/a", runId: 1 })).toEqual({ sent: false, reason: "nothing needs a reshoot" });
     const outcome = await sendFieldCheckMail({ to: "rosa@corvell.example", report: report(true), folder: "/incoming/a", runId: 2 });
     expect(outcome).toEqual({ sent: false, reason: "no SMTP server is configured (TRACEWRIGHT_SMTP_HOST)" });
+  });
+
+  it("reads the report of a run the watcher finished, and nothing for a run without a field check", async () => {
+    const tmp = fs.mkdtempSync(path.join(os.tmpdir(), "tw-field-mail-"));
+    const before = { dir: process.env.TRACEWRIGHT_DATA_DIR, db: process.env.TRACEWRIGHT_DB };
+    process.env.TRACEWRIGHT_DATA_DIR = tmp;
+    delete process.env.TRACEWRIGHT_DB;
+    try {
+      registerEngineTestSteps();
+      const db = getDb();
+      const actor = { userId: null, label: "watcher", door: "watcher" as const };
+      const write = (name: string, steps: string) => {
+        fs.writeFileSync(path.join(tmp, name), `name: ${name.replace(".yaml", "")}\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { traces: 6, samples: 300, value: 1 }\n${steps}`);
+        return path.join(tmp, name);
+      };
+      const checked = createRun(db, { source: "pipeline-file", pipelinePath: write("checked.yaml", "  - step: field-check\n"), actor }).runId;
+      await executeRun(db, checked);
+      const plain = createRun(db, { source: "pipeline-file", pipelinePath: write("plain.yaml", ""), actor }).runId;
+      await executeRun(db, plain);
+      const report = fieldCheckOfRun(db, checked)!;
+      // Six constant traces: every sample sits at the trace's largest magnitude, so each is clipped throughout.
+      expect(report.counts).toMatchObject({ shots: 1, traces: 6 });
+      expect(report.findings.filter((f) => f.kind === "clipped").map((f) => f.value)).toEqual([300, 300, 300, 300, 300, 300]);
+      expect(fieldCheckOfRun(db, plain)).toBeNull();
+    } finally {
+      closeDb();
+      if (before.dir === undefined) delete process.env.TRACEWRIGHT_DATA_DIR;
+      else process.env.TRACEWRIGHT_DATA_DIR = before.dir;
+      if (before.db !== undefined) process.env.TRACEWRIGHT_DB = before.db;
+      fs.rmSync(tmp, { recursive: true, force: true });
+    }
   });
 });
