@@ -7,6 +7,7 @@ import type { AnyStepDefinition, StepDefinition } from "./step";
 import { AppError } from "./errors";
 import { importRecordsStep } from "./steps/import-records";
 import { geometryStep } from "./steps/geometry";
+import { fieldCheckStep } from "./steps/field-check";
 import { verticalStackStep } from "./steps/vertical-stack";
 import { traceEditStep } from "./steps/trace-edit";
 import { timeWindowStep } from "./steps/time-window";
@@ -28,6 +29,7 @@ import { waveformInversionStep } from "./steps/waveform-inversion";
 const STEPS: AnyStepDefinition[] = [
   importRecordsStep,
   geometryStep,
+  fieldCheckStep,
   verticalStackStep,
   traceEditStep,
   timeWindowStep,

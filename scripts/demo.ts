@@ -30,6 +30,9 @@ import type net from "node:net";
 import { SMTPServer } from "smtp-server";
 import { ensureSurvey } from "../db/queries/surveys";
 import { admitFile, checkArrivedFile, completeUpload, openUpload, transfersDir, uploadLimits } from "../pipeline/uploads";
+import { latestFieldChecks } from "../db/queries/field-checks";
+import type { FieldCheckReport } from "../pipeline/steps/field-check";
+import type { JsonDocument } from "../pipeline/types";
 
 const args = new Set(process.argv.slice(2));
 const prepareOnly = args.has("--prepare-only");
@@ -231,6 +234,24 @@ async function quillmoorSurveyRecordAndMailCatcher(db: Db): Promise<void> {
   say(`  fake mail server (accepts every message, delivers none) on 127.0.0.1:${port}: notices appear on the Outbox page`);
 }
 
+/**
+ * Field checks on arrival: the check the folder watcher runs on the crew's laptop, here on the
+ * survey's field folder through the command line; prints what it found and its time per record.
+ */
+async function demoFieldCheck(fieldDir: string, processor: string | undefined): Promise<void> {
+  say(`\n  field check of the raw blows in ${fieldDir} (examples/quillmoor/qm1-field-check.yaml)`);
+  const r = await cli(["run", path.join(example, "qm1-field-check.yaml"), "--field-data", fieldDir, ...(processor ? ["--as", processor] : [])]);
+  if (r.exitCode !== 0) throw new Error(`the field check failed (exit ${r.exitCode})`);
+  const db = getDb();
+  const check = latestFieldChecks(db).find((c) => path.resolve(c.folderPath) === path.resolve(fieldDir));
+  closeDb();
+  if (!check?.reportHash) return;
+  const report = (readArtifactSync(check.reportHash) as JsonDocument).data as FieldCheckReport;
+  say(`  field check, run ${check.runId}: ${report.counts.shots} records, verdict ${report.verdict}, ${check.summary?.msPerRecord ?? "?"} ms per record`);
+  for (const f of report.findings) say(`    [${f.verdict}] ${f.message}`);
+  say(`  (the page: /field-checks/${check.runId}; the watcher mails the field lead: tracewright watch <folder> --pipeline examples/quillmoor/qm1-field-check.yaml --mail-field-lead <email>)`);
+}
+
 async function main() {
   say(`Tracewright demo: data in ${dataDir()}`);
   const db = getDb();
@@ -263,6 +284,8 @@ async function main() {
     const r = await cli(["run", path.join(example, file), "--field-data", fieldDir, ...(processor ? ["--as", processor] : [])]);
     if (r.exitCode !== 0) throw new Error(`the example pipeline ${file} failed (exit ${r.exitCode})`);
   }
+
+  await demoFieldCheck(fieldDir, processor);
 
   // The demo alone knows the true ground: say how close the inverted model comes to it.
   const assessed = await execa(process.execPath, ["--import", "tsx", path.join(example, "assess-inversion.ts")], { cwd: projectRoot, stdio: "inherit", reject: false });

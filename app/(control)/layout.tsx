@@ -14,6 +14,7 @@ export default async function ControlLayout({ children }: { children: React.Reac
     ...(can(user.role, "runs.start") ? [{ href: "/runs/new", label: "Start a run" }] : []),
     { href: "/pipelines", label: "Pipelines" },
     ...(can(user.role, "uploads.send") ? [{ href: "/uploads", label: "Upload field files" }] : []),
+    { href: "/field-checks", label: "Field checks" },
     { href: "/compare", label: "Compare settings" },
     ...(can(user.role, "audit.read") ? [{ href: "/audit", label: "Audit trail" }] : []),
     ...(can(user.role, "users.manage") ? [{ href: "/people", label: "People" }] : []),

@@ -113,6 +113,7 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "POST /api/uploads/[[...path]]": "uploads.send",
   "PATCH /api/uploads/[[...path]]": "uploads.send",
   "HEAD /api/uploads/[[...path]]": "uploads.send",
+  "GET /api/field-checks/[runId]": "runs.read",
   "GET /api/auth/[...nextauth]": "public",
   "POST /api/auth/[...nextauth]": "public",
 };

@@ -3,7 +3,7 @@ import type { Command } from "commander";
 import { AppError } from "../../pipeline/errors";
 import { action, printJson } from "../shared";
 
-const PARTS = ["readers", "signal", "solver", "inversion"] as const;
+const PARTS = ["readers", "signal", "field-check", "solver", "inversion"] as const;
 type Part = (typeof PARTS)[number];
 
 function parseGrid(text: string): { nx: number; nz: number } {
@@ -21,7 +21,7 @@ function parseGrid(text: string): { nx: number; nz: number } {
 export function registerBench(program: Command): void {
   program
     .command("bench")
-    .description("measure and print speed figures: field-file readers, signal steps, finite-difference solver, waveform inversion")
+    .description("measure and print speed figures: field-file readers, signal steps, field check, finite-difference solver, waveform inversion")
     .option("--only <part>", `measure one part: ${PARTS.join(", ")}`)
     .option("--grid <nx>x<nz>", "solver grid in cells", "1000x400")
     .option("--steps <n>", "solver time steps per shot", "300")
@@ -64,6 +64,13 @@ export function registerBench(program: Command): void {
           results.signal = rows;
           out("signal steps (96 traces × 4,000 samples, one core, ms):");
           for (const r of rows) out(`  ${r.step.padEnd(66)} ${r.ms.toFixed(1)}`);
+        }
+        if (want("field-check")) {
+          const { benchFieldCheck } = await import("../../pipeline/bench/field-check");
+          const r = await benchFieldCheck();
+          results.fieldCheck = r;
+          out(`field check (${r.records} records of ${r.channels} channels × ${r.samples} samples, one core, ms per record):`);
+          out(`  wall ${r.msPerRecord.median.toFixed(1)} (${r.msPerRecord.min.toFixed(1)}–${r.msPerRecord.max.toFixed(1)} over ${r.repeats} runs), CPU ${r.cpuMsPerRecord.toFixed(1)}`);
         }
         if (want("solver")) {
           const { benchSolver, formatSolverBench } = await import("../../pipeline/bench/solver");

@@ -5,6 +5,7 @@ import { closeSharedWorkerPool, sharedWorkerPool } from "../../pipeline/workers/
 import { terminalProgress } from "../progress";
 import { action, openCliDb, resolveActor } from "../shared";
 import { AppError } from "../../pipeline/errors";
+import { fieldCheckOfRun, sendFieldCheckMail } from "../../pipeline/field-check-mail";
 
 export function registerWatch(program: Command): void {
   program
@@ -19,8 +20,9 @@ export function registerWatch(program: Command): void {
     .option("--ready-marker <name>", "file name the crew drops into a folder when its copy is complete", "READY")
     .option("--polling", "poll the file system (for network shares)")
     .option("--as <email>", "record runs as started by this user (default: watcher)")
+    .option("--mail-field-lead <email>", "after a run with a field-check step, mail this address when something needs a reshoot (SMTP from TRACEWRIGHT_SMTP_HOST)")
     .action(
-      action(async (folder: string, opts: { pipeline: string; quietSeconds: string; settleSeconds: string; readyMarker: string; polling?: boolean; as?: string }) => {
+      action(async (folder: string, opts: { pipeline: string; quietSeconds: string; settleSeconds: string; readyMarker: string; polling?: boolean; as?: string; mailFieldLead?: string }) => {
         const seconds = (value: string, option: string) => {
           const n = Number(value);
           if (!Number.isFinite(n) || n < 0) throw new AppError("bad-input", `${option}: expected a number of seconds >= 0, got "${value}"`, { field: option });
@@ -30,6 +32,7 @@ export function registerWatch(program: Command): void {
         const settle = seconds(opts.settleSeconds, "--settle-seconds");
         const db = openCliDb();
         const actor = opts.as ? resolveActor(db, opts.as, "watcher") : { userId: null, label: "watcher", door: "watcher" as const };
+        const mails: Array<Promise<unknown>> = [];
         const progress = terminalProgress({ interactive: Boolean(process.stderr.isTTY), verbose: false });
         const watcher = watchFieldFolders(db, {
           root: folder,
@@ -43,7 +46,18 @@ export function registerWatch(program: Command): void {
           runEvents: progress,
           onNotice: (n) =>
             process.stderr.write(`${new Date().toISOString().slice(11, 19)} ${n.event.padEnd(12)} ${n.folder}${n.file ? `/${n.file}` : ""}: ${n.reason}\n`),
-          onRunFinished: (o) => process.stderr.write(`run ${o.runId} ${o.status}${o.error ? `: ${o.error}` : ""}\n`),
+          onRunFinished: (o) => {
+            process.stderr.write(`run ${o.runId} ${o.status}${o.error ? `: ${o.error}` : ""}\n`);
+            const to = opts.mailFieldLead;
+            if (!to || o.status !== "succeeded") return;
+            const report = fieldCheckOfRun(db, o.runId);
+            if (!report) return;
+            mails.push(
+              sendFieldCheckMail({ to, report, folder: o.folder, runId: o.runId }).then((m) =>
+                process.stderr.write(m.sent ? `mailed ${to}: ${m.subject}\n` : `no mail to ${to}: ${m.reason}\n`),
+              ),
+            );
+          },
         });
         await watcher.ready;
         process.stderr.write(`watching ${folder} (Ctrl-C to stop)\n`);
@@ -54,6 +68,7 @@ export function registerWatch(program: Command): void {
         });
         process.stderr.write("stopping the watcher...\n");
         await watcher.close();
+        await Promise.allSettled(mails);
         await closeSharedWorkerPool();
       }),
     );

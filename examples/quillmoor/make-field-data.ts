@@ -203,6 +203,15 @@ export interface QuillmoorSurvey {
   files: Array<{ name: string; bytes: Uint8Array }>;
   /** The crew's geometry table (spread form), with the logging mistake at sp14-b3 and sp14-b4. */
   geometryCsv: string;
+  /** What was planted, for checks that must find it (the field check's test). */
+  faults: {
+    /** Channel recorded as all zeros. */
+    deadChannel: number;
+    /** Blows made weak (a glancing hit) or noisy (a gust, a passing lorry). */
+    oddBlows: Array<{ file: string; sourcePoint: number; blow: number; kind: "weak" | "noisy" }>;
+    /** Blows logged at another source position than they were shot at. */
+    mislogged: Array<{ file: string; sourceX: number; loggedSourceX: number }>;
+  };
 }
 
 const SP_SPACING_M = 2;
@@ -248,6 +257,7 @@ export function makeQuillmoorSurvey(options: QuillmoorOptions = {}): QuillmoorSu
   const u = mulberry32(seed);
   const gauss = gaussian(u);
   const files: QuillmoorSurvey["files"] = [];
+  const faults: QuillmoorSurvey["faults"] = { deadChannel: dead, oddBlows: [], mislogged: [] };
   const rows: string[] = [];
   const noise = new Float64Array(ns + 2000);
   const wind = new Float64Array(ns);
@@ -310,6 +320,7 @@ export function makeQuillmoorSurvey(options: QuillmoorOptions = {}): QuillmoorSu
         return { strings: traceStrings(c + 1, sx, rx, dt, t0), samples: s };
       });
       const name = blowFileName(sp, b);
+      if (b === oddBlow) faults.oddBlows.push({ file: name, sourcePoint: sp, blow: b, kind: oddKind });
       const seq = (sp - 1) * nBlows + b;
       files.push({
         name,
@@ -333,6 +344,7 @@ export function makeQuillmoorSurvey(options: QuillmoorOptions = {}): QuillmoorSu
       const mistake = sp === 14 && b >= 3 && nSp >= 15;
       const loggedSp = mistake ? 15 : sp;
       const loggedX = FIRST_SP_X + (loggedSp - 1) * SP_SPACING_M;
+      if (mistake) faults.mislogged.push({ file: name, sourceX: sx, loggedSourceX: loggedX });
       rows.push(`${name},${loggedSp},${b},${loggedX.toFixed(1)},0.0,1.0,${nCh}`);
     }
   }
@@ -343,7 +355,7 @@ export function makeQuillmoorSurvey(options: QuillmoorOptions = {}): QuillmoorSu
     ...rows,
     "",
   ].join("\n");
-  return { files, geometryCsv };
+  return { files, geometryCsv, faults };
 }
 
 /** Scales `a` in place to unit root-mean-square. */

@@ -46,7 +46,7 @@ const ORIGIN = "http://127.0.0.1:3000";
 let tmp: string;
 const users = {} as Record<Role, { id: number; role: Role; name: string; email: string }>;
 let reviewCount = 0;
-const fx = { runId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0, invertedRunId: 0, report: "", profileId: 0, uploadId: 0, transferSessionId: 0, transfer: "" };
+const fx = { runId: 0, fieldCheckRunId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0, invertedRunId: 0, report: "", profileId: 0, uploadId: 0, transferSessionId: 0, transfer: "" };
 let surveyCount = 0;
 let uploadFileCount = 0;
 const tusHeaders = (extra: Record<string, string>) => ({ "tus-resumable": "1.0.0", ...extra });
@@ -121,6 +121,7 @@ const CASES: Record<string, Case> = {
     rawBody: new Uint8Array([1, 2]),
   }),
   "HEAD /api/uploads/[[...path]]": () => ({ url: `/api/uploads/${fx.transfer}`, params: { path: [fx.transfer] }, headers: tusHeaders({}) }),
+  "GET /api/field-checks/[runId]": () => ({ url: `/api/field-checks/${fx.fieldCheckRunId}`, params: { runId: String(fx.fieldCheckRunId) } }),
   "GET /api/auth/[...nextauth]": () => ({ url: "/api/auth/providers", params: { nextauth: ["providers"] } }),
   "POST /api/auth/[...nextauth]": () => ({ url: "/api/auth/_log", body: {}, params: { nextauth: ["_log"] } }),
 };
@@ -154,6 +155,10 @@ beforeAll(async () => {
   await prepareUpload();
   fx.transferSessionId = (await import("@/pipeline/uploads")).openUpload(db, fx.profileId, { userId: users.admin.id, label: "admin", door: "cli" }).id;
   await executeRun(db, fx.runId);
+  const fieldFile = path.join(tmp, "matrix-field.yaml");
+  fs.writeFileSync(fieldFile, "name: matrix-field\nsurvey: test-site\nsteps:\n  - step: test-make-traces\n    settings: { traces: 6, samples: 300, value: 1 }\n  - step: field-check\n");
+  fx.fieldCheckRunId = createRun(db, { source: "pipeline-file", pipelinePath: fieldFile, actor: { userId: users.processor.id, label: users.processor.name, door: "cli" } }).runId;
+  await executeRun(db, fx.fieldCheckRunId);
   const run = getRun(db, fx.runId)!;
   fx.gathers = run.steps[1].outputs.gathers;
   fx.pipelineVersionId = run.pipelineVersionId!;

@@ -605,6 +605,26 @@ async function main() {
       check((await page.textContent("body"))?.includes("Not allowed for your role"), "editor page not refused");
     });
 
+    await test("field checks: folder list, verdict grid with letters, the planted faults as findings", async () => {
+      await signIn(page, origin, account("lead").email, account("lead").password);
+      await goto(page, `${origin}/field-checks`, "field checks");
+      const links = page.locator("[data-testid=field-check-list] a");
+      if ((await links.count()) === 0) throw new Skip("the data folder has no field-check run (run examples/quillmoor/qm1-field-check.yaml on it)");
+      await links.first().click();
+      await page.waitForSelector("[data-testid=verdict-grid]");
+      const verdict = (await page.textContent("[data-testid=field-check-verdict]")) ?? "";
+      check(verdict.includes("Reshoot needed"), `verdict line: ${verdict}`);
+      const urgent = (await page.textContent("[data-testid=field-check-urgent]")) ?? "";
+      check(/Channel 31 is dead/.test(urgent), "the dead channel is not among the findings");
+      check(/sp14-b3.*logged 27\.0 m/.test(urgent), "the mislogged blow sp14-b3 is not among the findings");
+      check(/noise before the first arrivals/.test(urgent), "no noisy blow among the findings");
+      // Not colour alone: reshoot cells carry the letter R, and the legend says what it means.
+      const letters = await page.locator("[data-testid=verdict-grid] text").evaluateAll((els) => els.map((e) => e.textContent));
+      check(letters.filter((t) => t === "R").length >= 104, `expected the dead channel's 104 cells marked R, found ${letters.filter((t) => t === "R").length}`);
+      check(((await page.textContent("[aria-label=Legend]")) ?? "").includes("R: reshoot"), "legend without the letters");
+      await shoot(page, "field-check");
+    });
+
     await test("auditor: no rerun button, and the rerun API answers 403 with a message", async () => {
       await signIn(page, origin, account("auditor").email, account("auditor").password);
       check((await page.locator("nav >> text=Start a run").count()) === 0, "auditor must not see Start a run");
