@@ -3,6 +3,7 @@ import type { Db } from "../db/client";
 import { getRun } from "../db/queries/runs";
 import { executeRun } from "../pipeline/runner";
 import { closeSharedWorkerPool } from "../pipeline/workers/pool";
+import { closeSharedShotQueue } from "../pipeline/workers/shot-queue";
 import { terminalProgress } from "./progress";
 import { formatDuration, printJson } from "./shared";
 
@@ -57,5 +58,6 @@ export async function executeInTerminal(db: Db, runId: number, opts: { json?: bo
     process.off("SIGINT", onSigint);
     process.off("SIGTERM", onSigint);
     await closeSharedWorkerPool();
+    await closeSharedShotQueue();
   }
 }

@@ -14,6 +14,8 @@ import { registerRuns } from "./commands/runs";
 import { registerSteps } from "./commands/steps";
 import { registerUsers } from "./commands/users";
 import { registerWatch } from "./commands/watch";
+import { registerWorker } from "./commands/worker";
+import { registerWorkers } from "./commands/workers";
 import { closeDb } from "../db/client";
 
 const program = new Command()
@@ -38,6 +40,8 @@ registerExport(program);
 registerUsers(program);
 registerMigrate(program);
 registerBench(program);
+registerWorker(program);
+registerWorkers(program);
 
 await program.parseAsync(process.argv);
 closeDb();

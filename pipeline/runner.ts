@@ -25,6 +25,8 @@ import { computeStep, reuseCachedResult, type RunScope } from "./run-step";
 import { loadFieldFiles, SlotTable } from "./slots";
 import { sharedWorkerPool, type WorkerPool } from "./workers/pool";
 import type { RunEvents } from "./run-step";
+import { localShotExecutor } from "./workers/shot-executor";
+import { queueSettingsFromEnv, queueShotExecutor, sharedShotQueue } from "./workers/shot-queue";
 
 export type { RunEvents };
 
@@ -60,7 +62,19 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   const runLog = createRunLogger(db, runId, null, { echo: (level, message) => events.onLog?.({ label: null, level, message }) });
   events.onRunStart?.({ runId, steps: steps.map((s) => ({ label: s.label, stepId: s.stepId })) });
   let pool = opts.pool;
-  const scope: RunScope = { db, runId, lease, events, total: steps.length, pool: () => (pool ??= sharedWorkerPool()) };
+  const scope: RunScope = {
+    db,
+    runId,
+    lease,
+    events,
+    total: steps.length,
+    pool: () => (pool ??= sharedWorkerPool()),
+    // With TRACEWRIGHT_REDIS_URL, per-shot work goes to the job queue; else the local pool runs it.
+    shots: async (stepLabel, signal) => {
+      const queueSettings = queueSettingsFromEnv();
+      return queueSettings ? queueShotExecutor(await sharedShotQueue(queueSettings), { runId, step: stepLabel, signal }) : localShotExecutor(scope.pool);
+    },
+  };
   const slots = new SlotTable();
   let outcome: RunOutcome = { runId, status: "succeeded" };
   try {
