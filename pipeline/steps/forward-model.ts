@@ -147,7 +147,8 @@ export const forwardModelStep = defineStep({
     };
     const wavelets = perShotWavelet ? Object.fromEntries(templates.map((t) => [t.id, waveletFor(p, t.id, input.wavelet)])) : undefined;
     const res = await modelShots(model, templates, { ...common, wavelet: waveletFor(p, templates[0].id, input.wavelet) }, {
-      pool: modelShotRunner(shotExecutorOf(ctx), "all-shots"),
+      // No executor and no pool (a bare context): the shots run here in turn.
+      pool: ctx.shots || ctx.pool ? modelShotRunner(shotExecutorOf(ctx), "all-shots") : undefined,
       signal: ctx.signal,
       snapshotGatherId: p.snapshotGatherId,
       wavelets,
