@@ -79,6 +79,8 @@ export interface WorkerProcess {
   stop(signal?: NodeJS.Signals): Promise<void>;
   /** Resolves when it has exited. */
   exited: Promise<number | null>;
+  /** False once it has exited. */
+  alive(): boolean;
 }
 
 /** Starts `tracewright worker` with the queue URL and data folder given. */
@@ -94,5 +96,5 @@ export function spawnWorkerProcess(options: { url: string; dataDir: string; conc
   child.stdout!.on("data", (b: Buffer) => (out += b.toString()));
   child.stderr!.on("data", (b: Buffer) => (out += b.toString()));
   const exited = new Promise<number | null>((resolve) => child.once("exit", (code) => resolve(code)));
-  return { pid: child.pid!, output: () => out, stop: (signal) => stopChild(child, signal), exited };
+  return { pid: child.pid!, output: () => out, stop: (signal) => stopChild(child, signal), exited, alive: () => child.exitCode === null && child.signalCode === null };
 }

@@ -20,6 +20,7 @@ import type { ShotGradientInput, ShotGradientOutput } from "../../../pipeline/ke
 import { encodeArtifact } from "../../../pipeline/artifact-codec";
 import { sha256Hex } from "../../../pipeline/hash";
 import { forwardModelParams, forwardModelStep } from "../../../pipeline/steps/forward-model";
+import { waveformInversionParams, waveformInversionStep } from "../../../pipeline/steps/waveform-inversion";
 import type { ElasticModel, GatherSet } from "../../../pipeline/types";
 import { createWorkerPool, type WorkerPool } from "../../../pipeline/workers/pool";
 import { localShotExecutor, type ShotExecutor } from "../../../pipeline/workers/shot-executor";
@@ -101,6 +102,10 @@ describe.skipIf(!haveRedis)("shot tasks on the job queue", () => {
     await until(async () => (await listWorkers(await queue.redis())).some((r) => r.pid === w.pid), `worker ${w.pid} to register (${w.output()})`);
     return w;
   };
+  /** Starts a worker unless one of ours still runs (so each test also runs alone). */
+  const ensureWorker = async () => {
+    if (!workers.some((w) => w.alive())) await startWorker();
+  };
   const onQueue = (step: string, signal?: AbortSignal) => queueShotExecutor(queue, { runId: 7, step, signal });
 
   beforeAll(async () => {
@@ -144,7 +149,8 @@ describe.skipIf(!haveRedis)("shot tasks on the job queue", () => {
   });
 
   it("retries the task of a worker killed in the middle of it elsewhere; the result is unchanged and each shot counts once", async () => {
-    const [first] = workers;
+    while (workers.filter((w) => w.alive()).length < 2) await startWorker();
+    const [first] = workers.filter((w) => w.alive());
     const long = shotTasks(model, 600);
     const localLong = await local.runShots("shotGradientTask", long, { batch: "reference-long" });
     const running = onQueue("killed-worker").runShots("shotGradientTask", long, { batch: "stage-1/iteration-1/evaluation-1" });
@@ -167,12 +173,13 @@ describe.skipIf(!haveRedis)("shot tasks on the job queue", () => {
   });
 
   it("stops a running task on its worker when the step is cancelled", async () => {
-    const [, second] = workers;
+    await ensureWorker();
+    const live = new Set(workers.filter((w) => w.alive()).map((w) => w.pid));
     const controller = new AbortController();
     const slow = shotTasks(model, 6000).slice(0, 1);
     const running = onQueue("cancelled", controller.signal).runShots("shotGradientTask", slow, { batch: "stage-1/start", signal: controller.signal });
     running.catch(() => undefined);
-    await until(async () => (await listWorkers(await queue.redis())).some((r) => r.pid === second.pid && r.currentTasks.length > 0), "the worker to start the slow task");
+    await until(async () => (await listWorkers(await queue.redis())).some((r) => live.has(r.pid) && r.currentTasks.length > 0), "a worker to start the slow task");
     controller.abort();
     await expect(running).rejects.toThrow(/cancelled/);
     await until(async () => (await listRunShotTasks(queue, 7)).some((r) => r.step === "cancelled" && r.state === "failed"), "the worker to stop the task");
@@ -190,6 +197,7 @@ describe.skipIf(!haveRedis)("shot tasks on the job queue", () => {
       geometryFrom: "spread",
       spread: { sourceXM: [2, 9, 16], firstReceiverXM: 1, receiverSpacingM: 2, receiverCount: 9, sampleIntervalS: 0.0005, sampleCount: 200 },
     });
+    await ensureWorker();
     const here = makeStepContext({ pool });
     const there = makeStepContext({ pool });
     there.shots = onQueue("forward-model");
@@ -198,5 +206,40 @@ describe.skipIf(!haveRedis)("shot tasks on the job queue", () => {
     const hash = (g: GatherSet | undefined) => sha256Hex(encodeArtifact(g));
     expect((b.outputs.synthetic as GatherSet).gathers.length).toBe(3);
     expect(hash(b.outputs.synthetic as GatherSet)).toBe(hash(a.outputs.synthetic as GatherSet));
+  });
+
+  it("waveform-inversion through the queue ends with the local pool's model, bit for bit", { timeout: 180_000 }, async () => {
+    // Two iterations of one stage: stage start, line-search evaluations and final synthetics all go
+    // through the executor; the model depends on every per-shot misfit and gradient summed in shot order.
+    const gathers: GatherSet = {
+      kind: "gathers",
+      gathers: tasks.map((t, s) => ({
+        id: t.shotId,
+        sampleIntervalS: t.arg.output.intervalS,
+        sampleCount: t.arg.output.count,
+        startTimeS: 0,
+        traces: receiverX.map((rx, c) => ({
+          sourceFile: t.shotId, channel: c + 1, sourcePoint: s + 1, blow: 0, sourceX: sources[s], sourceZ: 0,
+          receiverX: rx, receiverZ: 0, offset: rx - sources[s], stackCount: 1, component: "y" as const, dead: false,
+        })),
+        data: t.arg.observed,
+      })),
+    };
+    const params = waveformInversionParams.parse({
+      mode: "sh", pmlCells: 8, waveletFrom: "ricker", rickerPeakHz: 30, fixedOutsideSpread: false, smoothingM: 0.5, sourceTaperM: 1, receiverTaperM: 0,
+      stages: [{ lowPassHz: 60, measure: "least-squares", iterations: 2, stopBelowRelativeChange: 0, reestimateWavelet: false }],
+    });
+    await ensureWorker();
+    const here = makeStepContext({ pool });
+    const there = makeStepContext({ pool });
+    there.shots = onQueue("waveform-inversion");
+    const a = await waveformInversionStep.run({ gathers, model }, params, here);
+    const b = await waveformInversionStep.run({ gathers, model }, params, there);
+    expect(bytes(b.outputs.model!.vs)).toEqual(bytes(a.outputs.model!.vs));
+    expect(b.outputs.report!.data).toEqual(a.outputs.report!.data);
+    // The model changed (the comparison is not between two copies of the start).
+    expect(bytes(a.outputs.model!.vs)).not.toEqual(bytes(model.vs));
+    const batches = new Set((await listRunShotTasks(queue, 7)).filter((r) => r.step === "waveform-inversion").map((r) => r.batch));
+    expect([...batches]).toEqual(expect.arrayContaining(["stage-1/start", "stage-1/iteration-1/evaluation-1", "stage-1/iteration-2/evaluation-1", "final"]));
   });
 });
