@@ -133,6 +133,9 @@ export async function openShotQueue(settings: QueueSettings): Promise<ShotQueue>
   const events = new QueueEvents(SHOT_QUEUE_NAME, { connection });
   // An unreachable Redis would otherwise retry for ever in the background.
   queue.on("error", () => undefined);
+  // Every job awaited adds a listener to the queue's "closing" event (BullMQ's waitUntilFinished): a batch has many.
+  queue.setMaxListeners(0);
+  events.setMaxListeners(0);
   events.on("error", () => undefined);
   const ready = Promise.all([queue.waitUntilReady(), events.waitUntilReady()]);
   const timeout = new Promise<never>((_, reject) =>
@@ -188,6 +191,8 @@ export interface QueueExecutorStats {
   workerComputeMs: number;
   workerFetchMs: number;
   workerWriteMs: number;
+  /** Coordinator time reading and decoding results, ms. */
+  readMs: number;
   /** Tasks whose result was already there (submitted before, e.g. by a coordinator that died). */
   reused: number;
 }
@@ -206,7 +211,7 @@ export function queueShotExecutor(
 ): QueueExecutor {
   const cancelKey = cancelKeyOf(scope.runId, scope.step);
   const stats: QueueExecutorStats = {
-    tasks: 0, inputBytesWritten: 0, resultBytesRead: 0, prepareMs: 0, roundTripMs: 0, workerComputeMs: 0, workerFetchMs: 0, workerWriteMs: 0, reused: 0,
+    tasks: 0, inputBytesWritten: 0, resultBytesRead: 0, prepareMs: 0, roundTripMs: 0, workerComputeMs: 0, workerFetchMs: 0, workerWriteMs: 0, readMs: 0, reused: 0,
   };
   const mine = new Set<string>();
   let cancelPublished: Promise<void> | null = null;
@@ -296,7 +301,9 @@ export function queueShotExecutor(
       } finally {
         scope.signal?.removeEventListener("abort", onAbort);
       }
+      const r0 = performance.now();
       const result = readResult(answer);
+      stats.readMs += performance.now() - r0;
       if (result === null) {
         // A finished job whose result was read before (by a coordinator that then died): run it again.
         await job.remove().catch(() => undefined);
