@@ -1,7 +1,7 @@
 /** @type {import('next').NextConfig} */
 const nextConfig = {
   // Native and worker-spawning packages stay outside the server bundle.
-  serverExternalPackages: ["better-sqlite3", "pino", "piscina", "tsx"],
+  serverExternalPackages: ["better-sqlite3", "pino", "piscina", "tsx", "bullmq"],
   poweredByHeader: false,
   reactStrictMode: true,
   // forbidden() renders app/forbidden.tsx for pages a role may not see.

@@ -12,6 +12,7 @@ export default async function ControlLayout({ children }: { children: React.Reac
     { href: "/runs", label: "Runs" },
     ...(can(user.role, "runs.start") ? [{ href: "/runs/new", label: "Start a run" }] : []),
     { href: "/compare", label: "Compare settings" },
+    { href: "/workers", label: "Workers" },
     ...(can(user.role, "audit.read") ? [{ href: "/audit", label: "Audit trail" }] : []),
     ...(can(user.role, "users.manage") ? [{ href: "/people", label: "People" }] : []),
   ];

@@ -5,6 +5,8 @@ import { pageUserWith } from "@/app/lib/page-user";
 import { can } from "@/app/lib/permissions";
 import { readParamDocs, readRun } from "@/app/lib/reads";
 import { RunLive } from "@/app/ui/run/run-live";
+import { readRunShotTasks } from "@/app/lib/queue-reads";
+import { ShotTaskTable } from "@/app/ui/queue/shot-task-table";
 
 export const dynamic = "force-dynamic";
 
@@ -19,12 +21,17 @@ export default async function RunPage({ params, searchParams }: { params: Promis
   const run = readRun(id.data);
   if (!run) notFound();
   const { step } = await searchParams;
+  // With a job queue, the run's shot tasks (by step, batch and shot) below the run.
+  const tasks = await readRunShotTasks(run.id);
   return (
-    <RunLive
-      initial={run}
-      initialStep={step}
-      paramDocs={readParamDocs(run.steps.map((s) => s.stepId))}
-      can={{ rerun: can(user.role, "runs.rerun"), cancel: can(user.role, "runs.cancel"), review: can(user.role, "runs.review"), auditExport: can(user.role, "audit.read") }}
-    />
+    <div className="space-y-6">
+      <RunLive
+        initial={run}
+        initialStep={step}
+        paramDocs={readParamDocs(run.steps.map((s) => s.stepId))}
+        can={{ rerun: can(user.role, "runs.rerun"), cancel: can(user.role, "runs.cancel"), review: can(user.role, "runs.review"), auditExport: can(user.role, "audit.read") }}
+      />
+      {tasks.state === "ok" && tasks.value.length > 0 && <ShotTaskTable rows={tasks.value} />}
+    </div>
   );
 }
