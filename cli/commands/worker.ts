@@ -48,6 +48,8 @@ export function registerWorker(program: Command): void {
         log("stopping: finishing the running tasks...");
         await worker.close();
         log(`stopped after ${worker.record.tasksDone} tasks`);
+        // A connection still trying to reach a Redis that went away would keep the process up.
+        process.exit(0);
       }),
     );
 }

@@ -165,11 +165,16 @@ export async function startShotWorker(options: ShotWorkerOptions): Promise<Runni
     cache,
     async close() {
       clearInterval(heartbeat);
-      await worker.close();
+      // Running tasks may finish for up to one lock duration; after that their locks have run out and
+      // another worker takes them anyway (and a Redis that went away would make the wait endless).
+      const pause = (ms: number) => new Promise<"late">((r) => setTimeout(() => r("late"), ms).unref());
+      if ((await Promise.race([worker.close().then(() => "closed" as const), pause(lockDuration)])) === "late") {
+        await Promise.race([worker.close(true), pause(2000)]);
+      }
       closed = true;
-      await redis.del(workerKey(id)).catch(() => undefined);
+      await Promise.race([redis.del(workerKey(id)).catch(() => undefined), pause(2000)]);
       await pool.close();
-      await side.close();
+      await Promise.race([side.close(), pause(2000)]);
     },
   };
 }
