@@ -27,6 +27,7 @@ import { sharedWorkerPool, type WorkerPool } from "./workers/pool";
 import type { RunEvents } from "./run-step";
 import { localShotExecutor } from "./workers/shot-executor";
 import { queueSettingsFromEnv, queueShotExecutor, sharedShotQueue } from "./workers/shot-queue";
+import { listWorkers, WORKER_SILENT_AFTER_MS } from "./workers/queue-worker";
 
 export type { RunEvents };
 
@@ -72,7 +73,11 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     // With TRACEWRIGHT_REDIS_URL, per-shot work goes to the job queue; else the local pool runs it.
     shots: async (stepLabel, signal) => {
       const queueSettings = queueSettingsFromEnv();
-      return queueSettings ? queueShotExecutor(await sharedShotQueue(queueSettings), { runId, step: stepLabel, signal }) : localShotExecutor(scope.pool);
+      if (!queueSettings) return localShotExecutor(scope.pool);
+      const queue = await sharedShotQueue(queueSettings);
+      const live = (await listWorkers(await queue.redis())).filter((w) => Date.now() - w.lastHeardAt < WORKER_SILENT_AFTER_MS);
+      if (live.length === 0) runLog.warn(`no queue worker is heard from at ${queueSettings.url}: shot tasks of ${stepLabel} wait until one starts (tracewright worker)`);
+      return queueShotExecutor(queue, { runId, step: stepLabel, signal });
     },
   };
   const slots = new SlotTable();
