@@ -72,7 +72,7 @@ export interface QueueSettings {
 }
 
 /** The queue settings from the environment: TRACEWRIGHT_REDIS_URL (absent: no queue, the local pool). */
-export function queueSettingsFromEnv(env: NodeJS.ProcessEnv = process.env): QueueSettings | null {
+export function queueSettingsFromEnv(env: Record<string, string | undefined> = process.env): QueueSettings | null {
   const url = env.TRACEWRIGHT_REDIS_URL?.trim();
   if (!url) return null;
   if (!/^rediss?:\/\//.test(url)) {
