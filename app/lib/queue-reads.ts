@@ -47,7 +47,8 @@ async function withQueue<T>(read: (q: ShotQueue) => Promise<T>): Promise<QueueRe
   const url = shownUrl(settings.url);
   let queue: ShotQueue | undefined;
   try {
-    queue = await openShotQueue(settings);
+    // A page must not hang on a queue that went away.
+    queue = await openShotQueue(settings, { answerWithinMs: 2000 });
     return { state: "ok", url, value: await read(queue) };
   } catch (err) {
     return { state: "unreachable", url, message: (err as Error).message };

@@ -126,8 +126,9 @@ export interface ShotQueue {
   close(): Promise<void>;
 }
 
-/** Opens the queue and waits until Redis answers (rejects with a clear error when it does not). */
-export async function openShotQueue(settings: QueueSettings): Promise<ShotQueue> {
+/** Opens the queue and waits until Redis answers (rejects with a clear error when it does not within `answerWithinMs`, default 10 s). */
+export async function openShotQueue(settings: QueueSettings, options: { answerWithinMs?: number } = {}): Promise<ShotQueue> {
+  const limitMs = options.answerWithinMs ?? 10_000;
   const connection = connectionFor(settings.url);
   const queue = new Queue<ShotJobData, ShotJobResult>(SHOT_QUEUE_NAME, { connection });
   const events = new QueueEvents(SHOT_QUEUE_NAME, { connection });
@@ -139,7 +140,10 @@ export async function openShotQueue(settings: QueueSettings): Promise<ShotQueue>
   events.on("error", () => undefined);
   const ready = Promise.all([queue.waitUntilReady(), events.waitUntilReady()]);
   const timeout = new Promise<never>((_, reject) =>
-    setTimeout(() => reject(new AppError("bad-input", `Redis at ${settings.url} did not answer within 10 s (TRACEWRIGHT_REDIS_URL)`, { field: "TRACEWRIGHT_REDIS_URL" })), 10_000).unref(),
+    setTimeout(
+      () => reject(new AppError("bad-input", `Redis at ${settings.url} did not answer within ${limitMs / 1000} s (TRACEWRIGHT_REDIS_URL)`, { field: "TRACEWRIGHT_REDIS_URL" })),
+      limitMs,
+    ).unref(),
   );
   try {
     await Promise.race([ready, timeout]);
