@@ -7,7 +7,6 @@
  * know which: results come back in the order the shots were given, never in arrival order, so
  * sums over shots are the same bit for bit wherever the shots ran.
  */
-import type { StepContext } from "../step";
 import type { ModelShotTaskArg } from "../kernels/fd/model-shots";
 import type { SimulationResult } from "../kernels/fd/simulation";
 import type { ShotGradientInput, ShotGradientOutput } from "../kernels/fwi/shot-gradient";
@@ -90,8 +89,8 @@ export function localShotExecutor(pool: () => WorkerPool): ShotExecutor {
   };
 }
 
-/** The executor a step uses: the one the runner gave it, else the local pool of its context. */
-export function shotExecutorOf(ctx: StepContext): ShotExecutor {
+/** The executor a step uses: the one the runner gave it, else the local pool of its context (a StepContext). */
+export function shotExecutorOf(ctx: { shots?: ShotExecutor; readonly pool: WorkerPool }): ShotExecutor {
   return ctx.shots ?? localShotExecutor(() => ctx.pool);
 }
 
