@@ -2,7 +2,7 @@
 const nextConfig = {
   // Native and worker-spawning packages stay outside the server bundle (pdfkit reads its font
   // metrics from its own folder at run time).
-  serverExternalPackages: ["better-sqlite3", "pino", "piscina", "tsx", "pdfkit"],
+  serverExternalPackages: ["better-sqlite3", "pino", "piscina", "tsx", "pdfkit", "bullmq"],
   poweredByHeader: false,
   reactStrictMode: true,
   // forbidden() renders app/forbidden.tsx for pages a role may not see.

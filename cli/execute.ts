@@ -4,6 +4,7 @@ import { getRun } from "../db/queries/runs";
 import { deliverNotices } from "../pipeline/notice-sender";
 import { executeRun } from "../pipeline/runner";
 import { closeSharedWorkerPool } from "../pipeline/workers/pool";
+import { closeSharedShotQueue } from "../pipeline/workers/shot-queue";
 import { terminalProgress } from "./progress";
 import { formatDuration, printJson } from "./shared";
 
@@ -62,5 +63,6 @@ export async function executeInTerminal(db: Db, runId: number, opts: { json?: bo
     // web server's sender picks up whatever this could not send.
     const mail = await deliverNotices(db);
     if (mail.failed > 0 && !opts.quiet) process.stderr.write(`${mail.failed} mail notice(s) could not be sent; they stay in the outbox\n`);
+    await closeSharedShotQueue();
   }
 }

@@ -18,6 +18,8 @@ import { registerSteps } from "./commands/steps";
 import { registerSurveys } from "./commands/surveys";
 import { registerUsers } from "./commands/users";
 import { registerWatch } from "./commands/watch";
+import { registerWorker } from "./commands/worker";
+import { registerWorkers } from "./commands/workers";
 import { closeDb } from "../db/client";
 
 const program = new Command()
@@ -46,6 +48,8 @@ registerUsers(program);
 registerMigrate(program);
 registerBench(program);
 registerAudit(program);
+registerWorker(program);
+registerWorkers(program);
 
 await program.parseAsync(process.argv);
 closeDb();

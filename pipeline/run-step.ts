@@ -26,6 +26,7 @@ import type { AnyStepDefinition, StepContext, StepResult } from "./step";
 import { createStepRecorder } from "./step-records";
 import type { SlotValues } from "./types";
 import type { WorkerPool } from "./workers/pool";
+import type { ShotExecutor } from "./workers/shot-executor";
 
 /** Everything a door may want to show while a run goes. */
 export interface RunEvents {
@@ -51,6 +52,8 @@ export interface RunScope {
   events: RunEvents;
   total: number;
   pool: () => WorkerPool;
+  /** Where a step's per-shot work runs (the local pool, or the job queue); absent: the local pool. */
+  shots?: (stepLabel: string, signal: AbortSignal) => Promise<ShotExecutor>;
 }
 
 /** Records the step as a cache hit and returns the reused outputs, or null when nothing can be reused. */
@@ -115,6 +118,7 @@ export async function computeStep(
   let result: StepResult;
   const outputs: Record<string, string> = {};
   try {
+    if (scope.shots) ctx.shots = await scope.shots(row.label, lease.signal);
     result = await step.run(input, params as never, ctx);
     checkStepOutputs(step, result.outputs);
     lease.ensureOwned();

@@ -25,6 +25,9 @@ import { computeStep, reuseCachedResult, type RunScope } from "./run-step";
 import { loadFieldFiles, SlotTable } from "./slots";
 import { sharedWorkerPool, type WorkerPool } from "./workers/pool";
 import type { RunEvents } from "./run-step";
+import { localShotExecutor } from "./workers/shot-executor";
+import { queueSettingsFromEnv, queueShotExecutor, sharedShotQueue } from "./workers/shot-queue";
+import { listWorkers, WORKER_SILENT_AFTER_MS } from "./workers/queue-worker";
 
 export type { RunEvents };
 
@@ -60,7 +63,23 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   const runLog = createRunLogger(db, runId, null, { echo: (level, message) => events.onLog?.({ label: null, level, message }) });
   events.onRunStart?.({ runId, steps: steps.map((s) => ({ label: s.label, stepId: s.stepId })) });
   let pool = opts.pool;
-  const scope: RunScope = { db, runId, lease, events, total: steps.length, pool: () => (pool ??= sharedWorkerPool()) };
+  const scope: RunScope = {
+    db,
+    runId,
+    lease,
+    events,
+    total: steps.length,
+    pool: () => (pool ??= sharedWorkerPool()),
+    // With TRACEWRIGHT_REDIS_URL, per-shot work goes to the job queue; else the local pool runs it.
+    shots: async (stepLabel, signal) => {
+      const queueSettings = queueSettingsFromEnv();
+      if (!queueSettings) return localShotExecutor(scope.pool);
+      const queue = await sharedShotQueue(queueSettings);
+      const live = (await listWorkers(await queue.redis())).filter((w) => Date.now() - w.lastHeardAt < WORKER_SILENT_AFTER_MS);
+      if (live.length === 0) runLog.warn(`no queue worker is heard from at ${queueSettings.url}: shot tasks of ${stepLabel} wait until one starts (tracewright worker)`);
+      return queueShotExecutor(queue, { runId, step: stepLabel, signal });
+    },
+  };
   const slots = new SlotTable();
   let outcome: RunOutcome = { runId, status: "succeeded" };
   try {

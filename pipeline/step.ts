@@ -10,6 +10,7 @@ import type { z } from "zod";
 import type { Logger } from "pino";
 import type { SlotName, SlotValues } from "./types";
 import type { WorkerPool } from "./workers/pool";
+import type { ShotExecutor } from "./workers/shot-executor";
 
 /** What the runner hands a step while it runs. */
 export interface StepContext {
@@ -21,6 +22,9 @@ export interface StepContext {
   progress: (fraction: number, message?: string) => void;
   /** The shared worker pool for heavy kernels. */
   pool: WorkerPool;
+  /** Where per-shot work runs (the local pool, or the Redis job queue when TRACEWRIGHT_REDIS_URL is set);
+   *  absent: the local pool. Steps reach it through shotExecutorOf(ctx). */
+  shots?: ShotExecutor;
   /** Records an intermediate result now: written as a content-addressed artifact at once and attached to
    *  this step (kind says what it is, e.g. "model", "gradient", "synthetic"; index orders records of one
    *  kind, e.g. the iteration), visible to `tracewright show` and the control room while the step runs.

@@ -33,6 +33,7 @@ import { admitFile, checkArrivedFile, completeUpload, openUpload, transfersDir, 
 import { latestFieldChecks } from "../db/queries/field-checks";
 import type { FieldCheckReport } from "../pipeline/steps/field-check";
 import type { JsonDocument } from "../pipeline/types";
+import { redisServerAvailable, spawnWorkerProcess, startLocalRedis } from "../pipeline/workers/local-queue";
 
 const args = new Set(process.argv.slice(2));
 const prepareOnly = args.has("--prepare-only");
@@ -311,6 +312,7 @@ async function main() {
   await reproduceAndVerifyAudit(accounts.find((a) => a.role === "auditor")?.email);
   await reportOnApprovedInversion(lead);
   await demoUploadFromTheField(fieldDir, processor);
+  await demoShotQueue(lead);
 
   say("\nDemo accounts (invented people; demo passwords):");
   for (const a of accounts) say(`  ${a.role.padEnd(10)} ${a.email.padEnd(34)} ${a.password.padEnd(26)} ${a.name}`);
@@ -387,6 +389,45 @@ async function demoUploadFromTheField(fieldDir: string, processorEmail: string |
     if (r.exitCode !== 0) throw new Error(`the run of the upload failed (exit ${r.exitCode})`);
   }
   say(`  the upload page: /uploads?survey=quillmoor&profile=QM-1 (processors and leads)`);
+}
+
+/**
+ * Shot work beyond one machine: when redis-server is installed, starts it and one `tracewright worker`
+ * process, reruns the modelling run from forward-model with TRACEWRIGHT_REDIS_URL set (the snapshot times
+ * changed, so the step computes again, its shots through the job queue), and compares the synthetic
+ * gathers with those the local pool made: the same artifact hash. Skipped when redis-server is missing.
+ */
+async function demoShotQueue(as: string | undefined) {
+  if (!redisServerAvailable()) {
+    say("\n  shot work on a job queue: skipped (no redis-server on this machine; Debian: apt-get install redis-server)");
+    return;
+  }
+  const db = getDb();
+  const last = listRuns(db, { pipelineName: "quillmoor-qm1-starting-model", status: "succeeded", pageSize: 1 }).rows[0];
+  const before = last ? getRun(db, last.id)?.steps.find((s) => s.stepId === "forward-model") : undefined;
+  closeDb();
+  if (!last || !before) return;
+  say(`\n  shot work on a job queue: a redis-server and one worker process on this machine; rerunning run ${last.id} from forward-model through the queue`);
+  const redis = await startLocalRedis();
+  const worker = spawnWorkerProcess({ url: redis.url, dataDir: dataDir(), concurrency: 2 });
+  try {
+    const r = await cli(
+      ["rerun", String(last.id), "--from", "forward-model", "--set", "forward-model.snapshotTimesS=[0.1]", ...(as ? ["--as", as] : [])],
+      { TRACEWRIGHT_REDIS_URL: redis.url },
+    );
+    if (r.exitCode !== 0) throw new Error(`the rerun through the job queue failed (exit ${r.exitCode})`);
+    const db2 = getDb();
+    const rerun = listRuns(db2, { pipelineName: "quillmoor-qm1-starting-model", pageSize: 1 }).rows[0];
+    const after = getRun(db2, rerun.id)?.steps.find((s) => s.stepId === "forward-model");
+    closeDb();
+    const a = String(before.outputs.synthetic ?? "");
+    const b = String(after?.outputs.synthetic ?? "");
+    say(`  synthetic gathers: local pool (run ${last.id}) ${a.slice(0, 12)}, job queue (run ${rerun.id}) ${b.slice(0, 12)}: ${a === b ? "identical, bit for bit" : "DIFFERENT"}`);
+    if (a !== b) throw new Error("the job queue gave other synthetics than the local pool");
+  } finally {
+    await worker.stop("SIGTERM");
+    await redis.stop();
+  }
 }
 
 main().catch((err) => {

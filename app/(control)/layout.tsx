@@ -16,6 +16,7 @@ export default async function ControlLayout({ children }: { children: React.Reac
     ...(can(user.role, "uploads.send") ? [{ href: "/uploads", label: "Upload field files" }] : []),
     { href: "/field-checks", label: "Field checks" },
     { href: "/compare", label: "Compare settings" },
+    { href: "/workers", label: "Workers" },
     ...(can(user.role, "audit.read") ? [{ href: "/audit", label: "Audit trail" }] : []),
     ...(can(user.role, "users.manage") ? [{ href: "/people", label: "People" }] : []),
     ...(can(user.role, "audit.read") ? [{ href: "/outbox", label: "Outbox" }] : []),

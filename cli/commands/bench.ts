@@ -3,7 +3,7 @@ import type { Command } from "commander";
 import { AppError } from "../../pipeline/errors";
 import { action, printJson } from "../shared";
 
-const PARTS = ["readers", "signal", "field-check", "solver", "inversion"] as const;
+const PARTS = ["readers", "signal", "field-check", "solver", "inversion", "queue"] as const;
 type Part = (typeof PARTS)[number];
 
 function parseGrid(text: string): { nx: number; nz: number } {
@@ -21,7 +21,7 @@ function parseGrid(text: string): { nx: number; nz: number } {
 export function registerBench(program: Command): void {
   program
     .command("bench")
-    .description("measure and print speed figures: field-file readers, signal steps, field check, finite-difference solver, waveform inversion")
+    .description("measure and print speed figures: field-file readers, signal steps, field check, finite-difference solver, waveform inversion, shot tasks on the job queue")
     .option("--only <part>", `measure one part: ${PARTS.join(", ")}`)
     .option("--grid <nx>x<nz>", "solver grid in cells", "1000x400")
     .option("--steps <n>", "solver time steps per shot", "300")
@@ -99,6 +99,12 @@ export function registerBench(program: Command): void {
           } finally {
             await pool.close();
           }
+        }
+        if (want("queue")) {
+          const { benchQueue, formatQueueBench } = await import("../../pipeline/bench/queue");
+          const r = await benchQueue((s) => process.stderr.write(`${s}\n`));
+          results.queue = r;
+          for (const line of formatQueueBench(r)) out(line);
         }
         if (opts.json) printJson(results);
       }),

@@ -2,6 +2,7 @@
 import type { Command } from "commander";
 import { watchFieldFolders } from "../../pipeline/watch";
 import { closeSharedWorkerPool, sharedWorkerPool } from "../../pipeline/workers/pool";
+import { closeSharedShotQueue } from "../../pipeline/workers/shot-queue";
 import { terminalProgress } from "../progress";
 import { action, openCliDb, resolveActor } from "../shared";
 import { AppError } from "../../pipeline/errors";
@@ -70,6 +71,7 @@ export function registerWatch(program: Command): void {
         await watcher.close();
         await Promise.allSettled(mails);
         await closeSharedWorkerPool();
+        await closeSharedShotQueue();
       }),
     );
 }

@@ -13,6 +13,7 @@ import { FdSetupError } from "../kernels/fd/errors";
 import { modelShots, type GatherTemplate } from "../kernels/fd/model-shots";
 import type { SourceKind, VelocityComponent } from "../kernels/fd/simulation";
 import type { SourceWavelet } from "../kernels/fd/wavelet";
+import { modelShotRunner, shotExecutorOf } from "../workers/shot-executor";
 
 export const forwardModelParams = z
   .object({
@@ -146,7 +147,8 @@ export const forwardModelStep = defineStep({
     };
     const wavelets = perShotWavelet ? Object.fromEntries(templates.map((t) => [t.id, waveletFor(p, t.id, input.wavelet)])) : undefined;
     const res = await modelShots(model, templates, { ...common, wavelet: waveletFor(p, templates[0].id, input.wavelet) }, {
-      pool: ctx.pool,
+      // No executor and no pool (a bare context): the shots run here in turn.
+      pool: ctx.shots || ctx.pool ? modelShotRunner(shotExecutorOf(ctx), "all-shots") : undefined,
       signal: ctx.signal,
       snapshotGatherId: p.snapshotGatherId,
       wavelets,

@@ -43,6 +43,7 @@ import {
 import { lbfgsIteration, startLbfgs, type LbfgsState } from "../kernels/optim/lbfgs";
 import { estimateWavelet } from "../kernels/wavelet-estimation";
 import { ricker, defaultRickerShiftS, waveletBand } from "../kernels/fd/wavelet";
+import { shotExecutorOf } from "../workers/shot-executor";
 
 const MEASURES = ["least-squares", "trace-normalised-least-squares", "normalised-correlation", "envelope"] as const;
 
@@ -364,7 +365,7 @@ export const waveformInversionStep = defineStep({
             );
             state.model = raiseVs(state.model, stageBounds.vsMin, bounds.minVpVsRatio);
           }
-          const atStart = await evaluate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag }, state.model, true);
+          const atStart = await evaluate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag }, state.model, true, `stage-${state.stage + 1}/start`);
           const taper = pointTaper(state.model, shots.map((s) => ({ x: s.positions.sourceX, z: s.positions.sourceZ })), p.sourceTaperM);
           const receivers = new Map<string, { x: number; z: number }>();
           for (const s of shots) s.positions.receiverX.forEach((x, i) => receivers.set(`${x},${s.positions.receiverZ[i]}`, { x, z: s.positions.receiverZ[i] }));
@@ -410,10 +411,12 @@ export const waveformInversionStep = defineStep({
           const t0 = Date.now();
           const solvesBefore = state.forwardSolves;
           const evaluations: Array<{ x: Float64Array; result: EvaluationResult }> = [];
+          // Names each line-search evaluation's batch of shot tasks (part of the task ids on the queue).
+          const batchOf = (k: number) => `stage-${state.stage + 1}/iteration-${state.iteration + 1}/evaluation-${k}`;
           const step = await lbfgsIteration(
             state.lbfgs!,
             async (x) => {
-              const result = await evaluate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag }, modelFromVector(param, x), true);
+              const result = await evaluate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag }, modelFromVector(param, x), true, batchOf(evaluations.length + 1));
               evaluations.push({ x: Float64Array.from(x), result });
               return { f: result.misfit, g: vectorGradient(param, x, result.gradient) };
             },
@@ -484,7 +487,7 @@ export const waveformInversionStep = defineStep({
     // Final synthetics in the last stage's band, for forward-model-like comparison.
     const lastStage = p.stages[p.stages.length - 1];
     const prepared = prepareStage(lastStage, shots, dt, ns);
-    const final = await evaluate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag }, state.model, false);
+    const final = await evaluate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag }, state.model, false, "final");
     const synthetic: GatherSet = {
       kind: "gathers",
       gathers: shots.map((s, k) => ({ ...s.gather, traces: s.gather.traces.map((t) => ({ ...t, component, dead: false })), data: final.synthetics[k] })),
@@ -565,7 +568,11 @@ interface Physics {
   cancelFlag: Int32Array;
 }
 
-/** Misfit (and gradient) of a model over every shot, on the pool; sums in shot order (deterministic). */
+/**
+ * Misfit (and gradient) of a model over every shot, on the shot executor (local pool or job queue);
+ * sums in shot order, whatever order the shots finish in (deterministic). `batch` names the batch of
+ * shot tasks within the step.
+ */
 async function evaluate(
   ctx: StepContext,
   state: InversionCheckpoint,
@@ -575,8 +582,10 @@ async function evaluate(
   physics: Physics,
   model: ElasticModel,
   wantGradient: boolean,
+  batch: string,
 ): Promise<EvaluationResult> {
-  const results: ShotGradientOutput[] = await Promise.all(
+  const results: ShotGradientOutput[] = await shotExecutorOf(ctx).runShots(
+    "shotGradientTask",
     shots.map((s, k) => {
       const task: ShotGradientInput = {
         model,
@@ -598,8 +607,9 @@ async function evaluate(
         wantGradient,
         cancelFlag: physics.cancelFlag,
       };
-      return ctx.pool.run("shotGradientTask", task, { signal: ctx.signal });
+      return { shotId: s.id, arg: task };
     }),
+    { batch, signal: ctx.signal },
   );
   throwIfAborted(ctx.signal);
   const n = model.nx * model.nz;
@@ -631,7 +641,7 @@ async function reestimate(
   physics: Physics,
 ): Promise<number> {
   const { intervalS: dt, count: ns } = physics.output;
-  const syn = await evaluate(ctx, state, prepared, shots, p, physics, state.model, false);
+  const syn = await evaluate(ctx, state, prepared, shots, p, physics, state.model, false, `stage-${state.stage + 1}/wavelet`);
   let fitSum = 0;
   shots.forEach((s, k) => {
     const est = estimateWavelet({

@@ -17,6 +17,7 @@ import type { Page } from "playwright-core";
 import { DEMO_ACCOUNTS } from "../../db/seed";
 import { writeSeg2 } from "../../pipeline/io/seg2";
 import { ensureBuild, pageLoadMs, prepareData, projectRoot, signIn, startBrowser, startMailCatcher, startServer } from "./harness";
+import { redisServerAvailable, spawnWorkerProcess, startLocalRedis, type LocalRedis } from "../../pipeline/workers/local-queue";
 
 const argv = process.argv.slice(2);
 const keep = argv.includes("--keep");
@@ -159,7 +160,13 @@ async function main() {
   }
   await ensureBuild();
   const mail = await startMailCatcher();
-  const server = await startServer(dataDir, { TRACEWRIGHT_SMTP_HOST: "127.0.0.1", TRACEWRIGHT_SMTP_PORT: String(mail.port) });
+  // A job queue for the Workers page when redis-server is installed (the server reads it).
+  const redis: LocalRedis | null = redisServerAvailable() ? await startLocalRedis() : null;
+  const server = await startServer(dataDir, {
+    TRACEWRIGHT_SMTP_HOST: "127.0.0.1",
+    TRACEWRIGHT_SMTP_PORT: String(mail.port),
+    ...(redis ? { TRACEWRIGHT_REDIS_URL: redis.url } : {}),
+  });
   const browser = await startBrowser();
   const page = browser.context.pages()[0] ?? (await browser.context.newPage());
   const origin = server.origin;
@@ -625,6 +632,29 @@ async function main() {
       await shoot(page, "field-check");
     });
 
+    await test("workers page lists a queue worker with its host, process and last heartbeat", async () => {
+      if (!redis) throw new Skip("no redis-server on this machine");
+      const worker = spawnWorkerProcess({ url: redis.url, dataDir });
+      try {
+        await signIn(page, origin, account("auditor").email, account("auditor").password);
+        check(await page.locator("nav >> text=Workers").count(), "the Workers page is not in the navigation");
+        const deadline = Date.now() + 60_000;
+        for (;;) {
+          await goto(page, `${origin}/workers`);
+          const text = (await page.locator("[data-testid=workers]").textContent().catch(() => "")) ?? "";
+          if (text.includes(String(worker.pid))) break;
+          check(Date.now() < deadline, `the worker (process ${worker.pid}) did not appear on the Workers page: ${text.slice(0, 200)}`);
+          await page.waitForTimeout(500);
+        }
+        const row = page.locator("[data-testid=workers] tr", { hasText: String(worker.pid) });
+        check(((await row.textContent()) ?? "").includes(os.hostname()), "the worker's host is not shown");
+        check(/\d+ s ago/.test((await row.textContent()) ?? ""), "the worker's last heartbeat is not shown");
+        await shoot(page, "workers");
+      } finally {
+        await worker.stop("SIGTERM");
+      }
+    });
+
     await test("auditor: no rerun button, and the rerun API answers 403 with a message", async () => {
       await signIn(page, origin, account("auditor").email, account("auditor").password);
       check((await page.locator("nav >> text=Start a run").count()) === 0, "auditor must not see Start a run");
@@ -974,6 +1004,7 @@ async function main() {
   } finally {
     await browser.close();
     await server.stop();
+    await redis?.stop();
     await mail.close();
     if (!reuse && !keep) fs.rmSync(dataDir, { recursive: true, force: true });
   }

@@ -26,7 +26,7 @@ export interface ModelShotTaskArg {
  * with one shot's argument. The step hands its pool in; kernels do not import the pool.
  */
 export interface ShotRunner {
-  run(task: "modelShotTask", arg: ModelShotTaskArg, options?: { signal?: AbortSignal }): Promise<SimulationResult>;
+  run(task: "modelShotTask", arg: ModelShotTaskArg, options?: { signal?: AbortSignal; shotId?: string }): Promise<SimulationResult>;
 }
 
 /** Progress and cancellation for {@link modelShots}. */
@@ -111,7 +111,7 @@ export async function modelShots(
       // With the shared cancel flag a running shot stops itself within 64 steps and its worker stays
       // up; the signal goes to the pool only where there is no flag (it ends the worker thread).
       const res = control.pool
-        ? await control.pool.run("modelShotTask", { model, shot, options: opts }, cancel ? undefined : { signal: control.signal }).catch((err: unknown) => {
+        ? await control.pool.run("modelShotTask", { model, shot, options: opts }, { shotId: t.id, signal: cancel ? undefined : control.signal }).catch((err: unknown) => {
             aborted();
             throw err;
           })

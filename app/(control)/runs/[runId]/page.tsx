@@ -6,6 +6,8 @@ import { pageUserWith } from "@/app/lib/page-user";
 import { can } from "@/app/lib/permissions";
 import { readParamDocs, readRun } from "@/app/lib/reads";
 import { RunLive } from "@/app/ui/run/run-live";
+import { readRunShotTasks } from "@/app/lib/queue-reads";
+import { ShotTaskTable } from "@/app/ui/queue/shot-task-table";
 
 export const dynamic = "force-dynamic";
 
@@ -20,8 +22,10 @@ export default async function RunPage({ params, searchParams }: { params: Promis
   const run = readRun(id.data);
   if (!run) notFound();
   const { step } = await searchParams;
+  // With a job queue, the run's shot tasks (by step, batch and shot) below the run.
+  const tasks = await readRunShotTasks(run.id);
   return (
-    <>
+    <div className="space-y-6">
       <RunLive
         initial={run}
         initialStep={step}
@@ -35,6 +39,7 @@ export default async function RunPage({ params, searchParams }: { params: Promis
           </Link>
         </p>
       ) : null}
-    </>
+      {tasks.state === "ok" && tasks.value.length > 0 && <ShotTaskTable rows={tasks.value} />}
+    </div>
   );
 }
