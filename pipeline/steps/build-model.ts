@@ -271,7 +271,10 @@ export const buildModelStep = defineStep({
     return {
       outputs: { model },
       summary: {
-        nx: model.nx, nz: model.nz, spacingM: model.spacingM, originX: model.originX, originZ: model.originZ,
+        // The origin is the model's own: with fromSpread or a CSV grid, the grid settings' originXM
+        // (and originZM for a CSV grid) are not used, and the summary says where the grid came from.
+        gridFrom: p.csvGrid ? "csv grid" : p.grid.fromSpread ? `spread of the gathers ± ${p.grid.spreadMarginM} m` : "grid settings",
+        nx: model.nx, nz: model.nz, spacingM: model.spacingM, originXM: model.originX, originZM: model.originZ,
         vpMax, vsMin, vsMax, shapes: shapes.length,
         ...(p.from ? { from: p.from } : {}),
         ...(p.tomogramAbove ? { tomogramCells } : {}),
