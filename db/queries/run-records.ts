@@ -131,11 +131,27 @@ export function markRunInterrupted(db: Db, runId: number): void {
   });
 }
 
+/** The step that stopped the run, recorded in the same transaction as the run's end. */
+export interface StoppedStep {
+  runStepId: number;
+  status: "failed" | "cancelled";
+  error: string;
+  durationMs: number;
+}
+
 /**
  * Ends a run this process owns: its status and error, and steps still waiting marked cancelled
- * (cancelled run) or skipped (failed run). False when the run was no longer ours.
+ * (cancelled run) or skipped (failed run). With `stoppedStep`, that step's end is written in the
+ * same transaction, so no reader sees the step stopped while the run still runs. False when the
+ * run was no longer ours (then nothing is written).
  */
-export function finishOwnedRun(db: Db, runId: number, pid: number, outcome: { status: "succeeded" | "failed" | "cancelled"; error?: string }): boolean {
+export function finishOwnedRun(
+  db: Db,
+  runId: number,
+  pid: number,
+  outcome: { status: "succeeded" | "failed" | "cancelled"; error?: string },
+  stoppedStep?: StoppedStep,
+): boolean {
   return writeTransaction(db, (tx) => {
     const done = tx
       .update(runs)
@@ -143,6 +159,12 @@ export function finishOwnedRun(db: Db, runId: number, pid: number, outcome: { st
       .where(ownedBy(runId, pid))
       .run();
     if (done.changes === 0) return false;
+    if (stoppedStep) {
+      tx.update(runSteps)
+        .set({ status: stoppedStep.status, error: stoppedStep.error, finishedAt: new Date(), durationMs: stoppedStep.durationMs })
+        .where(and(eq(runSteps.id, stoppedStep.runStepId), eq(runSteps.runId, runId)))
+        .run();
+    }
     if (outcome.status !== "succeeded") {
       tx.update(runSteps)
         .set({ status: outcome.status === "cancelled" ? "cancelled" : "skipped" })
