@@ -15,6 +15,7 @@ import {
   markRunInterrupted,
   writeHeartbeat,
   type RunRecord,
+  type StoppedStep,
 } from "../db/queries/run-records";
 import { runsWithStatus } from "../db/queries/runs";
 import { AppError } from "./errors";
@@ -33,11 +34,21 @@ export interface RunLease {
   ensureOwned(): void;
   /** True once the lease was found lost. */
   readonly lost: boolean;
-  /** Records the end of the run if still ours; false when it was taken over. Stops polling. */
-  finish(outcome: { status: "succeeded" | "failed" | "cancelled"; error?: string }): boolean;
+  /**
+   * Records the end of the run if still ours (with the step that stopped it, in one transaction);
+   * false when it was taken over. Stops polling. Only the first call writes: later calls return
+   * its answer, so a step that stopped the run can end it at once and the runner's own call after
+   * it changes nothing.
+   */
+  finish(outcome: { status: "succeeded" | "failed" | "cancelled"; error?: string }, stoppedStep?: StoppedStep): boolean;
+  /** True once finish() recorded the run's end. */
+  readonly finished: boolean;
   /** Stops polling (idempotent). */
   release(): void;
 }
+
+/** The error recorded on a cancelled run. */
+export const RUN_CANCELLED_MESSAGE = "The run was cancelled.";
 
 export function abortError(): Error {
   return Object.assign(new Error("cancelled"), { name: "AbortError" });
@@ -76,6 +87,7 @@ export function claimRun(db: Db, run: RunRecord, opts: { signal?: AbortSignal; c
     }
   }, opts.cancelPollMs ?? 300);
   let released = false;
+  let finishedAnswer: boolean | null = null;
   const release = () => {
     if (released) return;
     released = true;
@@ -92,10 +104,14 @@ export function claimRun(db: Db, run: RunRecord, opts: { signal?: AbortSignal; c
     get lost() {
       return lost;
     },
-    finish(outcome) {
+    get finished() {
+      return finishedAnswer === true;
+    },
+    finish(outcome, stoppedStep) {
       release();
-      if (lost || !stillOwned()) return false;
-      return finishOwnedRun(db, run.id, pid, outcome);
+      if (finishedAnswer !== null) return finishedAnswer;
+      finishedAnswer = lost || !stillOwned() ? false : finishOwnedRun(db, run.id, pid, outcome, stoppedStep);
+      return finishedAnswer;
     },
     release,
   };

@@ -21,7 +21,7 @@ import { findReusableResult } from "./cache";
 import { AppError, toAppError } from "./errors";
 import { createRunLogger } from "./logger";
 import { checkStepOutputs } from "./output-checks";
-import { abortError, type RunLease } from "./run-lease";
+import { abortError, RUN_CANCELLED_MESSAGE, type RunLease } from "./run-lease";
 import type { AnyStepDefinition, StepContext, StepResult } from "./step";
 import { createStepRecorder } from "./step-records";
 import type { SlotValues } from "./types";
@@ -135,7 +135,11 @@ export async function computeStep(
     if (status === "failed") log.error({ code: e.code }, e.message);
     if (!lease.lost) {
       recorder.flush();
-      recordStepStopped(db, row.id, status, message, Date.now() - started);
+      // A cancelled step ends the run with it, in one transaction: the run's record says
+      // "cancelled" the moment the step's does (the runner's later finish changes nothing).
+      if (status === "cancelled") {
+        lease.finish({ status: "cancelled", error: RUN_CANCELLED_MESSAGE }, { runStepId: row.id, status, error: message, durationMs: Date.now() - started });
+      } else recordStepStopped(db, row.id, status, message, Date.now() - started);
     }
     events.onStepEnd?.({ position: row.position, label: row.label, status, cacheHit: false, durationMs: Date.now() - started, error: message });
     throw status === "cancelled" ? e : new AppError(e.code === "internal" ? "step-failed" : e.code, message, e.details, { cause: err });

@@ -20,7 +20,7 @@ import { createRunLogger } from "./logger";
 import type { ResolvedPipeline } from "./pipeline-file";
 import { getStep } from "./registry";
 import { snapshotGeometryTable } from "./run-create";
-import { abortError, claimRun } from "./run-lease";
+import { abortError, claimRun, RUN_CANCELLED_MESSAGE } from "./run-lease";
 import { computeStep, reuseCachedResult, type RunScope } from "./run-step";
 import { loadFieldFiles, SlotTable } from "./slots";
 import { sharedWorkerPool, type WorkerPool } from "./workers/pool";
@@ -109,7 +109,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       }
     }
   } catch (err) {
-    const e = lease.signal.aborted ? new AppError("cancelled", "The run was cancelled.") : toAppError(err);
+    const e = lease.signal.aborted ? new AppError("cancelled", RUN_CANCELLED_MESSAGE) : toAppError(err);
     outcome = { runId, status: e.code === "cancelled" ? "cancelled" : "failed", error: e.message };
     if (e.code === "internal") runLog.error({ stack: (err as Error)?.stack }, e.message);
     else runLog.warn(e.message);

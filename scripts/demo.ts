@@ -253,6 +253,12 @@ async function demoFieldCheck(fieldDir: string, processor: string | undefined): 
   say(`  (the page: /field-checks/${check.runId}; the watcher mails the field lead: tracewright watch <folder> --pipeline examples/quillmoor/qm1-field-check.yaml --mail-field-lead <email>)`);
 }
 
+/** The demo alone knows the true onsets: how far the first-arrival picks are from them, and how many are flagged. */
+async function assessFirstArrivalPicks(): Promise<void> {
+  const r = await execa(process.execPath, ["--import", "tsx", path.join(example, "assess-picks.ts")], { cwd: projectRoot, stdio: "inherit", reject: false });
+  if (r.exitCode !== 0) say("  (no first-arrival picks to compare with the true onsets)");
+}
+
 async function main() {
   say(`Tracewright demo: data in ${dataDir()}`);
   const db = getDb();
@@ -291,6 +297,8 @@ async function main() {
   // The demo alone knows the true ground: say how close the inverted model comes to it.
   const assessed = await execa(process.execPath, ["--import", "tsx", path.join(example, "assess-inversion.ts")], { cwd: projectRoot, stdio: "inherit", reject: false });
   if (assessed.exitCode !== 0) say("  (no inverted model to compare with the true ground)");
+
+  await assessFirstArrivalPicks();
 
   // The team's everyday move: change one filter corner and rerun; upstream steps come from the cache.
   const db2 = getDb();

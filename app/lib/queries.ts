@@ -6,8 +6,19 @@ import { queryOptions } from "@tanstack/react-query";
 import { decodeWire } from "./trace-wire";
 import type { ArtifactOutline, LogLine, RunListPage, RunView, TraceHeaderWire } from "./view-types";
 
+const live = (status: string | undefined) => status === "queued" || status === "running";
+
 /** Poll interval while a run is queued or running, ms. */
 export const LIVE_POLL_MS = 1_000;
+
+/** Poll interval while a stop is pending (asked, the run not yet ended), ms: the stop shows within a poll. */
+export const STOPPING_POLL_MS = 300;
+
+/** How often the run page asks for a run: quicker while a stop is pending, not at all once it ended. */
+export function runPollInterval(run: { status: string; cancelRequested?: boolean } | undefined): number | false {
+  if (!run || !live(run.status)) return false;
+  return run.cancelRequested ? STOPPING_POLL_MS : LIVE_POLL_MS;
+}
 
 /** An API failure with the server's message. */
 export class ApiError extends Error {
@@ -47,7 +58,6 @@ async function getBinary<H>(url: string): Promise<{ header: H; payload: Float32A
   return decodeWire<H>(await res.arrayBuffer());
 }
 
-const live = (status: string | undefined) => status === "queued" || status === "running";
 
 export const runQueries = {
   list: (query: string, initial?: RunListPage) =>
@@ -62,7 +72,7 @@ export const runQueries = {
       queryKey: ["run", runId],
       queryFn: () => getJson<RunView>(`/api/runs/${runId}`),
       initialData: initial,
-      refetchInterval: (q) => (live(q.state.data?.status) || q.state.data?.reproductions?.some((r) => r.verdict === "running") ? LIVE_POLL_MS : false),
+      refetchInterval: (q) => runPollInterval(q.state.data) || (q.state.data?.reproductions?.some((r) => r.verdict === "running") ? LIVE_POLL_MS : false),
     }),
   logs: (runId: number, runStepId: number | undefined, isLive: boolean) =>
     queryOptions({

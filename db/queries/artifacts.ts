@@ -18,3 +18,13 @@ export function registerArtifact(
 export function isArtifactRecorded(db: Db, hash: string): boolean {
   return Boolean(db.select({ hash: artifacts.hash }).from(artifacts).where(eq(artifacts.hash, hash)).get());
 }
+
+/** Every recorded artifact's hash and path (relative to the data folder). */
+export function listRecordedArtifacts(db: Db): Array<{ hash: string; path: string }> {
+  return db.select({ hash: artifacts.hash, path: artifacts.path }).from(artifacts).all();
+}
+
+/** SQLite's own consistency check of the database file: ["ok"] when sound, else the problems found. */
+export function databaseIntegrity(db: Db): string[] {
+  return (db.$client.pragma("integrity_check") as Array<{ integrity_check: string }>).map((r) => r.integrity_check);
+}

@@ -134,12 +134,28 @@ export function markRunInterrupted(db: Db, runId: number): void {
   });
 }
 
+/** The step that stopped the run, recorded in the same transaction as the run's end. */
+export interface StoppedStep {
+  runStepId: number;
+  status: "failed" | "cancelled";
+  error: string;
+  durationMs: number;
+}
+
 /**
  * Ends a run this process owns: its status and error, and steps still waiting marked cancelled
  * (cancelled run) or skipped (failed run), and the mail notices of its end (a failed run to whoever
- * started it, a succeeded one to the survey's leads for review). False when the run was no longer ours.
+ * started it, a succeeded one to the survey's leads for review). With `stoppedStep`, that step's end
+ * is written in the same transaction, so no reader sees the step stopped while the run still runs.
+ * False when the run was no longer ours (then nothing is written).
  */
-export function finishOwnedRun(db: Db, runId: number, pid: number, outcome: { status: "succeeded" | "failed" | "cancelled"; error?: string }): boolean {
+export function finishOwnedRun(
+  db: Db,
+  runId: number,
+  pid: number,
+  outcome: { status: "succeeded" | "failed" | "cancelled"; error?: string },
+  stoppedStep?: StoppedStep,
+): boolean {
   return writeTransaction(db, (tx) => {
     const done = tx
       .update(runs)
@@ -147,6 +163,12 @@ export function finishOwnedRun(db: Db, runId: number, pid: number, outcome: { st
       .where(ownedBy(runId, pid))
       .run();
     if (done.changes === 0) return false;
+    if (stoppedStep) {
+      tx.update(runSteps)
+        .set({ status: stoppedStep.status, error: stoppedStep.error, finishedAt: new Date(), durationMs: stoppedStep.durationMs })
+        .where(and(eq(runSteps.id, stoppedStep.runStepId), eq(runSteps.runId, runId)))
+        .run();
+    }
     queueRunEndNotices(tx, runId);
     if (outcome.status !== "succeeded") {
       tx.update(runSteps)

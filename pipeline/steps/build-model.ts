@@ -7,6 +7,7 @@
  * Cells are checked before the model is written: Vs > 0, Vp/Vs > √2, density > 0.
  */
 import { z } from "zod";
+import { checkModelFootprint } from "../model-limits";
 import { defineStep, StepInputError } from "../step";
 import type { ElasticModel, GatherSet, VelocityProfileSet } from "../types";
 import { checkModelCells } from "../kernels/fd/checks";
@@ -228,6 +229,11 @@ export const buildModelStep = defineStep({
       grid = { originX: model.originX, originZ: model.originZ, spacingM: model.spacingM, nx: model.nx, nz: model.nz };
     } else {
       grid = resolveGrid(p, input.gathers);
+      checkModelFootprint(
+        { what: "the model grid", nx: grid.nx, nz: grid.nz, bytesPerWorker: grid.nx * grid.nz * 3 * 4, workers: 1, makeup: "Vp, Vs and density × cells × 4 bytes" },
+        "grid.spacingM",
+        `Use a coarser grid.spacingM (now ${p.grid.spacingM} m), a smaller grid.depthM or a narrower grid.`,
+      );
       model = buildModel(grid, p.layers, []);
       if (p.from === "velocity-profiles" || p.from === "velocity-profiles-over-layers") {
         model = modelFromProfiles(input.velocityProfiles, grid, p.from === "velocity-profiles-over-layers" ? model : undefined);
@@ -271,7 +277,10 @@ export const buildModelStep = defineStep({
     return {
       outputs: { model },
       summary: {
-        nx: model.nx, nz: model.nz, spacingM: model.spacingM, originX: model.originX, originZ: model.originZ,
+        // The origin is the model's own: with fromSpread or a CSV grid, the grid settings' originXM
+        // (and originZM for a CSV grid) are not used, and the summary says where the grid came from.
+        gridFrom: p.csvGrid ? "csv grid" : p.grid.fromSpread ? `spread of the gathers ± ${p.grid.spreadMarginM} m` : "grid settings",
+        nx: model.nx, nz: model.nz, spacingM: model.spacingM, originXM: model.originX, originZM: model.originZ,
         vpMax, vsMin, vsMax, shapes: shapes.length,
         ...(p.from ? { from: p.from } : {}),
         ...(p.tomogramAbove ? { tomogramCells } : {}),

@@ -17,6 +17,11 @@ export const firstArrivalsParams = z
       .enum(["energy-ratio", "information-criterion"])
       .default("information-criterion")
       .describe('"energy-ratio": STA/LTA (Allen 1978), pick at the ratio maximum after the first trigger; "information-criterion": AIC (Maeda 1985) around the energy-ratio pick (or over the whole search window when aicWindowMs is 0)'),
+    /** @default "onset" */
+    pickAt: z
+      .enum(["onset", "ratio-peak"])
+      .default("onset")
+      .describe('Where an energy-ratio pick sits: "onset", where the energy first rises above the noise before the ratio maximum (for causal pulses such as a hammer blow), or "ratio-peak", at the ratio maximum'),
     /** @default 5 */
     shortWindowMs: z.number().positive().default(5).describe("Short (signal) window of the energy ratio, ms: about one period of the first arrival"),
     /** @default 50 */
@@ -45,6 +50,13 @@ export const firstArrivalsParams = z
       .describe("Slowest velocity a first arrival can have, m/s: no pick after searchSlowestInterceptMs + |offset| / this, which keeps slower surface waves out of the search (null: no such bound)"),
     /** @default 30 */
     searchSlowestInterceptMs: z.number().min(0).default(30).describe("Intercept time of the slowest-velocity bound, ms (room for the wavelet's rise)"),
+    /** @default null */
+    maxOffsetM: z
+      .number()
+      .positive()
+      .nullable()
+      .default(null)
+      .describe("Largest |offset| picked, m: farther traces get no pick, e.g. where the first arrival sinks below the noise (null: every offset)"),
     /** @default 0.1 */
     minQuality: z.number().min(0).max(1).default(0.1).describe("Picks of lower quality (0 … 1: log10 of the energy ratio across the pick over 2) are dropped"),
     /** @default 3 */
@@ -68,7 +80,7 @@ export type FirstArrivalsParams = z.output<typeof firstArrivalsParams>;
 
 export const firstArrivalsStep = defineStep({
   id: "first-arrivals",
-  version: 2,
+  version: 3,
   title: "First-arrival picking (STA/LTA, AIC)",
   description:
     "Picks first arrivals per trace by an energy ratio (STA/LTA on Allen's 1978 characteristic function) or by an information criterion " +
@@ -95,7 +107,7 @@ export const firstArrivalsStep = defineStep({
         throw new StepInputError(`shortWindowMs ${params.shortWindowMs} ms is longer than the traces of gather "${g.id}" (${g.sampleCount} samples of ${dt * 1000} ms)`, "shortWindowMs");
       }
       const w: PickSearchWindow = { searchStart, searchEnd, shortSamples, longSamples };
-      if (params.searchFastestMps !== null || params.searchSlowestMps !== null) {
+      if (params.searchFastestMps !== null || params.searchSlowestMps !== null || params.maxOffsetM !== null) {
         // Velocity-bounded search (common practice): between the lines of the fastest and the
         // slowest plausible first-arrival velocity through the source.
         const n = g.traces.length;
@@ -107,6 +119,8 @@ export const firstArrivalsStep = defineStep({
           if (params.searchSlowestMps !== null) {
             end[t] = Math.min(searchEnd, toIndex(params.searchSlowestInterceptMs + (1000 * x) / params.searchSlowestMps) + 1);
           }
+          // An empty search window: no pick beyond the offset range.
+          if (params.maxOffsetM !== null && x > params.maxOffsetM) end[t] = start[t];
         });
         w.perTrace = { start, end };
       }
@@ -128,9 +142,9 @@ export const firstArrivalsStep = defineStep({
           : window;
       const local = (block: Float32Array, tc: number, firstTrace: number) => {
         const window = blockWindow(firstTrace, tc);
-        if (params.method === "energy-ratio") return staLtaPicks(block, tc, g.sampleCount, window, params.triggerRatio);
+        if (params.method === "energy-ratio") return staLtaPicks(block, tc, g.sampleCount, window, params.triggerRatio, params.pickAt);
         if (aicHalfWidth > 0) {
-          const first = staLtaPicks(block, tc, g.sampleCount, window, params.triggerRatio);
+          const first = staLtaPicks(block, tc, g.sampleCount, window, params.triggerRatio, params.pickAt);
           return aicPicks(block, tc, g.sampleCount, window, { centres: first.index, halfWidth: aicHalfWidth });
         }
         return aicPicks(block, tc, g.sampleCount, window);
@@ -140,7 +154,7 @@ export const firstArrivalsStep = defineStep({
         remote: (pool, block, tc, firstTrace) =>
           pool.run(
             "pickTraceBlock",
-            { data: block, traceCount: tc, sampleCount: g.sampleCount, method: params.method, window: blockWindow(firstTrace, tc), triggerRatio: params.triggerRatio, aicHalfWidth },
+            { data: block, traceCount: tc, sampleCount: g.sampleCount, method: params.method, window: blockWindow(firstTrace, tc), triggerRatio: params.triggerRatio, pickAt: params.pickAt, aicHalfWidth },
             { transfer: [block.buffer as ArrayBuffer], signal: ctx.signal },
           ),
       });

@@ -7,6 +7,7 @@
  * worker pool; optional wavefield snapshots of one shot.
  */
 import { z } from "zod";
+import { checkModelFootprint, MODEL_TOO_LARGE_REMEDY, solverFootprint } from "../model-limits";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { Gather, GatherSet, TraceHeader } from "../types";
 import { FdSetupError } from "../kernels/fd/errors";
@@ -139,6 +140,17 @@ export const forwardModelStep = defineStep({
       templates = spreadTemplates(p.spread, component);
     }
     throwIfAborted(ctx.signal);
+    // Refuse a model too large to simulate before any allocation: one solver buffer per worker,
+    // plus the snapshot frames of one shot (model cells × 4 bytes each).
+    const footprint = solverFootprint(model, {
+      mode: p.mode,
+      pmlCells: p.pmlCells,
+      freeSurface: p.freeSurface,
+      workers: Math.min(templates.length, ctx.pool?.size ?? 1),
+      extraBytes: p.snapshotTimesS.length * model.nx * model.nz * 4,
+      extraLabel: `${p.snapshotTimesS.length} snapshots`,
+    });
+    if (footprint) checkModelFootprint(footprint, "model", MODEL_TOO_LARGE_REMEDY);
     // One wavelet for all shots unless the slot has one per gather.
     const perShotWavelet = p.waveletFrom === "wavelet-slot" && (input.wavelet?.gathers.length ?? 0) > 1;
     const common = {

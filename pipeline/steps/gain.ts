@@ -100,7 +100,14 @@ export const gainStep = defineStep({
     ctx.log.info({ kind: params.kind, traces }, `applied ${params.kind} gain to ${traces} traces in ${out.length} gathers`);
     return {
       outputs: { gathers: { kind: "gathers", gathers: out }, report: { kind: "json", role: "gain", data: record } },
-      summary: { kind: params.kind, agcWindowMs: record.agcWindowMs, timePower: record.timePower, gathers: out.length, traces },
+      // Only the setting the kind uses: the AGC window for agc, the power for time-power.
+      summary: {
+        kind: params.kind,
+        ...(params.kind === "agc" ? { agcWindowMs: params.agcWindowMs } : {}),
+        ...(params.kind === "time-power" ? { timePower: params.timePower } : {}),
+        gathers: out.length,
+        traces,
+      },
     };
   },
 });

@@ -7,6 +7,7 @@
  * shot gather (same id), or one trace with id "shared".
  */
 import { z } from "zod";
+import { checkModelFootprint, MODEL_TOO_LARGE_REMEDY, solverFootprint } from "../model-limits";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
 import type { Gather, GatherSet } from "../types";
 import { modelShots, type GatherTemplate } from "../kernels/fd/model-shots";
@@ -69,6 +70,9 @@ export const sourceWaveletStep = defineStep({
     for (let k = 0; k < ns; k++) trial[k] = ricker(k * dt, p.trialPeakHz, shift);
     const templates: GatherTemplate[] = gathers.map((g) => ({ id: g.id, sampleIntervalS: dt, sampleCount: ns, startTimeS: g.startTimeS, traces: g.traces }));
     throwIfAborted(ctx.signal);
+    // Refuse a model too large to simulate before any allocation (one solver buffer per worker).
+    const footprint = solverFootprint(input.model!, { mode: p.mode, pmlCells: p.pmlCells, freeSurface: p.freeSurface, workers: Math.min(templates.length, ctx.pool?.size ?? 1) });
+    if (footprint) checkModelFootprint(footprint, "model", MODEL_TOO_LARGE_REMEDY);
     const syn = await modelShots(
       input.model!,
       templates,

@@ -415,18 +415,36 @@ export const verticalStackStep = defineStep({
     const report: JsonDocument = { kind: "json", role: "stack", data };
     return {
       outputs: { gathers: { kind: "gathers", gathers: out }, report },
-      summary: {
-        sourcePoints: out.length,
-        blows: gathers.length,
-        method: params.method,
-        downWeightedBlows,
-        positionWarnings: reports.filter((r) => r.positionWarning).length,
-        medianSnrGain: gains.length ? median(gains) : null,
-      },
+      summary: stackSummary(params, out.length, gathers.length, reports, gains),
       series: [gainSeries],
     };
   },
 });
+
+/**
+ * The step's summary, saying only what applies to its settings: down-weighted blows only for the
+ * weighted stack (mean and median weigh every blow alike), position warnings only when blows are
+ * grouped by source point number (grouping by position puts blows together because they lie
+ * together) or when some were raised all the same.
+ */
+export function stackSummary(
+  params: Pick<VerticalStackParams, "method" | "groupBy">,
+  sourcePoints: number,
+  blows: number,
+  reports: Array<Pick<StackSourcePointReport, "positionWarning" | "downWeighted">>,
+  gains: number[],
+): Record<string, unknown> {
+  const positionWarnings = reports.filter((r) => r.positionWarning).length;
+  return {
+    sourcePoints,
+    blows,
+    method: params.method,
+    groupBy: params.groupBy,
+    ...(params.method === "weighted" ? { downWeightedBlows: reports.reduce((n, r) => n + r.downWeighted.length, 0) } : {}),
+    ...(params.groupBy === "source-point" || positionWarnings > 0 ? { positionWarnings } : {}),
+    medianSnrGain: gains.length ? median(gains) : null,
+  };
+}
 
 /** Noise-reduction estimate of one stack (see the module doc for the two estimators). */
 function estimateNoise(

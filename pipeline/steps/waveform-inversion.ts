@@ -22,6 +22,7 @@
  * intermediate results, and each stage's synthetics and residuals at its end.
  */
 import { z } from "zod";
+import { checkModelFootprint, MODEL_TOO_LARGE_REMEDY, solverFootprint } from "../model-limits";
 import { defineStep, StepInputError, throwIfAborted, type StepContext } from "../step";
 import type { ElasticModel, Gather, GatherSet } from "../types";
 import type { SourceKind, VelocityComponent, ShotPositions } from "../kernels/fd/simulation";
@@ -294,6 +295,23 @@ export const waveformInversionStep = defineStep({
       for (const s of shots) s.gather = truncate(s.gather, ns);
     }
     const output = { intervalS: dt, count: ns, startTimeS: first.startTimeS };
+
+    // Refuse a model too large before any allocation: per worker one solver buffer plus the forward
+    // wavefield kept for the gradient (velocities and strain rates on the model cells, 5 arrays in
+    // P-SV, 3 in SH, every K-th step with K·dt ≤ 1/(2·fmax): about 2·fmax·T + 1 kept steps). fmax is
+    // taken as twice the highest stage's lowPassHz, an upper estimate of the filtered band's edge.
+    const fmaxHz = 2 * Math.max(...p.stages.map((s) => s.lowPassHz));
+    const keptSteps = Math.ceil(2 * fmaxHz * ns * dt) + 1;
+    const storedBytes = keptSteps * (p.mode === "psv" ? 5 : 3) * startModel.nx * startModel.nz * 4;
+    const footprint = solverFootprint(startModel, {
+      mode: p.mode,
+      pmlCells: p.pmlCells,
+      freeSurface: p.freeSurface,
+      workers: Math.min(shots.length, ctx.pool?.size ?? 1),
+      extraBytes: storedBytes,
+      extraLabel: `stored forward wavefields (${keptSteps} steps)`,
+    });
+    if (footprint) checkModelFootprint(footprint, "model", `${MODEL_TOO_LARGE_REMEDY} A shorter windowEndMs or a lower lowPassHz keeps fewer wavefields.`);
 
     const startWavelets = (): Record<string, Float32Array> => {
       const out: Record<string, Float32Array> = {};

@@ -43,7 +43,7 @@ export function meetPeer(arg: { flags: Int32Array; mine: number; peer: number; l
 import { filterTraces, type FilterTracesArgs } from "../kernels/filter";
 import { agcTraces, normaliseTraces, timePowerTraces } from "../kernels/gain";
 import { applyMutes, type MuteLines } from "../kernels/mute";
-import { aicPicks, staLtaPicks, type PickSearchWindow } from "../kernels/pickers";
+import { aicPicks, staLtaPicks, type PickPosition, type PickSearchWindow } from "../kernels/pickers";
 import { lineSourceTraces, type LineSourceArgs } from "../kernels/line-source";
 import { resampleTraces, type TimeGrid } from "../kernels/resample";
 import { amplitudeSpectra } from "../kernels/spectrum";
@@ -99,13 +99,15 @@ export function pickTraceBlock(arg: {
   method: "energy-ratio" | "information-criterion";
   window: PickSearchWindow;
   triggerRatio: number;
+  /** Where an energy-ratio pick sits (see staLtaPicks). */
+  pickAt: PickPosition;
   /** AIC half window around the energy-ratio pick, samples; 0 = AIC over the whole search window. */
   aicHalfWidth: number;
 }): { index: Float64Array; quality: Float64Array } {
   const { data, traceCount: tc, sampleCount: ns, window } = arg;
-  if (arg.method === "energy-ratio") return staLtaPicks(data, tc, ns, window, arg.triggerRatio);
+  if (arg.method === "energy-ratio") return staLtaPicks(data, tc, ns, window, arg.triggerRatio, arg.pickAt);
   if (arg.aicHalfWidth > 0) {
-    const first = staLtaPicks(data, tc, ns, window, arg.triggerRatio);
+    const first = staLtaPicks(data, tc, ns, window, arg.triggerRatio, arg.pickAt);
     return aicPicks(data, tc, ns, window, { centres: first.index, halfWidth: arg.aicHalfWidth });
   }
   return aicPicks(data, tc, ns, window);

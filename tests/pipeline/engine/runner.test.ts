@@ -193,6 +193,63 @@ steps:
   });
 });
 
+describe("stopping a run", () => {
+  it("the run's record says cancelled the moment the stopped step's does, before the engine does anything more", async () => {
+    // Specification (DEVELOPERS.md, "Stopping a run"): a cancelled step ends its run in the same
+    // transaction. Observed through the engine's own events: when the stopped step's end is
+    // announced, the run's record already reads "cancelled" with its end time and waiting steps
+    // cancelled, and no later step has started.
+    const flag = path.join(tmp, "stop-order.flag");
+    const file = writePipeline(
+      "stop-order",
+      `name: engine-stop-order
+survey: test-site
+steps:
+  - step: test-make-traces
+    settings: { value: 5 }
+  - step: test-wait
+    settings: { ms: 60000, startedFlagFile: ${JSON.stringify(flag)} }
+  - step: test-scale
+`,
+    );
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
+    const seen: string[] = [];
+    let atStepEnd: { run: string; finished: boolean; steps: string[] } | null = null;
+    const running = executeRun(db, runId, {
+      cancelPollMs: 50,
+      events: {
+        onStepStart: (e) => seen.push(`start ${e.label}`),
+        onStepEnd: (e) => {
+          seen.push(`end ${e.label} ${e.status}`);
+          if (e.status === "cancelled") {
+            const r = getRun(db, runId)!;
+            atStepEnd = { run: r.status, finished: r.finishedAt !== null, steps: r.steps.map((x) => x.status) };
+          }
+        },
+      },
+    });
+    const deadline = Date.now() + 30_000;
+    while (!fs.existsSync(flag) && Date.now() < deadline) await new Promise((r) => setTimeout(r, 20));
+    seen.push("cancel requested");
+    requestCancel(db, runId, actor);
+    const outcome = await running;
+    seen.push(`outcome ${outcome.status}`);
+    expect(seen).toEqual([
+      "start test-make-traces",
+      "end test-make-traces succeeded",
+      "start test-wait",
+      "cancel requested",
+      "end test-wait cancelled",
+      "outcome cancelled",
+    ]);
+    expect(atStepEnd).toEqual({ run: "cancelled", finished: true, steps: ["succeeded", "cancelled", "cancelled"] });
+    const detail = getRun(db, runId)!;
+    expect(detail.status).toBe("cancelled");
+    expect(detail.error).toBe("The run was cancelled.");
+    expect(detail.steps[1].error).toBe("cancelled");
+  });
+});
+
 const tsxChild = (script: string, args: string[]) =>
   execa(process.execPath, ["--import", "tsx", path.join(process.cwd(), "tests/fixtures/engine", script), ...args], {
     env: { ...process.env, TRACEWRIGHT_DATA_DIR: tmp },

@@ -95,7 +95,7 @@ describe("build-model run", () => {
     const res = await buildModelStep.run({}, p, makeStepContext());
     const m = res.outputs.model!;
     expect([m.nx, m.nz, m.originX, m.spacingM]).toEqual([41, 21, -5, 0.5]);
-    expect(res.summary).toMatchObject({ vsMin: 90, vsMax: 250, vpMax: 500 });
+    expect(res.summary).toMatchObject({ vsMin: 90, vsMax: 250, vpMax: 500, gridFrom: "grid settings", originXM: -5 });
   });
 
   it("refuses a shape that covers no grid node, naming it", async () => {
@@ -127,10 +127,15 @@ describe("build-model run", () => {
   it("sizes the grid from the spread of the gathers", async () => {
     const g = makeGather({ traceCount: 24, sampleCount: 10, sampleIntervalS: 0.001, sourceX: -1, firstReceiverX: 0, receiverSpacingM: 1 });
     const p = parse({ grid: { fromSpread: true, spreadMarginM: 4, spacingM: 0.5, depthM: 10 } });
-    const m = (await buildModelStep.run({ gathers: { kind: "gathers", gathers: [g] } }, p, makeStepContext())).outputs.model!;
+    const res = await buildModelStep.run({ gathers: { kind: "gathers", gathers: [g] } }, p, makeStepContext());
+    const m = res.outputs.model!;
     // Spread from x = -1 (source) to 23 m (last receiver), 4 m margin each side: -5 to 27 m.
     expect(m.originX).toBe(-5);
     expect(m.originX + (m.nx - 1) * m.spacingM).toBe(27);
+    // The summary states the model's origin, not the unused grid.originXM setting (0 by default),
+    // and says where the grid came from.
+    expect(p.grid.originXM).toBe(0);
+    expect(res.summary).toMatchObject({ gridFrom: "spread of the gathers ± 4 m", originXM: -5, originZM: 0, nx: m.nx });
     await expect(buildModelStep.run({}, p, makeStepContext())).rejects.toThrow(/fromSpread needs gathers/);
   });
 });

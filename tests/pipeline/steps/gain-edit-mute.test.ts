@@ -18,10 +18,21 @@ const gathers = (): GatherSet => ({
 });
 
 describe("gain step", () => {
+  it("summarises only the setting its kind uses", async () => {
+    const agc = await gainStep.run({ gathers: gathers() }, gainStep.params.parse({ kind: "agc", agcWindowMs: 80 }), makeStepContext());
+    expect(agc.summary).toEqual({ kind: "agc", agcWindowMs: 80, gathers: 2, traces: 12 });
+    const power = await gainStep.run({ gathers: gathers() }, gainStep.params.parse({ kind: "time-power", timePower: 1.5 }), makeStepContext());
+    expect(power.summary).toEqual({ kind: "time-power", timePower: 1.5, gathers: 2, traces: 12 });
+  });
+
+
   it("records the kind and the per-trace factors that undo a normalisation", async () => {
     const input = gathers();
     const res = await gainStep.run({ gathers: input }, gainStep.params.parse({ kind: "trace-max" }), makeStepContext());
     expect(res.summary).toMatchObject({ kind: "trace-max", traces: 12 });
+    // A normalisation uses neither the AGC window nor a time power: the summary does not name them.
+    expect(Object.keys(res.summary!)).not.toContain("agcWindowMs");
+    expect(Object.keys(res.summary!)).not.toContain("timePower");
     const report = res.outputs.report!;
     expect(report.role).toBe("gain");
     const record = report.data as { kind: string; traceFactors: Array<{ gatherId: string; factors: number[] }> };

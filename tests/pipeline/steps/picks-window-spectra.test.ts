@@ -54,6 +54,16 @@ describe("first-arrivals step", () => {
     expect(firstArrivalsStep.params.safeParse({ searchFastestMps: 300, searchSlowestMps: 400 }).success).toBe(false);
   });
 
+  it("leaves traces beyond maxOffsetM unpicked and picks the rest as before", async () => {
+    const { set } = refractionGather();
+    const all = await firstArrivalsStep.run({ gathers: set }, firstArrivalsStep.params.parse({ method: "energy-ratio" }), makeStepContext());
+    const near = await firstArrivalsStep.run({ gathers: set }, firstArrivalsStep.params.parse({ method: "energy-ratio", maxOffsetM: 16 }), makeStepContext());
+    const offsets = set.gathers[0].traces.map((h) => Math.abs(h.offset));
+    const expected = all.outputs.picks!.picks.filter((p) => offsets[p.traceIndex] <= 16);
+    expect(near.outputs.picks!.picks.map((p) => [p.traceIndex, p.timeS])).toEqual(expected.map((p) => [p.traceIndex, p.timeS]));
+    expect(expected.length).toBe(16); // offsets 1 … 16 m
+  });
+
   it("picks a clean direct wave within 1 ms and flags the trace off the offset trend", async () => {
     const { set, onsets } = refractionGather();
     const res = await firstArrivalsStep.run({ gathers: set }, firstArrivalsStep.params.parse({}), makeStepContext());

@@ -212,6 +212,16 @@ describe("vertical-stack step", () => {
     expect(sp.sourceXM).toBe(11);
     expect(gathers[0].traces[0].sourceX).toBe(11);
     expect(result.summary).toMatchObject({ positionWarnings: 1 });
+    // Grouped by position, the blows of a group lie together by construction: no count of position
+    // warnings when there are none (still one when a group was merged by number anyway, as above);
+    // a mean stack down-weights nothing: no such count either.
+    expect((await run(input, { groupBy: "source-position" })).result.summary).toMatchObject({ positionWarnings: 1 });
+    const together = makeGathers(blowsAt(6, 11, [0.1, 0.1, 0.1]), { traces: 4, samples: 100, startTimeS: 0, seed: 7 });
+    const byPosition = await run(together, { groupBy: "source-position", method: "mean" });
+    expect(byPosition.report.sourcePoints.every((r) => !r.positionWarning)).toBe(true);
+    expect(Object.keys(byPosition.result.summary!)).not.toContain("positionWarnings");
+    expect(Object.keys(byPosition.result.summary!)).not.toContain("downWeightedBlows");
+    expect(byPosition.result.summary).toMatchObject({ groupBy: "source-position", method: "mean" });
     expect((await run(input, { positionToleranceM: 2.5 })).report.sourcePoints[0].positionWarning).toBe(false);
   });
 
