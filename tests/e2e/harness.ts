@@ -9,7 +9,6 @@ import os from "node:os";
 import path from "node:path";
 import { execa, type ResultPromise } from "execa";
 import { chromium, type BrowserContext, type Page } from "playwright-core";
-import { SMTPServer } from "smtp-server";
 
 export const projectRoot = path.resolve(import.meta.dirname, "..", "..");
 export const CHROMIUM = process.env.TRACEWRIGHT_CHROMIUM ?? "/usr/bin/chromium";
@@ -26,31 +25,9 @@ export async function freePort(): Promise<number> {
   });
 }
 
-export interface CapturedMail {
-  to: string[];
-  raw: string;
-}
-
+export type { CaughtMail as CapturedMail } from "../helpers/mail-catcher";
 /** An SMTP server on 127.0.0.1 (port 0) that keeps every message. */
-export async function startMailCatcher(): Promise<{ port: number; messages: CapturedMail[]; close: () => Promise<void> }> {
-  const messages: CapturedMail[] = [];
-  const server = new SMTPServer({
-    authOptional: true,
-    disabledCommands: ["STARTTLS"],
-    logger: false,
-    onData(stream, session, callback) {
-      const chunks: Buffer[] = [];
-      stream.on("data", (c: Buffer) => chunks.push(c));
-      stream.on("end", () => {
-        messages.push({ to: session.envelope.rcptTo.map((r) => r.address), raw: Buffer.concat(chunks).toString("utf8") });
-        callback();
-      });
-    },
-  });
-  await new Promise<void>((resolve) => server.listen(0, "127.0.0.1", () => resolve()));
-  const port = (server.server.address() as net.AddressInfo).port;
-  return { port, messages, close: () => new Promise((resolve) => server.close(() => resolve())) };
-}
+export { startCatcher as startMailCatcher } from "../helpers/mail-catcher";
 
 /** Prepares a data folder with the demo script (`--prepare-only`). */
 export async function prepareData(dir: string): Promise<void> {

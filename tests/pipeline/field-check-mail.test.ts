@@ -4,11 +4,10 @@
  * body; not sent when nothing does, nor without an SMTP host.
  */
 import fs from "node:fs";
-import net from "node:net";
 import os from "node:os";
 import path from "node:path";
 import { afterAll, afterEach, beforeAll, describe, expect, it } from "vitest";
-import { SMTPServer } from "smtp-server";
+import { startCatcher, type CaughtMail } from "../helpers/mail-catcher";
 import { closeDb, getDb } from "../../db/client";
 import { fieldCheckMail, fieldCheckOfRun, sendFieldCheckMail } from "../../pipeline/field-check-mail";
 import { executeRun } from "../../pipeline/runner";
@@ -18,29 +17,15 @@ import { checkFieldShots, type FieldShot } from "../../pipeline/kernels/field-ch
 import { fieldCheckParams, type FieldCheckReport } from "../../pipeline/steps/field-check";
 import { gaussianSource, mulberry32 } from "../helpers/random";
 
-const messages: Array<{ to: string[]; raw: string }> = [];
-let server: SMTPServer;
+let messages: CaughtMail[] = [];
 let port = 0;
+let close: () => Promise<void>;
 
 beforeAll(async () => {
-  server = new SMTPServer({
-    authOptional: true,
-    disabledCommands: ["STARTTLS"],
-    logger: false,
-    onData(stream, session, callback) {
-      const chunks: Buffer[] = [];
-      stream.on("data", (c: Buffer) => chunks.push(c));
-      stream.on("end", () => {
-        messages.push({ to: session.envelope.rcptTo.map((r) => r.address), raw: Buffer.concat(chunks).toString("utf8") });
-        callback();
-      });
-    },
-  });
-  await new Promise<void>((resolve) => server.listen(0, "127.0.0.1", () => resolve()));
-  port = (server.server.address() as net.AddressInfo).port;
+  ({ port, messages, close } = await startCatcher());
 });
 
-afterAll(() => new Promise<void>((resolve) => server.close(() => resolve())));
+afterAll(() => close());
 afterEach(() => {
   delete process.env.TRACEWRIGHT_SMTP_HOST;
   delete process.env.TRACEWRIGHT_SMTP_PORT;
