@@ -49,6 +49,23 @@ export default async function ProfilePage({ params }: { params: Promise<{ slug: 
         <h1 data-testid="profile-title">Line {profile.name}</h1>
       </div>
 
+      {can(user.role, "uploads.send") ? (
+        <section className="card p-4" aria-label="Field files" data-testid="profile-upload">
+          <h2 className="mb-2">Field files</h2>
+          <p className="text-sm">
+            Back from the field? Hand in this line&apos;s SEG-2 or SEG-Y files and the geometry table:{" "}
+            <Link
+              href={`/uploads?survey=${encodeURIComponent(survey.slug)}&profile=${encodeURIComponent(profile.name)}`}
+              className="text-accent hover:underline"
+              data-testid="profile-upload-link"
+            >
+              upload field files to line {profile.name}
+            </Link>{" "}
+            (resumable; each file checked on arrival).
+          </p>
+        </section>
+      ) : null}
+
       <section className="card p-4" aria-label="The line" data-testid="profile-details">
         <h2 className="mb-2">The line</h2>
         <dl className="grid gap-x-6 gap-y-2 text-sm sm:grid-cols-[12rem_1fr]">
