@@ -271,11 +271,11 @@ export function makeQuillmoorSurvey(options: QuillmoorOptions = {}): QuillmoorSu
     for (let b = 1; b <= nBlows; b++) {
       const strength = (0.85 + 0.3 * u()) * (b === oddBlow && oddKind === "weak" ? 0.3 : 1);
       // A calm November morning: wind and traffic well below the hammer's surface wave at the
-      // frequencies the inversion starts from (about 20 Hz), except on the odd noisy blow. After
-      // the stack, the processing and a 25 Hz low-pass, the first 300 ms of a trace at 8 to 24 m
-      // offset carry 8 to 13 times the power of its last 80 ms (median; 2 to 3.5 with three times
+      // frequencies the inversion starts from (about 20 Hz), except on the odd noisy blow (a gust or
+      // a passing lorry: 40 times the wind). After the stack, the processing and a 25 Hz low-pass,
+      // the first 300 ms of a trace at 8 to 24 m offset carry 8 to 13 times the power of its last 80 ms (median; 2 to 3.5 with three times
       // the wind and four times the traffic, where the inversion's first stage fit mostly noise).
-      const windLevel = (0.00015 + 0.0003 * u()) * (b === oddBlow && oddKind === "noisy" ? 12 : 1);
+      const windLevel = (0.00015 + 0.0003 * u()) * (b === oddBlow && oddKind === "noisy" ? 40 : 1);
       const trafficLevel = 0.000075 + 0.000175 * u();
       const humLevel = 0.0008;
       const humPhase = 2 * Math.PI * u();

@@ -90,9 +90,10 @@ describe("field-check on the Quillmoor field data", () => {
       const t = g.traces.findIndex((h) => h.channel === 10);
       for (let k = 0; k < ns; k++) g.data[t * ns + k] *= -1;
     }
-    // sp07-b2 triggered 4 ms early: the record starts late, every arrival comes 4 ms later.
+    // sp07-b2 triggered 5 ms early: the record starts late, every arrival comes 5 ms later
+    // (clear of the 4 ms reshoot threshold, so the verdict does not hang on the last tenth of a ms).
     const late = byId("sp07-b2.sg2");
-    const shift = Math.round(0.004 / dt);
+    const shift = Math.round(0.005 / dt);
     for (let t = 0; t < late.traces.length; t++) {
       const row = late.data.subarray(t * ns, (t + 1) * ns);
       row.copyWithin(shift, 0, ns - shift);
@@ -118,8 +119,8 @@ describe("field-check on the Quillmoor field data", () => {
     expect(kinds("reversed-channel").map((f) => f.channel)).toEqual([10]);
     const slip = kinds("trigger-slip");
     expect(slip.map((f) => f.file)).toEqual(["sp07-b2.sg2"]);
-    // Measured on 1 ms block means with a parabola through the peak: within 0.3 ms of the 4 ms put in.
-    expect(Math.abs(slip[0].value - 4)).toBeLessThan(0.3);
+    // Measured on 1 ms block means with a parabola through the peak: within 0.3 ms of the 5 ms put in.
+    expect(Math.abs(slip[0].value - 5)).toBeLessThan(0.3);
     expect(slip[0].verdict).toBe("reshoot");
     expect(kinds("clipped").map((f) => [f.file, f.channel])).toEqual([["sp05-b1.sg2", 8]]);
     expect(kinds("mains-hum").map((f) => [f.file, f.channel])).toEqual([["sp09-b3.sg2", 40]]);

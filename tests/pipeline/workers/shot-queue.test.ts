@@ -176,13 +176,22 @@ describe.skipIf(!haveRedis)("shot tasks on the job queue", () => {
     await ensureWorker();
     const live = new Set(workers.filter((w) => w.alive()).map((w) => w.pid));
     const controller = new AbortController();
-    const slow = shotTasks(model, 6000).slice(0, 1);
+    // Long enough (20 s of record) that the cancel reaches the worker while the task still runs,
+    // also when its inputs are already in the worker's cache from the tests before.
+    const slow = shotTasks(model, 40000).slice(0, 1);
     const running = onQueue("cancelled", controller.signal).runShots("shotGradientTask", slow, { batch: "stage-1/start", signal: controller.signal });
     running.catch(() => undefined);
-    await until(async () => (await listWorkers(await queue.redis())).some((r) => live.has(r.pid) && r.currentTasks.length > 0), "a worker to start the slow task");
+    // Started: the queue holds the job as active (the workers' heartbeat, every 2 s, may miss a short task).
+    await until(
+      async () =>
+        (await listRunShotTasks(queue, 7)).some((r) => r.step === "cancelled" && r.state === "active") ||
+        (await listWorkers(await queue.redis())).some((r) => live.has(r.pid) && r.currentTasks.length > 0),
+      "a worker to start the slow task",
+      30_000,
+    );
     controller.abort();
     await expect(running).rejects.toThrow(/cancelled/);
-    await until(async () => (await listRunShotTasks(queue, 7)).some((r) => r.step === "cancelled" && r.state === "failed"), "the worker to stop the task");
+    await until(async () => (await listRunShotTasks(queue, 7)).some((r) => r.step === "cancelled" && r.state === "failed"), "the worker to stop the task", 30_000);
     const row = (await listRunShotTasks(queue, 7)).find((r) => r.step === "cancelled")!;
     expect(row.failedReason).toMatch(/cancelled/);
     // Given up, not retried: a cancel is final.
