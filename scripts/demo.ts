@@ -151,7 +151,10 @@ async function reportOnApprovedInversion(leadEmail: string | undefined): Promise
   say(`\n  the lead approves run ${run.id}, writes the interpretation and makes the client report`);
   const positions = [0.3, 0.5, 0.7].map((f) => Math.round(m.originX + f * (m.nx - 1) * m.spacingM));
   positions[1] = Math.round(slowX);
-  const r = await cli(["report", String(run.id), "--out", out, "--force", "--positions", positions.join(","), "--as", lead.email]);
+  // The firm on the title page: the scenario's consultancy, unless the environment names another.
+  const r = await cli(["report", String(run.id), "--out", out, "--force", "--positions", positions.join(","), "--as", lead.email], {
+    TRACEWRIGHT_FIRM: process.env.TRACEWRIGHT_FIRM ?? "Corvell Ground Imaging",
+  });
   if (r.exitCode !== 0) throw new Error(`the client report failed (exit ${r.exitCode})`);
 }
 
