@@ -21,11 +21,13 @@ export async function GET(_req: Request, ctx: { params: Promise<{ runId: string;
     const record = listRunReports(getDb(), runId).find((r) => r.hash === p.hash);
     if (!record) throw new AppError("not-found", `Run ${runId} has no report ${p.hash.slice(0, 12)}.`, { field: "hash" });
     const stored = readStoredReport(p.hash);
-    return new Response(stored.pdf as unknown as BodyInit, {
+    // A copy with a buffer of its own: the decoded artifact's bytes are a view into a larger one.
+    const pdf = new Uint8Array(stored.pdf);
+    return new Response(pdf, {
       status: 200,
       headers: {
         "content-type": "application/pdf",
-        "content-length": String(stored.pdf.byteLength),
+        "content-length": String(pdf.byteLength),
         "content-disposition": `attachment; filename="tracewright-run-${runId}-report-${p.hash.slice(0, 8)}.pdf"`,
         "cache-control": "private, no-store",
       },
