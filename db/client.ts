@@ -5,13 +5,14 @@
 import fs from "node:fs";
 import path from "node:path";
 import Database from "better-sqlite3";
-import { drizzle, type BetterSQLite3Database } from "drizzle-orm/better-sqlite3";
+import { drizzle } from "drizzle-orm/better-sqlite3";
 import { migrate } from "drizzle-orm/better-sqlite3/migrator";
 import * as schema from "./schema";
 import { databasePath, migrationsDir } from "./paths";
 import { sealUnchainedAuditEvents } from "./queries/audit-chain";
+import type { Db } from "./db-type";
 
-export type Db = BetterSQLite3Database<typeof schema> & { $client: Database.Database };
+export type { Db };
 
 let shared: Db | undefined;
 

@@ -21,7 +21,7 @@
  */
 import { createHash } from "node:crypto";
 import { sql } from "drizzle-orm";
-import type { Db } from "../client";
+import type { Db } from "../db-type";
 import { auditEvents, type Door } from "../schema";
 
 /** prev_hash of the first event. */
