@@ -7,7 +7,7 @@
 import { asc, desc, eq, inArray } from "drizzle-orm";
 import type { Db } from "../client";
 import { reviews, users } from "../schema";
-import { AppError } from "../../pipeline/errors";
+import { RecordError } from "../errors";
 import { addReview, type ReviewDecision, type ReviewRow } from "./reviews";
 
 /** The latest decision on a run, or null. */
@@ -18,14 +18,14 @@ export function latestDecision(db: Db, runId: number): { decision: ReviewDecisio
   );
 }
 
-/** Adds a review unless it repeats the run's latest decision (AppError "conflict"). */
+/** Adds a review unless it repeats the run's latest decision (RecordError "conflict", which the doors answer as a conflict). */
 export function addReviewOnce(db: Db, input: { runId: number; reviewerUserId: number; decision: ReviewDecision; comment: string }): ReviewRow {
   const last = latestDecision(db, input.runId);
   if (last && last.decision === input.decision && (input.decision === "approved" || last.comment === input.comment.trim())) {
-    throw new AppError(
+    throw new RecordError(
       "conflict",
       input.decision === "approved" ? `Run ${input.runId} is already approved.` : `Run ${input.runId} was already sent back with this comment.`,
-      { field: "decision" },
+      "decision",
     );
   }
   return addReview(db, input);

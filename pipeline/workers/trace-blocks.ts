@@ -5,8 +5,10 @@
  * into one block of whole traces per worker, each block copied once and its buffer transferred
  * (not cloned) to the worker. Results come back in trace order.
  */
-import type { StepContext } from "../step";
 import type { WorkerPool } from "./pool";
+
+/** What the splitting needs of a step's context: its worker pool (a StepContext has one). */
+type WithPool = { pool: WorkerPool };
 
 /** Gathers with fewer samples than this run in-process: the hand-off costs more than it saves. */
 export const POOL_MIN_SAMPLES = 1 << 17;
@@ -25,7 +27,7 @@ export interface TraceBlockJob<R> {
 }
 
 /** Number of blocks to use for a gather of this size with this context's pool (1 = in-process). */
-export function blockCountFor(ctx: Pick<StepContext, "pool">, traceCount: number, sampleCount: number): number {
+export function blockCountFor(ctx: WithPool, traceCount: number, sampleCount: number): number {
   const pool = ctx.pool as WorkerPool | undefined;
   if (!pool || pool.size < 2 || traceCount < 2 || traceCount * sampleCount < POOL_MIN_SAMPLES) return 1;
   return Math.min(pool.size, traceCount);
@@ -33,7 +35,7 @@ export function blockCountFor(ctx: Pick<StepContext, "pool">, traceCount: number
 
 /** Runs `job` over blocks of whole traces of `data` (`[trace][sample]`); `data` is not mutated. */
 export async function runTraceBlocks<R>(
-  ctx: Pick<StepContext, "pool">,
+  ctx: WithPool,
   data: Float32Array,
   traceCount: number,
   sampleCount: number,
@@ -59,7 +61,7 @@ export async function runTraceBlocks<R>(
  * the blocks' results.
  */
 export async function transformTraceBlocks(
-  ctx: Pick<StepContext, "pool">,
+  ctx: WithPool,
   data: Float32Array,
   traceCount: number,
   sampleCount: number,
