@@ -8,6 +8,11 @@ import { sendMail, smtpSettings, type MailOutcome } from "@/pipeline/notice-send
 
 export { smtpSettings, type MailOutcome };
 
+/** "<what> with this link (it works once, until <UTC time>):", the link indented, a blank line. */
+function linkLines(what: string, link: string, expiresAt: Date): string[] {
+  return [`${what} with this link (it works once, until ${expiresAt.toISOString().slice(0, 16).replace("T", " ")} UTC):`, "", `    ${link}`, ""];
+}
+
 /** Sends an invitation with a link that sets the person's password; never throws. */
 export async function sendInvitationLink(input: { to: string; name: string; role: string; link: string; expiresAt: Date; invitedBy: string }): Promise<MailOutcome> {
   return sendMail({
@@ -17,10 +22,7 @@ export async function sendInvitationLink(input: { to: string; name: string; role
       `Hello ${input.name},`,
       "",
       `${input.invitedBy} has added you to the Tracewright control room as ${input.role}.`,
-      "Choose your password with this link (it works once, until " + input.expiresAt.toISOString().slice(0, 16).replace("T", " ") + " UTC):",
-      "",
-      `    ${input.link}`,
-      "",
+      ...linkLines("Choose your password", input.link, input.expiresAt),
       "Then sign in with this e-mail address and the password you chose.",
     ].join("\n"),
   });
@@ -35,10 +37,7 @@ export async function sendPasswordResetLink(input: { to: string; name: string; l
       `Hello ${input.name},`,
       "",
       "Someone (we hope you) asked to reset the password of your Tracewright control room account.",
-      "Choose a new password with this link (it works once, until " + input.expiresAt.toISOString().slice(0, 16).replace("T", " ") + " UTC):",
-      "",
-      `    ${input.link}`,
-      "",
+      ...linkLines("Choose a new password", input.link, input.expiresAt),
       "If you did not ask for this, ignore this mail: your password stays as it is.",
     ].join("\n"),
   });
