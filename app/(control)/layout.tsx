@@ -24,7 +24,7 @@ export default async function ControlLayout({ children }: { children: React.Reac
   return (
     <div className="min-h-screen">
       <header className="border-b border-line bg-panel print:hidden">
-        <div className="mx-auto flex h-14 max-w-[1400px] items-center gap-6 px-5">
+        <div className="mx-auto flex min-h-14 max-w-[1400px] flex-wrap items-center gap-x-6 gap-y-2 px-5 py-2">
           <Link href="/runs" className="flex items-center gap-2 font-semibold">
             {/* eslint-disable-next-line @next/next/no-img-element */}
             <img src="/icon.svg" alt="" width={24} height={24} />
