@@ -8,8 +8,11 @@
  *
  * The hollow in the inverted model is taken as the cells whose Vs is at least 20 % below the true
  * background at their depth (the background is known here; the threshold is a choice of this
- * demo): its centre is the Vs-deficit-weighted mean x, its width the extent at the top row below
- * the held surface rows, its base the deepest such cell in the columns near the centre.
+ * demo): its centre is the Vs-deficit-weighted mean x; its width the extent of the slow cells at
+ * 0.5 m depth around the centre, bridging gaps of up to 1 m (the ground right under a source point
+ * changes little, because the update fades out near every source: one slower-than-threshold column
+ * under a source does not split the body in two); its base the deepest such cell in the columns
+ * near the centre.
  */
 import path from "node:path";
 import { pathToFileURL } from "node:url";
@@ -30,6 +33,37 @@ export interface InversionAssessment {
   backgroundErrorPercent: number;
   /** Largest mean relative error of Vs in any 1 m depth band outside the hollow, x 6–48 m, %. */
   worstBandErrorPercent: number;
+}
+
+/** Widest gap between slow cells that still counts as one body, m (the width's rule above). */
+export const BRIDGED_GAP_M = 1;
+
+/**
+ * Extent (m) of the slow cells in one row that are joined to the centre column, where gaps of up
+ * to `gapCells` non-slow cells are bridged; 0 when no slow cell lies within the gap of the centre.
+ */
+export function slowExtentM(slow: Uint8Array, nx: number, row: number, centre: number, gapCells: number, h: number): number {
+  const at = (i: number) => i >= 0 && i < nx && slow[row * nx + i] === 1;
+  let lo = -1;
+  let hi = -1;
+  for (let d = 0; d <= gapCells && lo < 0; d++) {
+    if (at(centre - d)) lo = hi = centre - d;
+    else if (at(centre + d)) lo = hi = centre + d;
+  }
+  if (lo < 0) return 0;
+  for (let i = lo - 1, gap = 0; i >= 0 && gap <= gapCells; i--) {
+    if (at(i)) {
+      lo = i;
+      gap = 0;
+    } else gap++;
+  }
+  for (let i = hi + 1, gap = 0; i < nx && gap <= gapCells; i++) {
+    if (at(i)) {
+      hi = i;
+      gap = 0;
+    } else gap++;
+  }
+  return (hi - lo + 1) * h;
 }
 
 /** Compares an inverted model with the true ground on the model's own grid. */
@@ -57,14 +91,7 @@ export function assessInversion(m: ElasticModel): InversionAssessment {
   if (centreXM !== null) {
     const row = Math.min(m.nz - 1, Math.round((0.5 - m.originZ) / h));
     const ci = Math.round((centreXM - m.originX) / h);
-    // The connected run of slow cells through the centre column at 0.5 m depth.
-    if (slow[row * m.nx + ci]) {
-      let lo = ci;
-      let hi = ci;
-      while (lo > 0 && slow[row * m.nx + lo - 1]) lo--;
-      while (hi < m.nx - 1 && slow[row * m.nx + hi + 1]) hi++;
-      widthM = (hi - lo + 1) * h;
-    } else widthM = 0;
+    widthM = slowExtentM(slow, m.nx, row, ci, Math.round(BRIDGED_GAP_M / h), h);
     const reach = Math.round(1.5 / h);
     for (let j = 0; j < m.nz; j++) {
       for (let i = Math.max(0, ci - reach); i <= Math.min(m.nx - 1, ci + reach); i++) {
@@ -115,7 +142,7 @@ export function describeAssessment(a: InversionAssessment): string[] {
   const f = (v: number | null, d = 2) => (v === null || !Number.isFinite(v) ? "none" : v.toFixed(d));
   return [
     `hollow centre      ${f(a.centreXM)} m    (true 27 m; target within 1 m)`,
-    `hollow width       ${f(a.widthM)} m    (true about 6 m at 0.5 m depth; target within 1.5 m)`,
+    `hollow width       ${f(a.widthM)} m    (true 5.94 m at 0.5 m depth, gaps up to ${BRIDGED_GAP_M} m bridged; target within 1.5 m of 6 m)`,
     `hollow base        ${f(a.baseDepthM)} m    (true 3.5 m; target within 1 m)`,
     `mean Vs in hollow  ${f(a.meanVsInHollowMps, 0)} m/s  (true 90 m/s; target at most 120 m/s)`,
     `background Vs      ${f(a.backgroundErrorPercent, 1)} % mean error, worst 1 m band ${f(a.worstBandErrorPercent, 1)} %  (x 6–48 m; target within 10 %)`,
@@ -142,11 +169,28 @@ export function stageMisfits(points: Array<{ x: number; y: number; group?: strin
   });
 }
 
-/** Each stage's misfit reduction, with the scenario's target (the end at most 25 % of the start). */
+/** Each stage's misfit reduction within the stage (the target is judged on the measure table below). */
 export function describeStageMisfits(stages: StageMisfit[]): string[] {
   return stages.map(
     (s) =>
-      `misfit ${s.stage.padEnd(16)} ${s.startMisfit.toFixed(1)} → ${s.endMisfit.toFixed(1)} in ${s.iterations} iterations: ${((100 * s.endMisfit) / s.startMisfit).toFixed(0)} % of the start  (target at most 25 %)`,
+      `misfit ${s.stage.padEnd(16)} ${s.startMisfit.toFixed(1)} → ${s.endMisfit.toFixed(1)} in ${s.iterations} iterations: ${((100 * s.endMisfit) / s.startMisfit).toFixed(0)} % of the stage's start`,
+  );
+}
+
+export interface MeasureRow {
+  stage: number;
+  lowPassHz: number;
+  measure: string;
+  startModelMisfit: number;
+  finalModelMisfit: number;
+  ratio: number;
+}
+
+/** The inversion's measure table: the final model against the starting model under each stage's measure. */
+export function describeMeasureTable(rows: MeasureRow[]): string[] {
+  return rows.map(
+    (r) =>
+      `stage ${r.stage} measure (${r.lowPassHz} Hz, ${r.measure}): starting model ${r.startModelMisfit.toFixed(1)}, final model ${r.finalModelMisfit.toFixed(1)}: ${(100 * r.ratio).toFixed(0)} % of the start  (target at most 25 %)`,
   );
 }
 
@@ -177,4 +221,7 @@ if (process.argv[1] && import.meta.url === pathToFileURL(path.resolve(process.ar
   for (const line of describeAssessment(assessInversion(model))) process.stdout.write(`  ${line}\n`);
   const misfit = step.series.find((s) => s.name === "misfit");
   if (misfit) for (const line of describeStageMisfits(stageMisfits(misfit.points))) process.stdout.write(`  ${line}\n`);
+  const report = step.outputs.report ? (readArtifactSync(step.outputs.report) as { data?: { measureTable?: MeasureRow[] } }) : null;
+  const table = report?.data?.measureTable ?? [];
+  if (table.length > 0) for (const line of describeMeasureTable(table)) process.stdout.write(`  ${line}\n`);
 }

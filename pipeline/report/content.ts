@@ -60,6 +60,9 @@ export interface MisfitStage {
   startMisfit: number | null;
   endMisfit: number | null;
   stoppedBy: string | null;
+  /** The starting and the final model under this stage's measure (the inversion's measure table), when recorded. */
+  startModelMisfit?: number | null;
+  finalModelMisfit?: number | null;
   points: Array<{ x: number; y: number }>;
 }
 
@@ -207,6 +210,13 @@ function misfitStages(step: RunStepDetail, report: Record<string, unknown> | nul
     s.stoppedBy = typeof r.stoppedBy === "string" ? r.stoppedBy : null;
     byStage.set(k + 1, s);
   });
+  const table = (report?.measureTable as Array<Record<string, unknown>> | undefined) ?? [];
+  for (const r of table) {
+    const s = typeof r.stage === "number" ? byStage.get(r.stage) : undefined;
+    if (!s) continue;
+    s.startModelMisfit = typeof r.startModelMisfit === "number" && Number.isFinite(r.startModelMisfit) ? r.startModelMisfit : null;
+    s.finalModelMisfit = typeof r.finalModelMisfit === "number" && Number.isFinite(r.finalModelMisfit) ? r.finalModelMisfit : null;
+  }
   return [...byStage.values()].sort((a, b) => a.stage - b.stage).map((s) => ({ ...s, points: s.points.sort((a, b) => a.x - b.x) }));
 }
 

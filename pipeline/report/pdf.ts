@@ -303,6 +303,9 @@ export async function renderReportPdf(c: ReportContent, made: ReportMaking): Pro
           ? `misfit ${s.startMisfit.toPrecision(4)} to ${s.endMisfit.toPrecision(4)} (${(100 * (1 - s.endMisfit / s.startMisfit)).toFixed(1)} % lower)`
           : null,
         s.stoppedBy ? `stopped by ${s.stoppedBy}` : null,
+        s.startModelMisfit != null && s.finalModelMisfit != null && s.startModelMisfit > 0
+          ? `under this stage's measure the final model scores ${s.finalModelMisfit.toPrecision(4)} against ${s.startModelMisfit.toPrecision(4)} for the starting model (${((100 * s.finalModelMisfit) / s.startModelMisfit).toFixed(0)} %)`
+          : null,
       ]
         .filter(Boolean)
         .join(", "),

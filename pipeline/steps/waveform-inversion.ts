@@ -108,6 +108,12 @@ export const waveformInversionParams = z
     lbfgsMemory: z.number().int().min(1).max(30).default(5).describe("L-BFGS memory: correction pairs kept"),
     firstStepFraction: z.number().positive().max(1).default(0.05).describe("First trial step of a stage: largest model change as a fraction of the parameter's mean"),
     maxLineSearchEvaluations: z.number().int().min(2).max(20).default(6).describe("Most misfit evaluations in one line search"),
+    measureTable: z
+      .boolean()
+      .default(true)
+      .describe(
+        "At the end, measure the starting and the final model with every stage's filter, offsets, window and measure, each model with its own re-estimated wavelet (two solves per shot for each model and stage)",
+      ),
     stages: z
       .array(stageSchema)
       .min(1)
@@ -158,6 +164,23 @@ interface InversionCheckpoint {
   curve: Array<{ x: number; y: number; group: string }>;
   stepCurve: Array<{ x: number; y: number; group: string }>;
   stageRecords: StageRecord[];
+  /** Rows of the end-of-inversion measure table done so far (resumed like the iterations). */
+  measureRows?: MeasureRow[];
+}
+
+/**
+ * One row of the measure table: the starting and the final model under one stage's measure, each
+ * with the wavelet re-estimated for it in that stage's band, so that a wavelet fitted to one model
+ * does not favour it over the other.
+ */
+export interface MeasureRow {
+  stage: number;
+  lowPassHz: number;
+  measure: InversionMeasure;
+  startModelMisfit: number;
+  finalModelMisfit: number;
+  /** finalModelMisfit / startModelMisfit. */
+  ratio: number;
 }
 
 /** Per stage in the report. */
@@ -502,6 +525,44 @@ export const waveformInversionStep = defineStep({
       ctx.signal.removeEventListener("abort", onAbort);
     }
 
+    // The measure table: the starting and the final model under every stage's measure.
+    const physics: Physics = { sourceKind, component, output, cancelFlag };
+    if (p.measureTable) {
+      state.measureRows ??= [];
+      for (let k = state.measureRows.length; k < p.stages.length; k++) {
+        throwIfAborted(ctx.signal);
+        const stage = p.stages[k];
+        const prepared = prepareStage(stage, shots, dt, ns);
+        const misfitOf = async (model: ElasticModel, which: string): Promise<number> => {
+          // The stage's first record already holds the starting model's misfit of stage 1.
+          if (k === 0 && which === "start" && state.stageRecords[0]) return state.stageRecords[0].startMisfit;
+          const base = startWavelets();
+          const scratch: InversionCheckpoint = { ...state, model, wavelets: {} };
+          for (const s of shots) scratch.wavelets[s.id] = lowPass(base[s.id], 1, ns, dt, stage.lowPassHz, stage.filterOrder);
+          if (stage.reestimateWavelet) await reestimate(ctx, scratch, prepared, shots, p, physics, `measure-table/stage-${k + 1}/${which}/wavelet`);
+          const r = await evaluate(ctx, scratch, prepared, shots, p, physics, model, false, `measure-table/stage-${k + 1}/${which}`);
+          state.forwardSolves = scratch.forwardSolves;
+          return r.misfit;
+        };
+        const startModelMisfit = await misfitOf(startModel, "start");
+        const finalModelMisfit = await misfitOf(state.model, "final");
+        const row: MeasureRow = {
+          stage: k + 1,
+          lowPassHz: stage.lowPassHz,
+          measure: stage.measure,
+          startModelMisfit,
+          finalModelMisfit,
+          ratio: startModelMisfit > 0 ? finalModelMisfit / startModelMisfit : Number.NaN,
+        };
+        state.measureRows.push(row);
+        ctx.log.info(
+          `measure of stage ${k + 1} (${stage.lowPassHz} Hz, ${stage.measure}): starting model ${startModelMisfit.toPrecision(4)}, final model ${finalModelMisfit.toPrecision(4)} (${(100 * row.ratio).toFixed(0)} % of the start)`,
+        );
+        ctx.progress(0.99, `measuring the starting and final model with stage ${k + 1}'s measure`);
+        ctx.saveCheckpoint(state);
+      }
+    }
+
     // Final synthetics in the last stage's band, for forward-model-like comparison.
     const lastStage = p.stages[p.stages.length - 1];
     const prepared = prepareStage(lastStage, shots, dt, ns);
@@ -525,6 +586,7 @@ export const waveformInversionStep = defineStep({
             shots: shots.map((s) => s.id),
             invertFor: p.invertFor,
             finalMisfit: final.misfit,
+            measureTable: state.measureRows ?? [],
             perShotMisfit: shots.map((s, k) => ({ gatherId: s.id, sourceX: s.positions.sourceX, value: final.perShot[k] })),
           },
         },
@@ -536,6 +598,7 @@ export const waveformInversionStep = defineStep({
         shots: shots.length,
         firstMisfit: state.stageRecords[0]?.startMisfit ?? null,
         lastMisfit: state.stageRecords[state.stageRecords.length - 1]?.endMisfit ?? null,
+        ...Object.fromEntries((state.measureRows ?? []).map((r) => [`stage${r.stage}FinalToStartPercent`, Math.round(1000 * r.ratio) / 10])),
         secondsThisAttempt: Math.round(elapsedS),
       },
       series: [
@@ -657,9 +720,10 @@ async function reestimate(
   shots: ShotData[],
   p: WaveformInversionParams,
   physics: Physics,
+  batch = `stage-${state.stage + 1}/wavelet`,
 ): Promise<number> {
   const { intervalS: dt, count: ns } = physics.output;
-  const syn = await evaluate(ctx, state, prepared, shots, p, physics, state.model, false, `stage-${state.stage + 1}/wavelet`);
+  const syn = await evaluate(ctx, state, prepared, shots, p, physics, state.model, false, batch);
   let fitSum = 0;
   shots.forEach((s, k) => {
     const est = estimateWavelet({

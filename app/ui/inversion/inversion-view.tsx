@@ -5,6 +5,7 @@ import { useQuery } from "@tanstack/react-query";
 import type { RunView, StepView } from "@/app/lib/view-types";
 import { StatusBadge } from "@/app/ui/status-badge";
 import { iterationFrames, type SeriesPoint } from "./inversion-data";
+import { MeasureTable } from "./measure-table";
 import { MisfitChart } from "./misfit-chart";
 import { invertedParameters, ModelIterations, PARAMETERS } from "./model-iterations";
 import { inversionQueries } from "./queries";
@@ -75,6 +76,8 @@ export function InversionView({ run, step, live }: { run: RunView; step: StepVie
         <MisfitChart points={misfit} currentIteration={frames[shownIndex]?.iteration ?? null} />
         {waveletHash ? <WaveletChart hash={waveletHash} fromLabel={waveletFrom} /> : <p className="card p-3 text-sm muted">This inversion starts from a Ricker wavelet (no wavelet step).</p>}
       </div>
+
+      {step.outputs.report ? <MeasureTable reportHash={step.outputs.report} /> : null}
 
       {startHash ? (
         <ModelIterations frames={frames} parameters={parameters} index={shownIndex} onIndex={onIndex} />

@@ -118,6 +118,14 @@ describe("waveform-inversion step", () => {
     expect(ctx.records.intermediates.filter((r) => r.kind === "model").map((r) => r.index)).toEqual(
       Array.from({ length: report.stages[0].iterations }, (_, k) => k + 1),
     );
+    // The measure table scores the starting and the final model with the stage's measure; with the
+    // wavelet not re-estimated it must agree with the stage's own first and last misfit (the same
+    // model, wavelet, filter and window give the same number).
+    const table = (res.outputs.report!.data as { measureTable: Array<{ stage: number; startModelMisfit: number; finalModelMisfit: number; ratio: number }> }).measureTable;
+    expect(table).toHaveLength(1);
+    expect(table[0].startModelMisfit).toBe(report.stages[0].startMisfit);
+    expect(Math.abs(table[0].finalModelMisfit / report.stages[0].endMisfit - 1)).toBeLessThan(1e-9);
+    expect(table[0].ratio).toBeCloseTo(table[0].finalModelMisfit / table[0].startModelMisfit, 12);
   });
 
   it("resumes after an interruption at the next iteration and ends with the same model, bit for bit", { timeout: 180_000 }, async () => {
