@@ -55,7 +55,13 @@ const stageSchema = z.object({
     .enum(MEASURES)
     .default("normalised-correlation")
     .describe('Misfit measure: "least-squares", "trace-normalised-least-squares", "normalised-correlation" (Choi & Alkhalifah 2012; blind to amplitude), "envelope" (Bozdağ et al. 2011)'),
-  iterations: z.number().int().min(1).max(200).default(8).describe("Most L-BFGS iterations in this stage"),
+  iterations: z
+    .number()
+    .int()
+    .min(0)
+    .max(200)
+    .default(8)
+    .describe("Most L-BFGS iterations in this stage (0: only measure the model in this stage's band, change nothing)"),
   stopBelowRelativeChange: z
     .number()
     .min(0)
@@ -447,6 +453,15 @@ export const waveformInversionStep = defineStep({
         }
         const record = state.stageRecords[state.stageRecords.length - 1];
         const param = state.parameterisation;
+        if (stage.iterations === 0) {
+          // A stage that only measures: its start is recorded, the model goes on unchanged.
+          record.stoppedBy = "no iterations asked";
+          state.stage++;
+          state.parameterisation = null;
+          state.lbfgs = null;
+          ctx.saveCheckpoint(state);
+          continue;
+        }
         for (;;) {
           throwIfAborted(ctx.signal);
           const t0 = Date.now();

@@ -151,6 +151,17 @@ describe("waveform-inversion step", () => {
     expect(Buffer.from(resumed.outputs.model!.vs.buffer).equals(Buffer.from(whole.outputs.model!.vs.buffer))).toBe(true);
   });
 
+  it("with 0 iterations only measures: the model comes back unchanged and the measure table scores it", { timeout: 120_000 }, async () => {
+    const res = await waveformInversionStep.run({ gathers: observed, model: background }, settings(0), context(pool));
+    expect(Buffer.from(res.outputs.model!.vs.buffer).equals(Buffer.from(background.vs.buffer))).toBe(true);
+    const data = res.outputs.report!.data as { iterations: number; stages: Array<{ startMisfit: number; endMisfit: number }>; measureTable: Array<{ startModelMisfit: number; finalModelMisfit: number }> };
+    expect(data.iterations).toBe(0);
+    expect(data.stages[0].endMisfit).toBe(data.stages[0].startMisfit);
+    expect(data.stages[0].startMisfit).toBeGreaterThan(0);
+    // Start and final model are the same model: the same score.
+    expect(data.measureTable[0].finalModelMisfit).toBe(data.measureTable[0].startModelMisfit);
+  });
+
   it("keeps Vs where the grid carries the stage's band (at least 5 points per shortest S wavelength) instead of failing half way", { timeout: 120_000 }, async () => {
     // A starting cell slower than a 0.25 m grid carries at a 60 Hz low-pass: the solver's accuracy
     // check (5 points per wavelength, common practice) would refuse it; the stage raises it instead.
