@@ -22,9 +22,10 @@ import fs from "node:fs";
 import path from "node:path";
 import { z } from "zod";
 import type { Db } from "../db/client";
-import { ensureDataset } from "../db/queries/datasets";
+import { ensureDataset, getDataset, listDatasetFiles } from "../db/queries/datasets";
 import {
   countReceivingFiles,
+  findKeptContent,
   findProfilePipelineVersion,
   getProfileWithSurvey,
   getUploadFileByTransfer,
@@ -272,6 +273,44 @@ export async function checkArrivedFile(db: Db, transferId: string, filePath: str
   return recorded;
 }
 
+/** Puts `source` at `target` as a hard link (a copy across file systems), replacing what was there. */
+function placeFile(source: string, target: string): void {
+  if (fs.existsSync(target)) fs.rmSync(target);
+  try {
+    fs.linkSync(source, target);
+  } catch {
+    fs.copyFileSync(source, target);
+  }
+}
+
+/**
+ * Puts back files that have gone from the folder of a dataset made from an upload (the folder
+ * cleared to save space, say), each from where its content was kept (the object store or the data
+ * folder's content) and checked against its SHA-256 on the way. The runner calls it before it
+ * reads a dataset's files; a folder outside <data>/uploads is never written (it is the crew's),
+ * and a file present is left to the runner's own hash check. Returns the names put back.
+ *
+ * @throws ObjectStoreError when the object store fails while a file is fetched
+ */
+export async function restoreUploadedDataset(db: Db, datasetId: number): Promise<string[]> {
+  const ds = getDataset(db, datasetId);
+  if (!ds?.folderPath) return [];
+  const rel = path.relative(uploadsDir(), ds.folderPath);
+  if (rel === "" || rel.startsWith("..") || path.isAbsolute(rel)) return [];
+  const restored: string[] = [];
+  for (const f of listDatasetFiles(db, datasetId)) {
+    const target = path.join(ds.folderPath, f.name);
+    if (fs.existsSync(target)) continue;
+    const location = findKeptContent(db, f.sha256);
+    if (!location) continue; // the runner then names the file that has gone
+    const source = await localContentFile(f.sha256, location);
+    fs.mkdirSync(ds.folderPath, { recursive: true });
+    placeFile(source, target);
+    restored.push(f.name);
+  }
+  return restored;
+}
+
 /** What completing an upload made. */
 export interface CompletedUpload {
   datasetId: number;
@@ -312,16 +351,7 @@ export async function completeUpload(db: Db, sessionId: number, actor: Actor, op
   const p = getProfileWithSurvey(db, session.profileId)!;
   const folder = uploadFolder(session.profileId, sessionId);
   fs.mkdirSync(folder, { recursive: true });
-  for (const [i, f] of accepted.entries()) {
-    const target = path.join(folder, f.name);
-    if (fs.existsSync(target)) fs.rmSync(target);
-    const source = sources[i];
-    try {
-      fs.linkSync(source, target);
-    } catch {
-      fs.copyFileSync(source, target);
-    }
-  }
+  for (const [i, f] of accepted.entries()) placeFile(sources[i], path.join(folder, f.name));
   const scanned = scanFolder(folder);
   const dataset = ensureDataset(db, {
     folderPath: folder,

@@ -1,5 +1,5 @@
 /** Uploads of field files from the browser: sessions per profile and the files sent in them. */
-import { and, desc, eq, inArray, ne, sql } from "drizzle-orm";
+import { and, desc, eq, inArray, isNotNull, ne, sql } from "drizzle-orm";
 import { writeTransaction, type Db } from "../client";
 import { RecordError } from "../errors";
 import { datasets, pipelines, pipelineVersions, profiles, runs, surveys, uploadFiles, uploadSessions } from "../schema";
@@ -262,4 +262,17 @@ export function findProfilePipelineVersion(db: Db, profileId: number): { id: num
     if (profile === p.profile.name) return { id: r.id, name: r.name, version: r.version };
   }
   return null;
+}
+
+/** Where accepted content with this SHA-256 was kept (the latest upload that brought it), or null. */
+export function findKeptContent(db: Db, sha256: string): string | null {
+  return (
+    db
+      .select({ storedPath: uploadFiles.storedPath })
+      .from(uploadFiles)
+      .where(and(eq(uploadFiles.sha256, sha256), eq(uploadFiles.verdict, "accepted"), isNotNull(uploadFiles.storedPath)))
+      .orderBy(desc(uploadFiles.id))
+      .limit(1)
+      .get()?.storedPath ?? null
+  );
 }

@@ -27,7 +27,10 @@ import {
   objectStoreSettings,
   s3Store,
 } from "../../pipeline/field-file-store";
-import { admitFile, checkArrivedFile, checkFieldFileBytes, completeUpload, openUpload, transfersDir, uploadFolder, type UploadLimits } from "../../pipeline/uploads";
+import { admitFile, checkArrivedFile, checkFieldFileBytes, completeUpload, openUpload, restoreUploadedDataset, transfersDir, uploadFolder, type UploadLimits } from "../../pipeline/uploads";
+import { createRun } from "../../pipeline/run-create";
+import { executeRun } from "../../pipeline/runner";
+import { getRun } from "../../db/queries/runs";
 import { startLocalS3, type LocalS3 } from "../../scripts/local-s3";
 import { registerEngineTestSteps } from "../helpers/engine-steps";
 import { mulberry32 } from "../helpers/random";
@@ -211,6 +214,30 @@ describe("an upload kept in the object store", () => {
     await client.send(new PutObjectCommand({ Bucket: s3.bucket, Key: key, Body: Buffer.from(d), Metadata: { sha256: sha(d) } }));
     const ok = await completeUpload(db, second.id, actor);
     expect(ok.files).toBe(2);
+  });
+});
+
+describe("the engine reading a dataset made from stored files", () => {
+  it("puts back files gone from the dataset's folder, fetched from the object store, before the run reads them", async () => {
+    const s = openUpload(db, profileId, actor);
+    const g = seg2(40);
+    const h = seg2(41);
+    await send(s.id, "sp05-b1.sg2", g);
+    await send(s.id, "sp05-b2.sg2", h);
+    const done = await completeUpload(db, s.id, actor);
+    const folder = getDataset(db, done.datasetId)!.folderPath;
+    const file = path.join(tmp, "store-import.yaml");
+    fs.writeFileSync(file, `name: store-import\nsurvey: store-site\nprofile: L1\nfieldData: ${folder}\nsteps:\n  - step: import-records\n`);
+    const { runId } = createRun(db, { source: "pipeline-file", pipelinePath: file, actor });
+    expect(getRun(db, runId)!.datasetId).toBe(done.datasetId);
+    // The folder and the data folder's copies are cleared: only the object store has the bytes.
+    fs.rmSync(folder, { recursive: true });
+    for (const b of [g, h]) fs.rmSync(contentFilePath(sha(b)));
+    const outcome = await executeRun(db, runId);
+    expect(outcome).toMatchObject({ status: "succeeded" });
+    for (const [name, b] of [["sp05-b1.sg2", g], ["sp05-b2.sg2", h]] as const) expect(sha(fs.readFileSync(path.join(folder, name)))).toBe(sha(b));
+    // A whole folder needs nothing.
+    expect(await restoreUploadedDataset(db, done.datasetId)).toEqual([]);
   });
 });
 
