@@ -239,9 +239,9 @@ export function checkFieldFileBytes(name: string, bytes: Uint8Array): ArrivalChe
  * refused) is recorded as refused with the store's message, which names the setting and the object
  * key: it never becomes part of a dataset, and the crew can send it again once the store answers.
  *
- * @param store where accepted content is kept. @default the store the settings choose ({@link fieldFileStore})
+ * @param store where accepted content is kept. @default the store the settings choose ({@link fieldFileStore}); wrong settings refuse the file with their message
  */
-export async function checkArrivedFile(db: Db, transferId: string, filePath: string, store: FieldFileStore = fieldFileStore()): Promise<UploadFileRow> {
+export async function checkArrivedFile(db: Db, transferId: string, filePath: string, store?: FieldFileStore): Promise<UploadFileRow> {
   const file = getUploadFileByTransfer(db, transferId);
   if (!file) throw new AppError("not-found", `No upload file for transfer ${transferId}`);
   const bytes = fs.readFileSync(filePath);
@@ -254,9 +254,11 @@ export async function checkArrivedFile(db: Db, transferId: string, filePath: str
   if (check.ok) {
     // Kept before the verdict is recorded, so an accepted file always has its content kept.
     try {
-      storedPath = (await store.keep(sha256, filePath)).location;
+      storedPath = (await (store ?? fieldFileStore()).keep(sha256, filePath)).location;
     } catch (err) {
-      if (!(err instanceof ObjectStoreError)) throw err;
+      // The store failing, or its settings wrong (named by objectStoreSettings), refuse this file only.
+      const badSetting = err instanceof AppError && err.code === "bad-input" && (err.details.field ?? "").startsWith("TRACEWRIGHT_OBJECT_STORE_");
+      if (!(err instanceof ObjectStoreError) && !badSetting) throw err;
       console.error(`[uploads] ${file.name} not kept: ${err.message}`);
       check = { ok: false, format: check.format, message: `${file.name}: checked and good, but not kept: ${err.message}; send it again once the store answers`, byteOffset: null };
     }

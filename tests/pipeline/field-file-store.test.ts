@@ -259,6 +259,16 @@ describe("failures of the store", () => {
     await expect(completeUpload(db, s.id, actor)).rejects.toThrow(/no accepted file/);
   });
 
+  it("a setting left out: the file is refused with the setting's name, and the others of the upload are not disturbed", async () => {
+    const s = openUpload(db, profileId, actor);
+    useSettings({ TRACEWRIGHT_OBJECT_STORE_BUCKET: "" });
+    const row = await send(s.id, "sp06-b1.sg2", seg2(50));
+    expect(row).toMatchObject({ verdict: "refused", storedPath: null });
+    expect(row.message).toBe("sp06-b1.sg2: checked and good, but not kept: TRACEWRIGHT_OBJECT_STORE_BUCKET must name the bucket when TRACEWRIGHT_OBJECT_STORE_URL is set; send it again once the store answers");
+    useSettings();
+    expect((await send(s.id, "sp06-b2.sg2", seg2(51))).verdict).toBe("accepted");
+  });
+
   it("a bucket that does not exist, and an address where nothing listens, are named with their setting and the key", async () => {
     const e = seg2(21);
     const file = path.join(tmp, "e.sg2");
