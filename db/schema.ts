@@ -540,10 +540,13 @@ export const uploadFiles = sqliteTable(
     sizeBytes: integer("size_bytes").notNull(),
     /** Bytes the server received for it over every request (a resumed transfer sends none twice). */
     receivedBytes: integer("received_bytes").notNull().default(0),
+    /** When the server last received bytes for it (null: none yet); an idle transfer expires from here. */
+    lastReceivedAt: integer("last_received_at", { mode: "timestamp_ms" }),
     sha256: text("sha256"),
     /** Format told from the bytes: "seg2", "segy", "geometry-table". */
     format: text("format"),
-    verdict: text("verdict", { enum: ["receiving", "accepted", "duplicate", "refused"] }).notNull().default("receiving"),
+    /** "expired": a transfer that received no byte for TRACEWRIGHT_UPLOAD_STALE_HOURS, its partial file removed. */
+    verdict: text("verdict", { enum: ["receiving", "accepted", "duplicate", "refused", "expired"] }).notNull().default("receiving"),
     /** Why it was refused (the reader's message, with file name and byte offset) or what it duplicates. */
     message: text("message").notNull().default(""),
     /** Byte offset the reader named, for a refused binary file. */

@@ -13,6 +13,7 @@ export type AppErrorCode =
   | "conflict" // the state does not allow it (e.g. rerun of a running run)
   | "step-failed" // a step threw while running
   | "cancelled" // the run was cancelled
+  | "store-unavailable" // the object store refused or could not be reached; names the setting and the key
   | "internal"; // a bug: logged with its cause, shown as a short message
 
 const EXIT: Record<AppErrorCode, number> = {
@@ -23,6 +24,7 @@ const EXIT: Record<AppErrorCode, number> = {
   conflict: 2,
   "step-failed": 1,
   cancelled: 1,
+  "store-unavailable": 1,
   internal: 1,
 };
 
@@ -34,6 +36,7 @@ const HTTP: Record<AppErrorCode, number> = {
   conflict: 409,
   "step-failed": 500,
   cancelled: 409,
+  "store-unavailable": 503,
   internal: 500,
 };
 

@@ -85,13 +85,32 @@ export function editedFileLabel(model: Pick<EditedPipeline, "name">): string {
   return `${model.name}.yaml`;
 }
 
+/** Several problems of an edited pipeline, found in one check; `problems` in file order, the first one's code, message and field. */
+export class PipelineProblems extends AppError {
+  readonly problems: AppError[];
+  constructor(problems: AppError[]) {
+    const [first] = problems;
+    super(first.code, `${first.message} (and ${problems.length - 1} more problem${problems.length === 2 ? "" : "s"})`, first.details);
+    this.name = "PipelineProblems";
+    this.problems = problems;
+  }
+}
+
 /**
  * Validates an editor model the way the command line validates a pipeline file: its YAML through
- * parsePipelineText. Throws the same AppError (file, line, field) the command line prints.
+ * parsePipelineText, which goes on after the first error to find the others. One problem is thrown
+ * as the very AppError (file, line, field) the command line prints; several as
+ * {@link PipelineProblems} holding each of them.
  */
 export function validateEditedPipeline(model: EditedPipeline, baseDir: string = process.cwd()): { yaml: string; resolved: ResolvedPipeline } {
   const yaml = pipelineYaml(model);
-  return { yaml, resolved: parsePipelineText(yaml, editedFileLabel(model), baseDir) };
+  const problems: AppError[] = [];
+  try {
+    return { yaml, resolved: parsePipelineText(yaml, editedFileLabel(model), baseDir, { errors: problems }) };
+  } catch (err) {
+    if (problems.length > 1) throw new PipelineProblems(problems);
+    throw err;
+  }
 }
 
 /** A field error of an edited pipeline: the field as pipeline-file errors name it (`steps[4].settings.highCutHz`), the problem, the whole message. */
@@ -109,6 +128,12 @@ export function editFieldError(err: unknown): EditFieldError | null {
   if (!field) return null;
   const at = e.message.indexOf(`${field}: `);
   return { field, problem: at >= 0 ? e.message.slice(at + field.length + 2) : e.message, message: e.message, line: e.details.line };
+}
+
+/** Every field error of a failed validation (several for {@link PipelineProblems}), in file order; empty when none names a field. */
+export function editFieldErrors(err: unknown): EditFieldError[] {
+  const all = err instanceof PipelineProblems ? err.problems : [err];
+  return all.map(editFieldError).filter((f): f is EditFieldError => f !== null);
 }
 
 // ---------------------------------------------------------------------------------------------

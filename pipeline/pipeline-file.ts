@@ -105,11 +105,21 @@ function expectedFromIssue(issue: z.core.$ZodIssue): string {
   return issue.message;
 }
 
+/** Ends the check of one step after its errors were collected (never leaves parsePipelineText). */
+class StepChecked extends Error {}
+
 /**
  * Parses and validates pipeline text. `fileLabel` names the file in errors; `baseDir` resolves
  * relative paths. Throws AppError("bad-input") naming file, line and field.
+ *
+ * With `opts.errors`, the check goes on after an error to find the others: every issue of the
+ * top-level schema, and then each step's (every settings issue of a step; a step with an error is
+ * taken as writing its slots, so later steps are not blamed for it). They are pushed there in file
+ * order and the first is thrown, as without the option. A file that is not YAML, or not a mapping,
+ * stops at that error.
  */
-export function parsePipelineText(text: string, fileLabel: string, baseDir: string): ResolvedPipeline {
+export function parsePipelineText(text: string, fileLabel: string, baseDir: string, opts: { errors?: AppError[] } = {}): ResolvedPipeline {
+  const sink = opts.errors;
   const counter = new LineCounter();
   const doc = parseDocument(text, { lineCounter: counter, prettyErrors: false, uniqueKeys: true });
   if (doc.errors.length > 0) {
@@ -138,13 +148,13 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
       line: 1,
     });
   }
-  const fail = (parts: ReadonlyArray<PropertyKey>, message: string, expected?: string, choices?: string[], useKeyLine = false): never => {
+  const problem = (parts: ReadonlyArray<PropertyKey>, message: string, expected?: string, choices?: string[], useKeyLine = false): AppError => {
     const parent = parts.slice(0, -1);
     const last = parts[parts.length - 1];
     const line =
       useKeyLine && typeof last === "string" ? keyLine(doc, counter, parent, last) : lineOf(doc, counter, parts);
     const field = fieldName(parts);
-    throw new AppError("bad-input", `${fileLabel}${line ? ` line ${line}` : ""}, ${field || "top level"}: ${message}`, {
+    return new AppError("bad-input", `${fileLabel}${line ? ` line ${line}` : ""}, ${field || "top level"}: ${message}`, {
       file: fileLabel,
       line,
       field,
@@ -152,15 +162,16 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
       choices,
     });
   };
-
-  const top = pipelineFileSchema.safeParse(raw);
-  if (!top.success) {
-    const issue = top.error.issues[0];
-    if (issue.code === "unrecognized_keys") {
+  const fail: Fail = (parts, message, expected, choices, useKeyLine) => {
+    throw problem(parts, message, expected, choices, useKeyLine);
+  };
+  /** The error of one schema issue at `prefix` (an unknown key is named with the valid ones). */
+  const issueProblem = (issue: z.core.$ZodIssue, prefix: ReadonlyArray<PropertyKey> = []): AppError => {
+    if (issue.code === "unrecognized_keys" && prefix.length === 0) {
       const valid = Object.keys(pipelineFileSchema.shape);
       const stepKeys = Object.keys(stepEntrySchema.shape);
       const inStep = issue.path.length >= 2 && issue.path[0] === "steps";
-      fail(
+      return problem(
         [...issue.path, issue.keys[0]],
         `unknown key "${issue.keys[0]}"; valid keys: ${(inStep ? stepKeys : valid).join(", ")}`,
         undefined,
@@ -168,14 +179,21 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
         true,
       );
     }
-    fail(issue.path, expectedFromIssue(issue), issue.message);
+    return problem([...prefix, ...issue.path], expectedFromIssue(issue), issue.message);
+  };
+
+  const top = pipelineFileSchema.safeParse(raw);
+  if (!top.success) {
+    const all = top.error.issues.map((issue) => issueProblem(issue));
+    if (sink) sink.push(...all);
+    throw all[0];
   }
-  const file = top.data!;
+  const file = top.data;
 
   const known = new Set<SlotName>(RUNNER_SLOTS.filter((s) => (s === "geometryTable" ? !!file.geometryTable : !!file.fieldData)));
   const labels = new Set<string>();
   const earlier: Array<{ label: string; stepId: string; writes: SlotName[] }> = [];
-  const steps: ResolvedStep[] = file.steps.map((entry, i) => {
+  const checkStep = (entry: (typeof file.steps)[number], i: number): ResolvedStep => {
     let step;
     try {
       step = getStep(entry.step);
@@ -212,8 +230,10 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
     }
     const parsed = step.params.safeParse(settings);
     if (!parsed.success) {
-      const issue = parsed.error.issues[0];
-      fail(["steps", i, "settings", ...issue.path], expectedFromIssue(issue), issue.message);
+      const all = parsed.error.issues.map((issue: z.core.$ZodIssue) => issueProblem(issue, ["steps", i, "settings"]));
+      if (!sink) throw all[0];
+      sink.push(...all);
+      throw new StepChecked();
     }
     const inputs = entry.input ? resolveInputs(entry.input, i, step, earlier, file.steps, fail) : undefined;
     for (const slot of step.reads) {
@@ -231,7 +251,28 @@ export function parsePipelineText(text: string, fileLabel: string, baseDir: stri
     earlier.push({ label, stepId: step.id, writes: step.writes });
     const resolvedStep: ResolvedStep = { label, stepId: step.id, version: step.version, params: parsed.data as Record<string, unknown> };
     return inputs ? { ...resolvedStep, inputs } : resolvedStep;
+  };
+  const steps: ResolvedStep[] = file.steps.map((entry, i) => {
+    if (!sink) return checkStep(entry, i);
+    try {
+      return checkStep(entry, i);
+    } catch (err) {
+      if (err instanceof AppError) sink.push(err);
+      else if (!(err instanceof StepChecked)) throw err;
+      // Taken as done: its label is used and its slots written, so later steps are checked as they would be.
+      const label = entry.label ?? entry.step;
+      labels.add(label);
+      try {
+        const step = getStep(entry.step);
+        for (const slot of step.writes) known.add(slot);
+        if (!earlier.some((e) => e.label === label)) earlier.push({ label, stepId: step.id, writes: step.writes });
+      } catch {
+        // an unknown step writes nothing
+      }
+      return null as unknown as ResolvedStep;
+    }
   });
+  if (sink && sink.length > 0) throw sink[0];
 
   return {
     name: file.name,

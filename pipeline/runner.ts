@@ -23,6 +23,7 @@ import { snapshotGeometryTable } from "./run-create";
 import { abortError, claimRun, RUN_CANCELLED_MESSAGE } from "./run-lease";
 import { computeStep, reuseCachedResult, type RunScope } from "./run-step";
 import { loadFieldFiles, SlotTable } from "./slots";
+import { restoreUploadedDataset } from "./uploads";
 import { sharedWorkerPool, type WorkerPool } from "./workers/pool";
 import type { RunEvents } from "./run-step";
 import { localShotExecutor } from "./workers/shot-executor";
@@ -83,6 +84,9 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   const slots = new SlotTable();
   let outcome: RunOutcome = { runId, status: "succeeded" };
   try {
+    // A dataset made from an upload whose folder lost files gets them back from where they were kept.
+    const restored = definition.fieldDataPath !== null ? await restoreUploadedDataset(db, run.datasetId) : [];
+    if (restored.length > 0) runLog.info(`${restored.length} field file${restored.length === 1 ? "" : "s"} of dataset ${run.datasetId} put back from the uploads' store: ${restored.join(", ")}`);
     fillRunnerSlots(db, run, definition, slots);
     runLog.info(`run ${runId} started: ${title}, ${steps.length} steps`);
     for (const row of steps) {

@@ -7,11 +7,14 @@
  *   the bytes (SEG-2 ID, SEG-Y binary header, else text read as a geometry table), a malformed
  *   file is refused with the reader's message (file name and byte offset, or line), a file whose
  *   content another file of the upload has is recorded as a duplicate and not kept twice;
- * - storage: accepted content is kept once, content-addressed, under <data>/uploads/content/
- *   (a file another upload already brought is not written again);
- * - completion: the accepted files become one folder of hard links
+ * - storage: accepted content is kept once, content-addressed by SHA-256, in the field-file store
+ *   (pipeline/field-file-store.ts): under <data>/uploads/content/ by default, in an S3-compatible
+ *   object store when TRACEWRIGHT_OBJECT_STORE_URL is set (a file already kept is not written again);
+ * - completion: the accepted files (fetched back from the object store into the data folder's copy
+ *   and checked against their hashes, when they are kept there) become one folder of hard links
  *   (<data>/uploads/profile-<id>/upload-<id>/), registered as one dataset with the same content
  *   hash as any folder, and the profile's pipeline, if it has one, is queued on it by createRun.
+ *   A store that fails while the files are fetched leaves the upload open and makes nothing.
  *
  * The resumable transfer itself (tus protocol) is the route handler's: it hands finished files here.
  */
@@ -19,9 +22,10 @@ import fs from "node:fs";
 import path from "node:path";
 import { z } from "zod";
 import type { Db } from "../db/client";
-import { ensureDataset } from "../db/queries/datasets";
+import { ensureDataset, getDataset, listDatasetFiles } from "../db/queries/datasets";
 import {
   countReceivingFiles,
+  findKeptContent,
   findProfilePipelineVersion,
   getProfileWithSurvey,
   getUploadFileByTransfer,
@@ -40,8 +44,9 @@ import {
 import { RecordError } from "../db/errors";
 import type { Actor } from "../db/queries/audit";
 import { dataDir } from "../db/paths";
-import { hashFile, isIgnoredName, scanFolder } from "./dataset-folder";
+import { isIgnoredName, scanFolder } from "./dataset-folder";
 import { AppError, FileFormatError, toAppError } from "./errors";
+import { fieldFileStore, localContentFile, ObjectStoreError, type FieldFileStore } from "./field-file-store";
 import { sha256Hex } from "./hash";
 import { isSeg2 } from "./io/seg2";
 import { looksLikeSegy } from "./io/segy";
@@ -122,11 +127,6 @@ export function uploadsDir(): string {
 /** Where transfers in progress are written (the tus file store's folder). */
 export function transfersDir(): string {
   return path.join(uploadsDir(), "transfers");
-}
-
-/** Relative path (to the data folder) of kept content with this SHA-256. */
-function contentPath(sha256: string): string {
-  return path.join("uploads", "content", sha256.slice(0, 2), sha256);
 }
 
 /** The folder an upload's accepted files become, as a dataset. */
@@ -233,19 +233,36 @@ export function checkFieldFileBytes(name: string, bytes: Uint8Array): ArrivalChe
 
 /**
  * Checks a finished transfer (the file at `filePath`) and records its verdict: accepted (content
- * kept once under uploads/content/), duplicate (same content as another file of the upload, not
- * kept) or refused (the reader's message). The transfer's file is moved or removed either way.
+ * kept once in the field-file store), duplicate (same content as another file of the upload, not
+ * kept twice) or refused (the reader's message). The transfer's file is moved or removed either
+ * way. A good file the store could not take (object store unreachable, bucket missing, credentials
+ * refused) is recorded as refused with the store's message, which names the setting and the object
+ * key: it never becomes part of a dataset, and the crew can send it again once the store answers.
+ *
+ * @param store where accepted content is kept. @default the store the settings choose ({@link fieldFileStore}); wrong settings refuse the file with their message
  */
-export function checkArrivedFile(db: Db, transferId: string, filePath: string): UploadFileRow {
+export async function checkArrivedFile(db: Db, transferId: string, filePath: string, store?: FieldFileStore): Promise<UploadFileRow> {
   const file = getUploadFileByTransfer(db, transferId);
   if (!file) throw new AppError("not-found", `No upload file for transfer ${transferId}`);
   const bytes = fs.readFileSync(filePath);
   const sha256 = sha256Hex(bytes);
-  const check: ArrivalCheck =
+  let check: ArrivalCheck =
     bytes.length !== file.sizeBytes
       ? { ok: false, format: null, message: `${file.name}: ${bytes.length} bytes arrived, ${file.sizeBytes} announced`, byteOffset: bytes.length }
       : checkFieldFileBytes(file.name, bytes);
-  const storedPath = check.ok ? contentPath(sha256) : null;
+  let storedPath: string | null = null;
+  if (check.ok) {
+    // Kept before the verdict is recorded, so an accepted file always has its content kept.
+    try {
+      storedPath = (await (store ?? fieldFileStore()).keep(sha256, filePath)).location;
+    } catch (err) {
+      // The store failing, or its settings wrong (named by objectStoreSettings), refuse this file only.
+      const badSetting = err instanceof AppError && err.code === "bad-input" && (err.details.field ?? "").startsWith("TRACEWRIGHT_OBJECT_STORE_");
+      if (!(err instanceof ObjectStoreError) && !badSetting) throw err;
+      console.error(`[uploads] ${file.name} not kept: ${err.message}`);
+      check = { ok: false, format: check.format, message: `${file.name}: checked and good, but not kept: ${err.message}; send it again once the store answers`, byteOffset: null };
+    }
+  }
   const recorded = recordUploadVerdict(db, transferId, {
     sha256,
     format: check.format,
@@ -254,18 +271,46 @@ export function checkArrivedFile(db: Db, transferId: string, filePath: string): 
     byteOffset: check.ok ? null : check.byteOffset,
     storedPath,
   });
-  if (recorded.verdict === "accepted" && recorded.storedPath) {
-    const target = path.join(dataDir(), recorded.storedPath);
-    if (fs.existsSync(target) && hashFile(target) === sha256) {
-      fs.rmSync(filePath, { force: true });
-    } else {
-      fs.mkdirSync(path.dirname(target), { recursive: true });
-      fs.renameSync(filePath, target);
-    }
-  } else {
-    fs.rmSync(filePath, { force: true });
-  }
+  fs.rmSync(filePath, { force: true });
   return recorded;
+}
+
+/** Puts `source` at `target` as a hard link (a copy across file systems), replacing what was there. */
+function placeFile(source: string, target: string): void {
+  if (fs.existsSync(target)) fs.rmSync(target);
+  try {
+    fs.linkSync(source, target);
+  } catch {
+    fs.copyFileSync(source, target);
+  }
+}
+
+/**
+ * Puts back files that have gone from the folder of a dataset made from an upload (the folder
+ * cleared to save space, say), each from where its content was kept (the object store or the data
+ * folder's content) and checked against its SHA-256 on the way. The runner calls it before it
+ * reads a dataset's files; a folder outside <data>/uploads is never written (it is the crew's),
+ * and a file present is left to the runner's own hash check. Returns the names put back.
+ *
+ * @throws ObjectStoreError when the object store fails while a file is fetched
+ */
+export async function restoreUploadedDataset(db: Db, datasetId: number): Promise<string[]> {
+  const ds = getDataset(db, datasetId);
+  if (!ds?.folderPath) return [];
+  const rel = path.relative(uploadsDir(), ds.folderPath);
+  if (rel === "" || rel.startsWith("..") || path.isAbsolute(rel)) return [];
+  const restored: string[] = [];
+  for (const f of listDatasetFiles(db, datasetId)) {
+    const target = path.join(ds.folderPath, f.name);
+    if (fs.existsSync(target)) continue;
+    const location = findKeptContent(db, f.sha256);
+    if (!location) continue; // the runner then names the file that has gone
+    const source = await localContentFile(f.sha256, location);
+    fs.mkdirSync(ds.folderPath, { recursive: true });
+    placeFile(source, target);
+    restored.push(f.name);
+  }
+  return restored;
 }
 
 /** What completing an upload made. */
@@ -282,13 +327,15 @@ export interface CompletedUpload {
 /**
  * Marks an upload complete: its accepted files become one folder and one dataset (content hash
  * as for any folder), and the profile's pipeline, if it has one, is queued on it with createRun.
- * Refused and duplicate files are not part of it. Executing the queued run is the caller's
- * (the control room hands it to a background engine process).
+ * Refused and duplicate files are not part of it. Files kept in the object store are fetched into
+ * the data folder's copy first (each checked against its SHA-256); a failure there throws before
+ * anything is made, and the upload stays open. Executing the queued run is the caller's (the
+ * control room hands it to a background engine process).
  *
  * @param opts.leaveOutUnfinished files still on their way are recorded as refused and left out, instead of refusing to complete
- * @throws AppError "conflict" when the upload is not open, files are still on their way, or no file was accepted
+ * @throws AppError "conflict" when the upload is not open, files are still on their way, or no file was accepted; ObjectStoreError when kept content cannot be fetched
  */
-export function completeUpload(db: Db, sessionId: number, actor: Actor, opts: { leaveOutUnfinished?: boolean } = {}): CompletedUpload {
+export async function completeUpload(db: Db, sessionId: number, actor: Actor, opts: { leaveOutUnfinished?: boolean } = {}): Promise<CompletedUpload> {
   const session = getUploadSession(db, sessionId);
   if (!session) throw new AppError("not-found", `Upload ${sessionId} does not exist`, { field: "sessionId" });
   if (session.state !== "open") throw new AppError("conflict", `Upload ${sessionId} is already ${session.state}`);
@@ -297,19 +344,16 @@ export function completeUpload(db: Db, sessionId: number, actor: Actor, opts: { 
   if (receiving > 0) throw new AppError("conflict", `${receiving} file${receiving === 1 ? " is" : "s are"} still being sent; wait for ${receiving === 1 ? "it" : "them"} or complete without ${receiving === 1 ? "it" : "them"}`);
   const accepted = listUploadFiles(db, sessionId).filter((f) => f.verdict === "accepted" && f.storedPath);
   if (accepted.length === 0) throw new AppError("conflict", `Upload ${sessionId} has no accepted file; nothing to make a dataset of`);
+  // Every file local and checked before anything is made: nothing half-made when the store fails.
+  const sources: string[] = [];
+  for (const f of accepted) sources.push(await localContentFile(f.sha256!, f.storedPath!));
+  // Checked again after the awaits: another request may have completed the upload meanwhile.
+  const now = getUploadSession(db, sessionId);
+  if (now?.state !== "open") throw new AppError("conflict", `Upload ${sessionId} is already ${now?.state ?? "gone"}`);
   const p = getProfileWithSurvey(db, session.profileId)!;
   const folder = uploadFolder(session.profileId, sessionId);
   fs.mkdirSync(folder, { recursive: true });
-  for (const f of accepted) {
-    const target = path.join(folder, f.name);
-    if (fs.existsSync(target)) fs.rmSync(target);
-    const source = path.join(dataDir(), f.storedPath!);
-    try {
-      fs.linkSync(source, target);
-    } catch {
-      fs.copyFileSync(source, target);
-    }
-  }
+  for (const [i, f] of accepted.entries()) placeFile(sources[i], path.join(folder, f.name));
   const scanned = scanFolder(folder);
   const dataset = ensureDataset(db, {
     folderPath: folder,

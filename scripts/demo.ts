@@ -34,6 +34,8 @@ import { latestFieldChecks } from "../db/queries/field-checks";
 import type { FieldCheckReport } from "../pipeline/steps/field-check";
 import type { JsonDocument } from "../pipeline/types";
 import { redisServerAvailable, spawnWorkerProcess, startLocalRedis } from "../pipeline/workers/local-queue";
+import { localContentFile } from "../pipeline/field-file-store";
+import { startLocalS3 } from "./local-s3";
 
 const args = new Set(process.argv.slice(2));
 const prepareOnly = args.has("--prepare-only");
@@ -329,6 +331,7 @@ async function main() {
   for (const a of accounts) say(`  ${a.role.padEnd(10)} ${a.email.padEnd(34)} ${a.password.padEnd(26)} ${a.name}`);
 
   if (prepareOnly) return;
+  await demoObjectStore(fieldDir, processor);
 
   if (buildIsStale()) {
     say("\n  building the control room (next build)...");
@@ -387,11 +390,11 @@ async function demoUploadFromTheField(fieldDir: string, processorEmail: string |
     const transferId = `demo-${session.id}-${i}`;
     admitFile(db, { sessionId: session.id, transferId, name: f.name, sizeBytes: f.bytes.length, limits });
     fs.writeFileSync(path.join(transfersDir(), transferId), f.bytes);
-    const checked = checkArrivedFile(db, transferId, path.join(transfersDir(), transferId));
+    const checked = await checkArrivedFile(db, transferId, path.join(transfersDir(), transferId));
     verdicts[checked.verdict] = (verdicts[checked.verdict] ?? 0) + 1;
     if (checked.verdict !== "accepted") say(`    ${checked.verdict}: ${checked.message}`);
   }
-  const done = completeUpload(db, session.id, actor);
+  const done = await completeUpload(db, session.id, actor);
   closeDb();
   say(`\n  upload ${session.id} to quillmoor QM-1: ${Object.entries(verdicts).map(([v, n]) => `${n} ${v}`).join(", ")}; dataset ${done.datasetId}`);
   if (done.runId !== null) {
@@ -400,6 +403,60 @@ async function demoUploadFromTheField(fieldDir: string, processorEmail: string |
     if (r.exitCode !== 0) throw new Error(`the run of the upload failed (exit ${r.exitCode})`);
   }
   say(`  the upload page: /uploads?survey=quillmoor&profile=QM-1 (processors and leads)`);
+}
+
+/**
+ * Uploads kept in an S3-compatible object store: starts s3rver (the tests' local S3) on a free
+ * loopback port, sends three records of QM-1 and a copy of one through the upload code with the
+ * object-store settings set, lists what the bucket holds (one object per content, named by its
+ * SHA-256), and fetches each back into the data folder's copy, checked against its hash, as
+ * completing the upload does. The upload is left open (completing it would queue the profile's
+ * pipeline again); its files now have local copies, so it can be completed from the upload page
+ * without the store. Not run with --prepare-only, so browser tests see no extra upload.
+ */
+async function demoObjectStore(fieldDir: string, processorEmail: string | undefined) {
+  const s3 = await startLocalS3("tracewright-demo");
+  const saved = { ...process.env };
+  Object.assign(process.env, s3.env);
+  try {
+    const db = getDb();
+    const user = processorEmail ? getUserByEmail(db, processorEmail) : null;
+    const actor = { userId: user?.id ?? null, label: user?.name ?? "field crew", door: "web" as const };
+    const session = openUpload(db, ensureSurvey(db, "quillmoor", "QM-1").profile!.id, actor);
+    const records = fs.readdirSync(fieldDir).filter((n) => n.endsWith(".sg2")).sort().slice(0, 3);
+    const files = [...records.map((name) => ({ name, bytes: fs.readFileSync(path.join(fieldDir, name)) }))];
+    if (files[0]) files.push({ name: files[0].name.replace(/\.sg2$/, " (copy).sg2"), bytes: files[0].bytes });
+    say(`\n  upload ${session.id} to the object store ${s3.url}, bucket ${s3.bucket} (s3rver, objects in ${s3.directory})`);
+    fs.mkdirSync(transfersDir(), { recursive: true });
+    const kept: { sha256: string; location: string }[] = [];
+    for (const [i, f] of files.entries()) {
+      const transferId = `demo-store-${session.id}-${i}`;
+      admitFile(db, { sessionId: session.id, transferId, name: f.name, sizeBytes: f.bytes.length, limits: uploadLimits() });
+      fs.writeFileSync(path.join(transfersDir(), transferId), f.bytes);
+      const row = await checkArrivedFile(db, transferId, path.join(transfersDir(), transferId));
+      say(`    ${f.name}: ${row.verdict}${row.storedPath ? ` → ${row.storedPath}` : ` (${row.message})`}`);
+      if (row.verdict === "accepted" && row.sha256 && row.storedPath) kept.push({ sha256: row.sha256, location: row.storedPath });
+    }
+    closeDb();
+    const { S3Client, ListObjectsV2Command } = await import("@aws-sdk/client-s3");
+    const client = new S3Client({
+      endpoint: s3.url,
+      region: "us-east-1",
+      forcePathStyle: true,
+      credentials: { accessKeyId: s3.accessKeyId, secretAccessKey: s3.secretAccessKey },
+      requestChecksumCalculation: "WHEN_REQUIRED",
+      responseChecksumValidation: "WHEN_REQUIRED",
+    });
+    const listed = await client.send(new ListObjectsV2Command({ Bucket: s3.bucket }));
+    client.destroy();
+    say(`    the bucket holds ${listed.KeyCount ?? 0} objects for ${files.length} files sent:`);
+    for (const o of listed.Contents ?? []) say(`      ${o.Key}  ${o.Size} bytes`);
+    for (const k of kept) await localContentFile(k.sha256, k.location);
+    say(`    fetched back into ${path.join(dataDir(), "uploads", "content")}, each checked against its SHA-256; settings: ${Object.keys(s3.env).join(", ")}`);
+  } finally {
+    process.env = saved;
+    await s3.stop();
+  }
 }
 
 /**

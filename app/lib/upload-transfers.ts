@@ -61,7 +61,7 @@ function transferServer(): Server {
     },
     async onUploadFinish(_req, upload) {
       try {
-        const file = checkArrivedFile(getDb(), upload.id, path.join(dir, upload.id));
+        const file = await checkArrivedFile(getDb(), upload.id, path.join(dir, upload.id));
         fs.rmSync(path.join(dir, `${upload.id}.json`), { force: true });
         return {
           status_code: 200,

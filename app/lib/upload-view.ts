@@ -1,6 +1,6 @@
 /** What the upload page and GET /api/upload-sessions/:id show of an upload (JSON-safe, no database types). */
 
-export type UploadVerdictName = "receiving" | "accepted" | "duplicate" | "refused";
+export type UploadVerdictName = "receiving" | "accepted" | "duplicate" | "refused" | "expired";
 
 export interface UploadFileView {
   transferId: string;

@@ -1,5 +1,5 @@
 /** Uploads of field files from the browser: sessions per profile and the files sent in them. */
-import { and, desc, eq, inArray, ne, sql } from "drizzle-orm";
+import { and, desc, eq, inArray, isNotNull, ne, sql } from "drizzle-orm";
 import { writeTransaction, type Db } from "../client";
 import { RecordError } from "../errors";
 import { datasets, pipelines, pipelineVersions, profiles, runs, surveys, uploadFiles, uploadSessions } from "../schema";
@@ -76,7 +76,7 @@ export function insertUploadFile(
     const session = tx.select().from(uploadSessions).where(eq(uploadSessions.id, f.sessionId)).get();
     if (!session) throw new RecordError("not-found", `Upload ${f.sessionId} does not exist`, "sessionId");
     if (session.state !== "open") throw new RecordError("conflict", `Upload ${f.sessionId} is ${session.state}; open a new upload to send more files`, "sessionId");
-    const live = and(eq(uploadFiles.sessionId, f.sessionId), ne(uploadFiles.verdict, "refused"), ne(uploadFiles.verdict, "duplicate"));
+    const live = and(eq(uploadFiles.sessionId, f.sessionId), inArray(uploadFiles.verdict, ["receiving", "accepted"]));
     const taken = tx.select().from(uploadFiles).where(and(live, eq(uploadFiles.name, f.name))).get();
     if (taken) throw new RecordError("conflict", `${f.name}: a file of that name is already in this upload`, "name");
     const total = tx.select({ bytes: sql<number>`coalesce(sum(${uploadFiles.sizeBytes}), 0)` }).from(uploadFiles).where(live).get()?.bytes ?? 0;
@@ -97,12 +97,56 @@ export function insertRefusedUploadFile(db: Db, f: { sessionId: number; transfer
     .run();
 }
 
-/** Adds bytes received for a transfer (every request's body counted as it arrives). */
-export function addReceivedBytes(db: Db, transferId: string, bytes: number): void {
+/** Adds bytes received for a transfer (every request's body counted as it arrives) and when they came. */
+export function addReceivedBytes(db: Db, transferId: string, bytes: number, at: Date = new Date()): void {
   db.update(uploadFiles)
-    .set({ receivedBytes: sql`${uploadFiles.receivedBytes} + ${bytes}` })
+    .set({ receivedBytes: sql`${uploadFiles.receivedBytes} + ${bytes}`, lastReceivedAt: at })
     .where(eq(uploadFiles.transferId, transferId))
     .run();
+}
+
+/** Transfers still receiving whose last byte (or announcement, when none came) is older than `before`, oldest first. */
+export function listIdleTransfers(db: Db, before: Date): UploadFileRow[] {
+  return db
+    .select()
+    .from(uploadFiles)
+    .where(and(eq(uploadFiles.verdict, "receiving"), sql`coalesce(${uploadFiles.lastReceivedAt}, ${uploadFiles.createdAt}) < ${before.getTime()}`))
+    .orderBy(uploadFiles.id)
+    .all();
+}
+
+/** Transfer ids of every file still receiving (their partial files are in use). */
+export function listReceivingTransferIds(db: Db): Set<string> {
+  return new Set(
+    db
+      .select({ transferId: uploadFiles.transferId })
+      .from(uploadFiles)
+      .where(eq(uploadFiles.verdict, "receiving"))
+      .all()
+      .map((r) => r.transferId),
+  );
+}
+
+/**
+ * Marks a transfer that received nothing for too long as expired, with the audit event
+ * `upload.transfer-expired`, in one transaction. Does nothing (returns false) when the file is no
+ * longer receiving: bytes came, or another pass expired it first.
+ */
+export function expireTransfer(db: Db, fileId: number, e: { actor: Actor; at: Date; idleHours: number; message: string }): boolean {
+  return writeTransaction(db, (tx) => {
+    const file = tx.select().from(uploadFiles).where(eq(uploadFiles.id, fileId)).get();
+    if (!file || file.verdict !== "receiving") return false;
+    tx.update(uploadFiles).set({ verdict: "expired", message: e.message, checkedAt: e.at }).where(eq(uploadFiles.id, fileId)).run();
+    recordAudit(tx, {
+      actor: e.actor,
+      action: "upload.transfer-expired",
+      entityType: "upload",
+      entityId: file.sessionId,
+      before: { file: file.name, transferId: file.transferId, verdict: "receiving", receivedBytes: file.receivedBytes, sizeBytes: file.sizeBytes },
+      after: { file: file.name, transferId: file.transferId, verdict: "expired", idleHours: Math.round(e.idleHours * 10) / 10 },
+    });
+    return true;
+  });
 }
 
 /**
@@ -218,4 +262,17 @@ export function findProfilePipelineVersion(db: Db, profileId: number): { id: num
     if (profile === p.profile.name) return { id: r.id, name: r.name, version: r.version };
   }
   return null;
+}
+
+/** Where accepted content with this SHA-256 was kept (the latest upload that brought it), or null. */
+export function findKeptContent(db: Db, sha256: string): string | null {
+  return (
+    db
+      .select({ storedPath: uploadFiles.storedPath })
+      .from(uploadFiles)
+      .where(and(eq(uploadFiles.sha256, sha256), eq(uploadFiles.verdict, "accepted"), isNotNull(uploadFiles.storedPath)))
+      .orderBy(desc(uploadFiles.id))
+      .limit(1)
+      .get()?.storedPath ?? null
+  );
 }

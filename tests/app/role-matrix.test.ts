@@ -191,7 +191,7 @@ async function prepareUpload(): Promise<void> {
   admitFile(getDb(), { sessionId: fx.uploadId, transferId, name: "accepted.sg2", sizeBytes: bytes.length, limits: uploadLimits() });
   fs.mkdirSync(transfersDir(), { recursive: true });
   fs.writeFileSync(path.join(transfersDir(), transferId), bytes);
-  checkArrivedFile(getDb(), transferId, path.join(transfersDir(), transferId));
+  await checkArrivedFile(getDb(), transferId, path.join(transfersDir(), transferId));
 }
 
 async function prepareCaseAsync(key: string): Promise<void> {

@@ -32,6 +32,8 @@ import * as sessionsRoute from "@/app/api/upload-sessions/route";
 import * as sessionRoute from "@/app/api/upload-sessions/[sessionId]/route";
 import * as completeRoute from "@/app/api/upload-sessions/[sessionId]/complete/route";
 import { mulberry32 } from "../helpers/random";
+import { startLocalS3, type LocalS3 } from "@/scripts/local-s3";
+import { GetObjectCommand, S3Client } from "@aws-sdk/client-s3";
 
 const ORIGIN = "http://127.0.0.1:3000";
 const users = {} as Record<Role, { id: number; role: Role; name: string; email: string }>;
@@ -239,5 +241,56 @@ describe("who may upload", () => {
       expect(res.status).toBe(403);
     }
     expect(listUploadFiles(getDb(), sessionId)).toEqual([]);
+  });
+});
+
+describe("through the routes into an S3-compatible object store (s3rver, started here)", () => {
+  let s3: LocalS3;
+  const saved = { ...process.env };
+  beforeAll(async () => {
+    s3 = await startLocalS3("route-files");
+  }, 30_000);
+  afterAll(async () => {
+    for (const k of Object.keys(process.env)) if (k.startsWith("TRACEWRIGHT_OBJECT_STORE_")) delete process.env[k];
+    Object.assign(process.env, Object.fromEntries(Object.entries(saved).filter(([k]) => k.startsWith("TRACEWRIGHT_OBJECT_STORE_"))));
+    await s3?.stop();
+  });
+
+  const complete = (sessionId: number) =>
+    completeRoute.POST(new Request(`${ORIGIN}/api/upload-sessions/${sessionId}/complete`, { method: "POST", headers: { origin: ORIGIN, "content-type": "application/json" }, body: "{}" }), {
+      params: Promise.resolve({ sessionId: String(sessionId) }),
+    });
+
+  it("the last chunk answers the verdict once the object is stored; completion answers 503 naming the setting and the key while the store refuses, then makes the dataset", async () => {
+    Object.assign(process.env, s3.env, { TRACEWRIGHT_OBJECT_STORE_ATTEMPTS: "1" });
+    await signInAs(users.processor);
+    const sessionId = await openSession();
+    const bytes = seg2(30, 6, 400);
+    const sha = crypto.createHash("sha256").update(bytes).digest("hex");
+    const c = await announce(sessionId, "sp30-b1.sg2", bytes.length);
+    const r = await patch(c.headers.get("location")!, 0, bytes);
+    expect(r.status).toBe(200);
+    expect(await r.json()).toMatchObject({ verdict: "accepted", format: "seg2" });
+    const key = `field-files/${sha.slice(0, 2)}/${sha}`;
+    // The object's bytes, read back with the AWS SDK's own client.
+    const client = new S3Client({ endpoint: s3.url, region: "us-east-1", forcePathStyle: true, credentials: { accessKeyId: s3.accessKeyId, secretAccessKey: s3.secretAccessKey }, responseChecksumValidation: "WHEN_REQUIRED" });
+    const got = await client.send(new GetObjectCommand({ Bucket: s3.bucket, Key: key }));
+    expect(crypto.createHash("sha256").update(await got.Body!.transformToByteArray()).digest("hex")).toBe(sha);
+    client.destroy();
+    expect(listUploadFiles(getDb(), sessionId)[0].storedPath).toBe(`s3://route-files/${key}`);
+
+    process.env.TRACEWRIGHT_OBJECT_STORE_ACCESS_KEY_ID = "NOT-A-KEY";
+    const refused = await complete(sessionId);
+    expect(refused.status).toBe(503);
+    const body = (await refused.json()) as { error: { code: string; message: string } } | { code: string; message: string };
+    const text = JSON.stringify(body);
+    expect(text).toContain("TRACEWRIGHT_OBJECT_STORE_ACCESS_KEY_ID");
+    expect(text).toContain(key);
+    process.env.TRACEWRIGHT_OBJECT_STORE_ACCESS_KEY_ID = s3.accessKeyId;
+    const done = await complete(sessionId);
+    expect(done.status, await done.clone().text()).toBe(200);
+    const made = (await done.json()) as { datasetId: number; files: number };
+    const dataset = getDataset(getDb(), made.datasetId)!;
+    expect(crypto.createHash("sha256").update(fs.readFileSync(path.join(dataset.folderPath, "sp30-b1.sg2"))).digest("hex")).toBe(sha);
   });
 });

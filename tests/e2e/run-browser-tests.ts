@@ -612,6 +612,86 @@ async function main() {
       check((await page.textContent("body"))?.includes("Not allowed for your role"), "editor page not refused");
     });
 
+    await test("pipeline editor: every problem shown at its field at once; a step dragged and one moved with the keyboard are saved in that order", async () => {
+      await signIn(page, origin, account("processor").email, account("processor").password);
+      await goto(page, `${origin}/pipelines`);
+      await page.locator("[data-testid=pipeline-row-quillmoor-qm1-processing] a").click();
+      await page.waitForSelector("[data-testid=versions-table]");
+      const pipelineUrl = page.url().split("?")[0];
+      await goto(page, `${pipelineUrl}/edit`);
+      await page.waitForSelector("[data-testid=pipeline-editor]");
+      // A bad setting in each of two steps, both steps closed again before saving.
+      const setting = (label: string, name: string) => page.locator(`[data-testid=editor-step-${label}] [data-setting$='.settings.${name}'] input`);
+      await page.click("[data-testid=editor-toggle-time-window]");
+      await setting("time-window", "endMs").fill("-5");
+      await page.click("[data-testid=editor-toggle-frequency-filter]");
+      await setting("frequency-filter", "highCutHz").fill("-5");
+      await page.click("[data-testid=editor-toggle-time-window]");
+      await page.click("[data-testid=editor-toggle-frequency-filter]");
+      await page.click("[data-testid=save-pipeline]");
+      await page.waitForSelector("[data-testid=editor-error]");
+      const summary = (await page.textContent("[data-testid=editor-error]")) ?? "";
+      // The negative corner also puts lowCutHz above highCutHz: three problems in two steps.
+      const listed = await page.locator("[data-testid=editor-problem]").allTextContents();
+      check(summary.startsWith(`${listed.length} problems, each shown at its field:`) && listed.length >= 2, `not every problem: ${summary}`);
+      for (const name of ["endMs", "highCutHz"]) {
+        check(listed.some((l) => new RegExp(`quillmoor-qm1-processing\\.yaml line \\d+, steps\\[\\d+\\]\\.settings\\.${name}: `).test(l)), `${name} is not among the problems: ${listed.join(" | ")}`);
+      }
+      // Each step a problem names is opened again, with the problem beside its field.
+      check(await page.locator("[data-testid=editor-step-time-window] [data-testid$='.settings.endMs']").count(), "no error beside endMs");
+      check(await page.locator("[data-testid=editor-step-frequency-filter] [data-testid$='.settings.highCutHz']").count(), "no error beside highCutHz");
+      await shoot(page, "pipeline-editor-problems");
+
+      // A fresh editor: drag gain (last) onto line-source with the mouse.
+      await goto(page, `${pipelineUrl}/edit`);
+      await page.waitForSelector("[data-testid=pipeline-editor]");
+      const order = () => page.locator("[data-testid=editor-steps] > li").evaluateAll((els) => els.map((e) => (e.getAttribute("data-testid") ?? "").replace(/^editor-step-/, "")));
+      const start = await order();
+      // Both steps in the viewport (mouse coordinates are the viewport's).
+      await page.locator("[data-testid=editor-step-line-source]").scrollIntoViewIfNeeded();
+      await page.locator("[data-testid=editor-drag-gain]").scrollIntoViewIfNeeded();
+      const hb = (await page.locator("[data-testid=editor-drag-gain]").boundingBox())!;
+      const tb = (await page.locator("[data-testid=editor-step-line-source]").boundingBox())!;
+      await page.mouse.move(hb.x + hb.width / 2, hb.y + hb.height / 2);
+      await page.mouse.down();
+      await page.mouse.move(hb.x + hb.width / 2, hb.y + hb.height / 2 - 8, { steps: 4 });
+      await page.mouse.move(hb.x + hb.width / 2, tb.y + tb.height / 2, { steps: 20 });
+      await page.waitForTimeout(200);
+      await page.mouse.up();
+      await page.waitForTimeout(300);
+      const dragged = await order();
+      const expectDragged = [...start.filter((l) => l !== "gain")];
+      expectDragged.splice(expectDragged.indexOf("line-source"), 0, "gain");
+      check(dragged.join(",") === expectDragged.join(","), `after the drag: ${dragged.join(", ")}`);
+      // The keyboard on a handle: Space picks spectra up, the up arrow moves it one place, Space drops it.
+      await page.focus("[data-testid=editor-drag-spectra]");
+      await page.keyboard.press("Space");
+      await page.waitForTimeout(200);
+      await page.keyboard.press("ArrowUp");
+      await page.waitForTimeout(200);
+      await page.keyboard.press("Space");
+      await page.waitForTimeout(300);
+      const moved = await order();
+      const expectMoved = [...expectDragged];
+      const at = expectMoved.indexOf("spectra");
+      [expectMoved[at - 1], expectMoved[at]] = [expectMoved[at], expectMoved[at - 1]];
+      check(moved.join(",") === expectMoved.join(","), `after the keyboard move: ${moved.join(", ")}`);
+      await page.click("[data-testid=save-pipeline]");
+      await page.waitForURL(/\/pipelines\/\d+\?from=\d+&to=\d+/, { timeout: 20_000 });
+      const params = new URL(page.url()).searchParams;
+      const stepsOf = async (versionId: string | null) => {
+        const res = await page.request.get(`${origin}/api/pipeline-versions/${versionId}/yaml`);
+        check(res.ok(), `YAML of version ${versionId} answered ${res.status()}`);
+        return [...(await res.text()).matchAll(/^ {2}- step: (\S+)(?:\n {4}label: (\S+))?/gm)].map((m) => m[2] ?? m[1]);
+      };
+      const saved = await stepsOf(params.get("to"));
+      check(saved.join(",") === expectMoved.join(","), `the saved version's order: ${saved.join(", ")}`);
+      const earlier = await stepsOf(params.get("from"));
+      check(earlier.join(",") === start.join(","), `the version edited changed: ${earlier.join(", ")}`);
+      check((await page.locator("[data-testid=pipeline-diff] [data-moved=yes]").count()) >= 1, "the diff shows no moved step");
+      await shoot(page, "pipeline-editor-reordered");
+    });
+
     await test("field checks: folder list, verdict grid with letters, the planted faults as findings", async () => {
       await signIn(page, origin, account("lead").email, account("lead").password);
       await goto(page, `${origin}/field-checks`, "field checks");

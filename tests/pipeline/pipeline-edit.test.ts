@@ -19,7 +19,9 @@ import {
   describeDifference,
   diffPipelines,
   editFieldError,
+  editFieldErrors,
   editorModel,
+  PipelineProblems,
   pipelineYaml,
   savePipelineEdit,
   validateEditedPipeline,
@@ -78,6 +80,60 @@ describe("validation is the command line's", () => {
     expect(editFieldError(catchError(() => validateEditedPipeline(unknown)))!.field).toBe(`steps[${model.steps.length}].step`);
     const twice = { ...model, steps: [...model.steps, { ...model.steps.at(-1)! }] };
     expect(editFieldError(catchError(() => validateEditedPipeline(twice)))!.problem).toMatch(/used twice/);
+  });
+});
+
+describe("every problem at once", () => {
+  /** What the command line says of a pipeline file holding `model`'s text. */
+  const cliMessage = (model: ReturnType<typeof editorModel>) => {
+    const dir = fs.mkdtempSync(path.join(os.tmpdir(), "tw-edit-"));
+    const file = path.join(dir, `${model.name}.yaml`);
+    fs.writeFileSync(file, pipelineYaml(model));
+    const err = catchError(() => loadPipelineFile(file)) as AppError;
+    fs.rmSync(dir, { recursive: true, force: true });
+    return err.message;
+  };
+
+  it("finds the problems of several steps and several settings of one step, each as the command line words it alone", () => {
+    const base = editorModel(loadPipelineFile(processingFile).resolved);
+    const at = (id: string) => base.steps.findIndex((s) => s.step === id);
+    const [win, filter] = [at("time-window"), at("frequency-filter")];
+    // Each change alone, and all together.
+    const edits: Array<(m: typeof base) => void> = [
+      (m) => (m.steps[win].settings = { ...m.steps[win].settings, startMs: 0, endMs: -5 }),
+      (m) => (m.steps[filter].settings = { ...m.steps[filter].settings, lowCutHz: -4 }),
+      (m) => (m.steps[filter].settings = { ...m.steps[filter].settings, order: "four" }),
+      (m) => m.steps.push({ step: "no-such-step", label: "no-such-step", settings: {} }),
+    ];
+    const all = structuredClone(base);
+    for (const e of edits) e(all);
+    const err = catchError(() => validateEditedPipeline(all));
+    expect(err).toBeInstanceOf(PipelineProblems);
+    const problems = (err as PipelineProblems).problems;
+    expect(problems.map((p) => p.details.field)).toEqual([`steps[${win}].settings.endMs`, `steps[${filter}].settings.lowCutHz`, `steps[${filter}].settings.order`, `steps[${base.steps.length}].step`]);
+    // The settings of one step: every issue of its schema. Across steps: each message is the one
+    // the command line prints for a file with that problem only (same lines: only values differ).
+    for (const [k, e] of edits.entries()) {
+      const alone = structuredClone(base);
+      e(alone);
+      expect(problems[k].message).toBe(cliMessage(alone));
+    }
+    expect((err as PipelineProblems).message).toBe(`${problems[0].message} (and 3 more problems)`);
+    expect(editFieldErrors(err).map((f) => f.field)).toEqual(problems.map((p) => p.details.field));
+    // One problem stays the command line's error itself.
+    const one = structuredClone(base);
+    edits[0](one);
+    const single = catchError(() => validateEditedPipeline(one));
+    expect(single).not.toBeInstanceOf(PipelineProblems);
+    expect((single as AppError).message).toBe(cliMessage(one));
+  });
+
+  it("does not blame later steps for the slots of a step with a bad setting", () => {
+    const model = editorModel(loadPipelineFile(processingFile).resolved);
+    model.steps[0].settings = { ...model.steps[0].settings, onBadFile: "shrug" };
+    const err = catchError(() => validateEditedPipeline(model));
+    expect(err).not.toBeInstanceOf(PipelineProblems);
+    expect(editFieldErrors(err).map((f) => f.field)).toEqual(["steps[0].settings.onBadFile"]);
   });
 });
 

@@ -54,13 +54,13 @@ const sha = (b: Uint8Array | string) => crypto.createHash("sha256").update(b).di
 
 let transferCount = 0;
 /** Sends one file through admission and the checks on arrival, as the transfer route does. */
-function send(sessionId: number, name: string, bytes: Uint8Array, limits = roomy) {
+async function send(sessionId: number, name: string, bytes: Uint8Array, limits = roomy) {
   const transferId = `t${++transferCount}`;
   admitFile(db, { sessionId, transferId, name, sizeBytes: bytes.length, limits });
   fs.mkdirSync(transfersDir(), { recursive: true });
   const file = path.join(transfersDir(), transferId);
   fs.writeFileSync(file, bytes);
-  return checkArrivedFile(db, transferId, file);
+  return await checkArrivedFile(db, transferId, file);
 }
 
 let profileId = 0;
@@ -80,14 +80,14 @@ afterAll(() => {
 });
 
 describe("format told from the bytes", () => {
-  it("reads SEG-2 whatever the extension, and a geometry table as text", () => {
+  it("reads SEG-2 whatever the extension, and a geometry table as text", async () => {
     const named = checkFieldFileBytes("record.bin", seg2(1));
     expect(named).toMatchObject({ ok: true, format: "seg2" });
     const csv = "file,source_point,blow,source_x_m,first_channel_x_m,channel_spacing_m,channel_count\nsp01-b1.sg2,1,1,-1,0,1,3\n";
     expect(checkFieldFileBytes("geometry.dat", new TextEncoder().encode(csv))).toMatchObject({ ok: true, format: "geometry-table" });
   });
 
-  it("refuses a truncated SEG-2 file with the reader's message: file name and the byte offset of the cut data block", () => {
+  it("refuses a truncated SEG-2 file with the reader's message: file name and the byte offset of the cut data block", async () => {
     const good = seg2(2, 2); // two traces: the cut falls in the last trace's data block
     const view = new DataView(good.buffer, good.byteOffset, good.byteLength);
     // Pullan (1990): trace pointers from byte 32; trace descriptor block size X at bytes 2–3.
@@ -102,7 +102,7 @@ describe("format told from the bytes", () => {
     expect(v.message).toContain(`byte ${p2 + x2}`);
   });
 
-  it("refuses bytes that are neither SEG-2, SEG-Y nor text, naming byte 0 and what was expected", () => {
+  it("refuses bytes that are neither SEG-2, SEG-Y nor text, naming byte 0 and what was expected", async () => {
     const junk = new Uint8Array(4000);
     junk[0] = 0xff;
     junk[1] = 0x00;
@@ -111,7 +111,7 @@ describe("format told from the bytes", () => {
     if (!v.ok) expect(v.message).toMatch(/notes\.xyz: byte 0: neither a SEG-2 file nor a SEG-Y file/);
   });
 
-  it("refuses a geometry table with a bad number, naming its line", () => {
+  it("refuses a geometry table with a bad number, naming its line", async () => {
     const csv = "file,source_point,blow,source_x_m,first_channel_x_m,channel_spacing_m,channel_count\nsp01-b1.sg2,1,1,minus one,0,1,3\n";
     const v = checkFieldFileBytes("geometry.csv", new TextEncoder().encode(csv));
     expect(v.ok).toBe(false);
@@ -120,18 +120,18 @@ describe("format told from the bytes", () => {
 });
 
 describe("an upload: verdicts, duplicates, storage", () => {
-  it("keeps good files, refuses the malformed one, recognises a duplicate, and stores content once", () => {
+  it("keeps good files, refuses the malformed one, recognises a duplicate, and stores content once", async () => {
     const s = openUpload(db, profileId, actor);
     const a = seg2(10);
     const b = seg2(11);
     const broken = seg2(12).slice(0, 200);
-    expect(send(s.id, "sp01-b1.sg2", a).verdict).toBe("accepted");
-    expect(send(s.id, "sp01-b2.sg2", b).verdict).toBe("accepted");
-    const refused = send(s.id, "sp01-b3.sg2", broken);
+    expect((await send(s.id, "sp01-b1.sg2", a)).verdict).toBe("accepted");
+    expect((await send(s.id, "sp01-b2.sg2", b)).verdict).toBe("accepted");
+    const refused = await send(s.id, "sp01-b3.sg2", broken);
     expect(refused.verdict).toBe("refused");
     expect(refused.message).toMatch(/^sp01-b3\.sg2: byte \d+: /);
     expect(refused.byteOffset).not.toBeNull();
-    const dup = send(s.id, "sp01-b1 copy.sg2", a);
+    const dup = await send(s.id, "sp01-b1 copy.sg2", a);
     expect(dup.verdict).toBe("duplicate");
     expect(dup.message).toContain("sp01-b1.sg2");
     expect(dup.sha256).toBe(sha(a));
@@ -144,19 +144,19 @@ describe("an upload: verdicts, duplicates, storage", () => {
 
     // The same content in a later upload is accepted there but not written again.
     const later = openUpload(db, profileId, actor);
-    expect(send(later.id, "sp01-b1.sg2", a).verdict).toBe("accepted");
+    expect((await send(later.id, "sp01-b1.sg2", a)).verdict).toBe("accepted");
     expect(fs.readdirSync(content, { recursive: true, withFileTypes: true }).filter((e) => e.isFile()).length).toBe(2);
   });
 
-  it("refuses a second file of the same name in one upload", () => {
+  it("refuses a second file of the same name in one upload", async () => {
     const s = openUpload(db, profileId, actor);
-    send(s.id, "sp05-b1.sg2", seg2(20));
+    await send(s.id, "sp05-b1.sg2", seg2(20));
     const err = catchError<Error & { code: string }>(() => admitFile(db, { sessionId: s.id, transferId: "same-name", name: "sp05-b1.sg2", sizeBytes: 10, limits: roomy }));
     expect(err.code).toBe("conflict");
     expect(err.message).toContain("already in this upload");
   });
 
-  it("refuses hidden, partial and folder-qualified names", () => {
+  it("refuses hidden, partial and folder-qualified names", async () => {
     const s = openUpload(db, profileId, actor);
     for (const name of [".hidden.sg2", "copy.sg2.part", "../escape.sg2", "a/b.sg2"]) {
       const err = catchError<Error & { code: string }>(() => admitFile(db, { sessionId: s.id, transferId: `bad-${name}`, name, sizeBytes: 10, limits: roomy }));
@@ -166,13 +166,13 @@ describe("an upload: verdicts, duplicates, storage", () => {
 });
 
 describe("size limits", () => {
-  it("come from the settings in MiB, and a bad setting is named", () => {
+  it("come from the settings in MiB, and a bad setting is named", async () => {
     expect(uploadLimits({})).toEqual({ maxFileBytes: 2048 * 1048576, maxUploadBytes: 16384 * 1048576 });
     expect(uploadLimits({ TRACEWRIGHT_UPLOAD_MAX_FILE_MB: "1.5", TRACEWRIGHT_UPLOAD_MAX_TOTAL_MB: "3" })).toEqual({ maxFileBytes: 1572864, maxUploadBytes: 3145728 });
     expect(() => uploadLimits({ TRACEWRIGHT_UPLOAD_MAX_FILE_MB: "lots" })).toThrow(/TRACEWRIGHT_UPLOAD_MAX_FILE_MB must be a positive number of MiB, got "lots"/);
   });
 
-  it("refuse a file over the per-file limit and a file that would take the upload over its limit (413), before any byte is stored", () => {
+  it("refuse a file over the per-file limit and a file that would take the upload over its limit (413), before any byte is stored", async () => {
     const limits: UploadLimits = { maxFileBytes: 1000, maxUploadBytes: 2500 };
     const s = openUpload(db, profileId, actor);
     const big = catchError<UploadTooLargeError>(() => admitFile(db, { sessionId: s.id, transferId: "big", name: "big.sg2", sizeBytes: 1001, limits }));
@@ -192,7 +192,7 @@ describe("size limits", () => {
 });
 
 describe("completing an upload", () => {
-  it("makes one dataset of the accepted files only (content hash of the folder) and queues the profile's pipeline", () => {
+  it("makes one dataset of the accepted files only (content hash of the folder) and queues the profile's pipeline", async () => {
     // A pipeline saved for survey upload-site, profile L2: the profile's pipeline.
     const profile2 = ensureSurvey(db, "upload-site", "L2").profile!.id;
     const file = path.join(tmp, "l2.yaml");
@@ -202,16 +202,16 @@ describe("completing an upload", () => {
     const s = openUpload(db, profile2, actor);
     const a = seg2(30);
     const b = seg2(31);
-    send(s.id, "sp01-b1.sg2", a);
-    send(s.id, "sp01-b2.sg2", b);
-    send(s.id, "sp01-b3.sg2", seg2(32).slice(0, 100));
-    send(s.id, "again.sg2", a);
+    await send(s.id, "sp01-b1.sg2", a);
+    await send(s.id, "sp01-b2.sg2", b);
+    await send(s.id, "sp01-b3.sg2", seg2(32).slice(0, 100));
+    await send(s.id, "again.sg2", a);
     // Nothing partial: a file still on its way stops completion unless left out.
     admitFile(db, { sessionId: s.id, transferId: "in-flight", name: "late.sg2", sizeBytes: 5000, limits: roomy });
-    expect(() => completeUpload(db, s.id, actor)).toThrow(/1 file is still being sent/);
+    await expect(completeUpload(db, s.id, actor)).rejects.toThrow(/1 file is still being sent/);
     expect(getUploadSession(db, s.id)!.state).toBe("open");
 
-    const done = completeUpload(db, s.id, actor, { leaveOutUnfinished: true });
+    const done = await completeUpload(db, s.id, actor, { leaveOutUnfinished: true });
     expect(done.files).toBe(2);
     const lines = [`sp01-b1.sg2\t${sha(a)}\n`, `sp01-b2.sg2\t${sha(b)}\n`].join("");
     expect(done.contentHash).toBe(sha(lines));
@@ -228,20 +228,20 @@ describe("completing an upload", () => {
     expect(listUploadFiles(db, s.id).find((f) => f.name === "late.sg2")?.verdict).toBe("refused");
 
     // Complete once only; a complete upload takes no more files.
-    expect(() => completeUpload(db, s.id, actor)).toThrow(/already complete/);
+    await expect(completeUpload(db, s.id, actor)).rejects.toThrow(/already complete/);
     expect(() => admitFile(db, { sessionId: s.id, transferId: "after", name: "after.sg2", sizeBytes: 10, limits: roomy })).toThrow(/is complete/);
   });
 
-  it("records the dataset and queues nothing when the profile has no pipeline", () => {
+  it("records the dataset and queues nothing when the profile has no pipeline", async () => {
     const s = openUpload(db, profileId, actor);
-    send(s.id, "only.sg2", seg2(40));
-    const done = completeUpload(db, s.id, actor);
+    await send(s.id, "only.sg2", seg2(40));
+    const done = await completeUpload(db, s.id, actor);
     expect(done.runId).toBeNull();
     expect(done.pipeline).toBeNull();
     expect(getDataset(db, done.datasetId)?.fileCount).toBe(1);
   });
 
-  it("queues the pipeline last run on the profile, else the latest one saved naming it", () => {
+  it("queues the pipeline last run on the profile, else the latest one saved naming it", async () => {
     const write = (name: string, profile: string) => {
       const file = path.join(tmp, `${name}.yaml`);
       // A field folder of the profile's own, so the run's dataset is the profile's.
@@ -260,9 +260,9 @@ describe("completing an upload", () => {
     expect(findProfilePipelineVersion(db, ensureSurvey(db, "upload-site", "L4").profile!.id)?.id).toBe(saved.pipelineVersionId);
   });
 
-  it("refuses an upload without any accepted file", () => {
+  it("refuses an upload without any accepted file", async () => {
     const s = openUpload(db, profileId, actor);
-    send(s.id, "bad.sg2", seg2(41).slice(0, 40));
-    expect(() => completeUpload(db, s.id, actor)).toThrow(/no accepted file/);
+    await send(s.id, "bad.sg2", seg2(41).slice(0, 40));
+    await expect(completeUpload(db, s.id, actor)).rejects.toThrow(/no accepted file/);
   });
 });

@@ -4,12 +4,12 @@
  * Saving an edited pipeline as a server action: checks "pipelines.edit" itself, validates the
  * edit with the command line's pipeline-file parser (pipeline/pipeline-edit.ts) and records a new
  * version with its audit event. Field errors name the field as pipeline-file errors do
- * (`steps[4].settings.highCutHz`).
+ * (`steps[4].settings.highCutHz`); every problem found is returned, each under its field.
  */
 import { revalidatePath } from "next/cache";
 import { z } from "zod";
 import { getDb } from "@/db/client";
-import { editFieldError, savePipelineEdit } from "@/pipeline/pipeline-edit";
+import { editFieldErrors, savePipelineEdit } from "@/pipeline/pipeline-edit";
 import { rejectPrototypeKeys } from "../api";
 import { requirePermission, webActor } from "../session";
 import { errorState, type FormState } from "./form-state";
@@ -61,8 +61,14 @@ export async function savePipeline(input: z.input<typeof editSchema>): Promise<P
       created: saved.created,
     };
   } catch (err) {
-    const field = editFieldError(err);
-    if (field) return { error: field.message, fields: { [field.field]: field.problem } };
+    // Every problem the check found, each at its field; the message lists them all (one per line).
+    const found = editFieldErrors(err);
+    if (found.length === 1) return { error: found[0].message, fields: { [found[0].field]: found[0].problem } };
+    if (found.length > 1) {
+      const fields: Record<string, string> = {};
+      for (const f of found) fields[f.field] ??= f.problem;
+      return { error: [`${found.length} problems, each shown at its field:`, ...found.map((f) => f.message)].join("\n"), fields };
+    }
     return errorState(err);
   }
 }

@@ -1,12 +1,16 @@
 "use client";
 
-import { useState, useTransition } from "react";
+import { useState, useTransition, type ReactNode } from "react";
 import { useRouter } from "next/navigation";
+import { closestCenter, DndContext, KeyboardSensor, PointerSensor, useSensor, useSensors, type DragEndEvent, type UniqueIdentifier } from "@dnd-kit/core";
+import { SortableContext, sortableKeyboardCoordinates, useSortable, verticalListSortingStrategy } from "@dnd-kit/sortable";
+import { CSS } from "@dnd-kit/utilities";
 import type { ParamDoc } from "@/pipeline/registry";
 import type { EditedStep } from "@/pipeline/pipeline-edit";
 import { savePipeline } from "@/app/lib/actions/pipelines";
 import { LabelledSetting } from "@/app/ui/rerun/setting-input";
 import { moveItem, removeItem } from "@/app/ui/rerun/object-list";
+import { reorderByDrop, stepsWithErrors } from "./step-order";
 
 export interface CatalogueEntry {
   id: string;
@@ -36,11 +40,48 @@ function freshLabel(stepId: string, rows: Row[]): string {
   for (let n = 2; ; n++) if (!rows.some((r) => r.label === `${stepId}-${n}`)) return `${stepId}-${n}`;
 }
 
+/** The sortable id of a row (dnd-kit treats a falsy id such as 0 as none, so ids are strings). */
+const sortId = (row: { key: number }) => `step-${row.key}`;
+
 /**
- * The pipeline editor: the steps in order (reorder with the buttons, remove, add from the step
- * catalogue), each step's settings as fields generated from its zod schema. Saving sends the
- * edit to the server, which validates it as a pipeline file (the command line's check) and
- * records a new version; the engine's field error shows beside the field it names.
+ * One step of the list, sortable: dragged by its handle with the pointer, or with the keyboard
+ * (focus the handle, Space or Enter to pick it up, arrow keys, Space or Enter to drop, Escape to cancel).
+ */
+function SortableStep({ row, children }: { row: Row; children: (handle: ReactNode) => ReactNode }) {
+  const { attributes, listeners, setNodeRef, setActivatorNodeRef, transform, transition, isDragging } = useSortable({ id: sortId(row) });
+  const handle = (
+    <button
+      type="button"
+      ref={setActivatorNodeRef}
+      className="btn cursor-grab touch-none px-1.5 py-0.5 text-xs"
+      {...attributes}
+      {...listeners}
+      aria-label={`Drag ${row.label} to another place (keyboard: Space, then the arrow keys, then Space)`}
+      title="Drag to reorder"
+      data-testid={`editor-drag-${row.label}`}
+    >
+      ⠿
+    </button>
+  );
+  return (
+    <li
+      ref={setNodeRef}
+      style={{ transform: CSS.Translate.toString(transform), transition, position: "relative", zIndex: isDragging ? 10 : undefined }}
+      className={`card p-4 ${isDragging ? "shadow-lg ring-2 ring-accent" : ""}`}
+      data-testid={`editor-step-${row.label}`}
+      data-step-id={row.step}
+    >
+      {children(handle)}
+    </li>
+  );
+}
+
+/**
+ * The pipeline editor: the steps in order (reorder by dragging a step's handle, with the keyboard
+ * on the handle, or with the Up/Down buttons; remove; add from the step catalogue), each step's
+ * settings as fields generated from its zod schema. Saving sends the edit to the server, which
+ * validates it as a pipeline file (the command line's check, going on past the first problem) and
+ * records a new version; every problem found shows beside the field it names.
  */
 export function PipelineEditor({ pipelineId, baseVersionId, baseVersion, name, fieldData, geometryTable, initial, docs, catalogue }: Props) {
   const router = useRouter();
@@ -53,6 +94,16 @@ export function PipelineEditor({ pipelineId, baseVersionId, baseVersion, name, f
   const [errors, setErrors] = useState<Record<string, string>>({});
   const [message, setMessage] = useState<{ kind: "error" | "ok"; text: string } | null>(null);
   const [pending, startTransition] = useTransition();
+  const sensors = useSensors(
+    // A few pixels of movement before a drag starts, so a click on the handle stays a click.
+    useSensor(PointerSensor, { activationConstraint: { distance: 4 } }),
+    useSensor(KeyboardSensor, { coordinateGetter: sortableKeyboardCoordinates }),
+  );
+  const labelOf = (id: UniqueIdentifier) => rows.find((r) => sortId(r) === String(id))?.label ?? String(id);
+  const onDragEnd = ({ active, over }: DragEndEvent) => {
+    const next = reorderByDrop(rows, active.id, over?.id, sortId);
+    if (next !== rows) change([...next]);
+  };
 
   const change = (next: Row[]) => {
     setRows(next);
@@ -91,9 +142,9 @@ export function PipelineEditor({ pipelineId, baseVersionId, baseVersion, name, f
       if (state.error) {
         setErrors(state.fields ?? {});
         setMessage({ kind: "error", text: state.error });
-        // Open the step the error names, so its field shows.
-        const m = /^steps\[(\d+)\]/.exec(Object.keys(state.fields ?? {})[0] ?? "");
-        if (m && rows[Number(m[1])]) setOpen((o) => new Set(o).add(rows[Number(m[1])].key));
+        // Open every step a problem names, so each field error shows.
+        const named = stepsWithErrors(state.fields ?? {}).filter((i) => rows[i]);
+        if (named.length > 0) setOpen((o) => new Set([...o, ...named.map((i) => rows[i].key)]));
         return;
       }
       if (state.created && state.versionId) router.push(`/pipelines/${pipelineId}?from=${baseVersionId}&to=${state.versionId}`);
@@ -133,6 +184,22 @@ export function PipelineEditor({ pipelineId, baseVersionId, baseVersion, name, f
         </div>
       </div>
 
+      <DndContext
+        id="pipeline-editor-steps"
+        sensors={sensors}
+        collisionDetection={closestCenter}
+        onDragEnd={onDragEnd}
+        accessibility={{
+          screenReaderInstructions: { draggable: "To move a step, press Space or Enter on its handle, move it with the arrow keys, and press Space or Enter to drop it there, or Escape to cancel." },
+          announcements: {
+            onDragStart: ({ active }) => `Picked up ${labelOf(active.id)}.`,
+            onDragOver: ({ active, over }) => (over ? `${labelOf(active.id)} is at the place of ${labelOf(over.id)}.` : `${labelOf(active.id)} is outside the list.`),
+            onDragEnd: ({ active, over }) => (over ? `${labelOf(active.id)} moved to the place of ${labelOf(over.id)}.` : `${labelOf(active.id)} left where it was.`),
+            onDragCancel: ({ active }) => `Moving ${labelOf(active.id)} cancelled; it stays where it was.`,
+          },
+        }}
+      >
+      <SortableContext items={rows.map(sortId)} strategy={verticalListSortingStrategy}>
       <ol className="space-y-3" data-testid="editor-steps">
         {rows.map((row, i) => {
           const stepDocs = docs[row.step] ?? [];
@@ -140,8 +207,10 @@ export function PipelineEditor({ pipelineId, baseVersionId, baseVersion, name, f
           const err = stepError(i);
           const hasFieldError = Object.keys(errors).some((k) => k.startsWith(`steps[${i}].`));
           return (
-            <li key={row.key} className="card p-4" data-testid={`editor-step-${row.label}`} data-step-id={row.step}>
+            <SortableStep key={row.key} row={row}>
+              {(handle) => (<>
               <div className="flex flex-wrap items-center gap-2">
+                {handle}
                 <span className="w-6 text-right text-sm muted">{i + 1}.</span>
                 <button type="button" className="text-left font-semibold hover:underline" onClick={() => toggle(row.key)} aria-expanded={isOpen} data-testid={`editor-toggle-${row.label}`}>
                   {row.label} <span className="font-normal muted">({row.step})</span>
@@ -184,10 +253,13 @@ export function PipelineEditor({ pipelineId, baseVersionId, baseVersion, name, f
                   </div>
                 </div>
               ) : null}
-            </li>
+              </>)}
+            </SortableStep>
           );
         })}
       </ol>
+      </SortableContext>
+      </DndContext>
 
       <div className="card flex flex-wrap items-end gap-3 p-4">
         <div className="min-w-64 flex-1">
@@ -202,7 +274,14 @@ export function PipelineEditor({ pipelineId, baseVersionId, baseVersion, name, f
 
       {message ? (
         <p role={message.kind === "error" ? "alert" : "status"} className={message.kind === "error" ? "rounded-md bg-bad-soft px-3 py-2 text-sm text-bad" : "rounded-md bg-accent-soft px-3 py-2 text-sm"} data-testid={message.kind === "error" ? "editor-error" : "editor-status"}>
-          {message.text}
+          {message.text.split("\n")[0]}
+          {message.text.includes("\n") ? (
+            <span className="mt-1 block">
+              {message.text.split("\n").slice(1).map((line) => (
+                <span key={line} className="block pl-3 -indent-3" data-testid="editor-problem">• {line}</span>
+              ))}
+            </span>
+          ) : null}
         </p>
       ) : null}
       <div className="flex gap-2">

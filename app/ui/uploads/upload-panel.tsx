@@ -63,6 +63,7 @@ const STATE_WORDS: Record<RowState, string> = {
   accepted: "accepted",
   duplicate: "duplicate, not kept",
   refused: "refused",
+  expired: "expired, send again",
 };
 
 const STATE_CLASS: Record<RowState, string> = {
@@ -75,6 +76,7 @@ const STATE_CLASS: Record<RowState, string> = {
   accepted: "bg-ok-soft text-ok",
   duplicate: "bg-warn-soft text-warn",
   refused: "bg-bad-soft text-bad",
+  expired: "bg-warn-soft text-warn",
 };
 
 /** Files of a dropped folder (directory entries read recursively), or the dropped files. */

@@ -20,7 +20,7 @@ export async function POST(req: Request, ctx: { params: Promise<{ sessionId: str
     const user = await requirePermission("uploads.send");
     const id = parseId((await ctx.params).sessionId, "sessionId");
     const body = parseOr400(completeSchema, json, "body");
-    const done = completeUpload(getDb(), id, webActor(user), body);
+    const done = await completeUpload(getDb(), id, webActor(user), body);
     if (done.runId !== null) launchInBackground(done.runId);
     return NextResponse.json({ datasetId: done.datasetId, runId: done.runId, files: done.files, contentHash: done.contentHash, pipeline: done.pipeline });
   });

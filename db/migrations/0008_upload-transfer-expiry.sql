@@ -1,0 +1,1 @@
+ALTER TABLE `upload_files` ADD `last_received_at` integer;
