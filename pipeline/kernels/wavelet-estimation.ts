@@ -165,3 +165,48 @@ export function estimateWavelet(a: WaveletEstimationArgs): WaveletEstimate {
     fitBefore: energy > 0 ? Math.sqrt(before / energy) : 0,
   };
 }
+
+/**
+ * Band-limits a wavelet: its spectrum is kept below `passHz`, faded out with a raised-cosine
+ * (Hann) taper between `passHz` and `stopHz`, and removed above (common practice for keeping an
+ * estimated wavelet inside the band of the data it was estimated from). A deconvolved wavelet
+ * otherwise carries small, noisy energy far above that band, which makes the solver's accuracy
+ * check (points per wavelength at the wavelet's highest frequency) refuse slow cells the data
+ * cannot resolve anyway. The samples are zero-padded to at least twice their length, so the
+ * filtering does not wrap around. Returns a new array of the same length.
+ */
+export function bandLimitWavelet(samples: ArrayLike<number>, sampleIntervalS: number, passHz: number, stopHz: number): Float64Array {
+  if (!(sampleIntervalS > 0 && Number.isFinite(sampleIntervalS))) throw new RangeError(`sampleIntervalS must be a positive number, got ${sampleIntervalS}`);
+  if (!(passHz > 0 && Number.isFinite(passHz))) throw new RangeError(`passHz must be a positive number, got ${passHz}`);
+  if (!(stopHz > passHz && Number.isFinite(stopHz))) throw new RangeError(`stopHz must be a number above passHz (${passHz}), got ${stopHz}`);
+  const n = samples.length;
+  const out = new Float64Array(n);
+  if (n === 0) return out;
+  const size = nextPowerOfTwo(2 * n);
+  const plan = createFftPlan(size);
+  for (let k = 0; k < n; k++) plan.input[k] = samples[k];
+  forwardReal(plan);
+  const sp = plan.spectrum;
+  const df = 1 / (size * sampleIntervalS);
+  for (let k = 0; k < size; k++) {
+    const f = (k <= size / 2 ? k : size - k) * df;
+    const weight = f <= passHz ? 1 : f >= stopHz ? 0 : 0.5 * (1 + Math.cos((Math.PI * (f - passHz)) / (stopHz - passHz)));
+    sp[2 * k] *= weight;
+    sp[2 * k + 1] *= weight;
+  }
+  plan.fft.inverseTransform(plan.complexTime, sp);
+  for (let k = 0; k < n; k++) out[k] = plan.complexTime[2 * k];
+  return out;
+}
+
+/**
+ * Frequency at which a Butterworth low-pass of `order` poles and corner `cornerHz` falls to
+ * `level` of its pass-band amplitude: |H(f)| = 1/√(1 + (f/fc)^(2n)) (Butterworth 1930), so
+ * f = fc · (1/level² − 1)^(1/(2n)).
+ */
+export function butterworthLevelHz(cornerHz: number, order: number, level: number): number {
+  if (!(cornerHz > 0)) throw new RangeError(`cornerHz must be positive, got ${cornerHz}`);
+  if (!(Number.isInteger(order) && order >= 1)) throw new RangeError(`order must be an integer ≥ 1, got ${order}`);
+  if (!(level > 0 && level < 1)) throw new RangeError(`level must lie in (0, 1), got ${level}`);
+  return cornerHz * (1 / (level * level) - 1) ** (1 / (2 * order));
+}

@@ -42,7 +42,7 @@ import {
   type Parameterisation,
 } from "../kernels/fwi/parameterisation";
 import { lbfgsIteration, startLbfgs, type LbfgsState } from "../kernels/optim/lbfgs";
-import { estimateWavelet } from "../kernels/wavelet-estimation";
+import { bandLimitWavelet, butterworthLevelHz, estimateWavelet } from "../kernels/wavelet-estimation";
 import { ricker, defaultRickerShiftS, waveletBand } from "../kernels/fd/wavelet";
 import { shotExecutorOf } from "../workers/shot-executor";
 
@@ -754,7 +754,10 @@ async function reestimate(
       endSample: prepared.window.endSample,
       taperMs: 5,
     });
-    state.wavelets[s.id] = Float32Array.from(est.wavelet);
+    // Kept inside the stage's band (faded out from the corner to where the stage's low-pass is down
+    // to 5 %): beyond it the data hold nothing to estimate from, and noise there would only lower
+    // the slowest Vs the grid may carry in this stage.
+    state.wavelets[s.id] = Float32Array.from(bandLimitWavelet(est.wavelet, dt, prepared.stage.lowPassHz, butterworthLevelHz(prepared.stage.lowPassHz, prepared.stage.filterOrder, 0.05)));
     fitSum += est.fit;
   });
   return fitSum / shots.length;
