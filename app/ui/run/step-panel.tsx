@@ -10,6 +10,12 @@ import { LogStream } from "./log-stream";
 
 const DOWNLOAD_WORDS = { segy: "SEG-Y", csv: "CSV", json: "JSON" } as const;
 
+/** Steps whose picks can be edited by hand, and the page that does it (saving reruns from the step). */
+const PICK_EDITORS: Record<string, { path: string; words: string }> = {
+  "first-arrivals": { path: "picks", words: "Edit picks by hand…" },
+  "dispersion-image": { path: "dispersion-picks", words: "Edit dispersion picks…" },
+};
+
 /** One step of a run: its validated settings, inputs and outputs, summary, curves and log. */
 export function StepPanel({
   run,
@@ -38,9 +44,16 @@ export function StepPanel({
           </p>
         </div>
         {canRerun && !live ? (
-          <Link href={`/runs/${run.id}/rerun?from=${encodeURIComponent(step.label)}`} className="btn-primary" data-testid="rerun-button">
-            Rerun from this step…
-          </Link>
+          <div className="flex flex-wrap items-center gap-2">
+            {step.status === "succeeded" && PICK_EDITORS[step.stepId] ? (
+              <Link href={`/runs/${run.id}/${PICK_EDITORS[step.stepId].path}?step=${encodeURIComponent(step.label)}`} className="btn" data-testid="edit-picks-link">
+                {PICK_EDITORS[step.stepId].words}
+              </Link>
+            ) : null}
+            <Link href={`/runs/${run.id}/rerun?from=${encodeURIComponent(step.label)}`} className="btn-primary" data-testid="rerun-button">
+              Rerun from this step…
+            </Link>
+          </div>
         ) : null}
       </header>
       {step.error ? <p role="alert" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{step.error}</p> : null}
