@@ -789,19 +789,21 @@ async function main() {
       const image = (await (await page.request.get(`${origin}/api/artifacts/${diNew.outputs.dispersion}/dispersion?window=${window}`)).json()) as { window: { picks: Array<{ origin: string; mode: number; points: Array<[number, number]> }> } };
       const hand = image.window.picks.find((c) => c.origin === "hand" && c.mode === 0);
       check(hand && JSON.stringify(hand.points) === JSON.stringify(saved[0].points), "the new dispersion artifact does not hold the hand pick");
-      await goto(page, `${origin}/runs/${dispRunId}?step=${encodeURIComponent(di.label)}`);
-      await page.waitForSelector("[data-testid=step-panel]");
-      await shoot(page, "dispersion-edit-result");
 
       // The auditor may look at runs but not edit picks: the pages and the rerun answer 403.
       await signIn(page, origin, account("auditor").email, account("auditor").password);
       await goto(page, `${origin}/runs/${pickRunId}?step=${encodeURIComponent(fa.label)}`);
       await page.waitForSelector("[data-testid=step-panel]");
       check((await page.locator("[data-testid=edit-picks-link]").count()) === 0, "the auditor sees the pick editor link");
-      for (const editor of ["picks", "dispersion-picks"]) {
-        await goto(page, `${origin}/runs/${pickRunId}/${editor}`);
-        check((await page.textContent("body"))?.includes("Not allowed for your role"), `the ${editor} page is not refused to the auditor`);
-      }
+      await goto(page, `${origin}/runs/${pickRunId}/picks`);
+      check((await page.textContent("body"))?.includes("Not allowed for your role"), "the pick editor is not refused to the auditor");
+      // The dispersion image with its picks is for every reader; its editing controls are not.
+      await goto(page, `${origin}/runs/${dispRunId}/dispersion-picks`);
+      await page.waitForSelector("[data-testid=dispersion-image]");
+      check((await page.locator("[data-testid=dispersion-point]").count()) === startCount, "the auditor does not see the saved hand pick");
+      check((await page.locator("[data-testid=save-dispersion-picks], [data-testid=dispersion-from-automatic]").count()) === 0, "the auditor sees editing controls");
+      await page.click("[data-testid=dispersion-image]");
+      check((await page.locator("[data-testid=dispersion-point]").count()) === startCount, "a click by the auditor added a point");
       const res = await page.request.post(`${origin}/api/runs/${pickRunId}/rerun`, { data: { fromLabel: fa.label, overrides: { [fa.label]: { pickEdits: edits } } } });
       check(res.status() === 403, `the auditor's pick edit rerun answered ${res.status()}`);
       } finally {

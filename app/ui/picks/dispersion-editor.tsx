@@ -31,12 +31,15 @@ export function DispersionEditor({
   dispersionHash,
   savedHandPicks,
   frequencyStepHz,
+  canEdit,
 }: {
   runId: number;
   label: string;
   dispersionHash: string;
   savedHandPicks: HandPickEntry[];
   frequencyStepHz: number;
+  /** False for roles that may not rerun: the image and the picks only, no editing. */
+  canEdit: boolean;
 }) {
   const router = useRouter();
   const [windowId, setWindowId] = useState<string | undefined>(undefined);
@@ -163,7 +166,7 @@ export function DispersionEditor({
       className="space-y-4 outline-none"
       tabIndex={0}
       onKeyDown={(e) => {
-        if (e.key === "Delete" || e.key === "Backspace") {
+        if (canEdit && (e.key === "Delete" || e.key === "Backspace")) {
           e.preventDefault();
           deleteSelected();
         } else if (e.key === "Escape") setSelected(null);
@@ -182,6 +185,8 @@ export function DispersionEditor({
               {MODES.map((m) => <option key={m} value={m}>{MODE_WORDS(m)}</option>)}
             </select>
           </label>
+          {canEdit ? (
+          <>
           <button
             type="button"
             className="btn"
@@ -193,9 +198,13 @@ export function DispersionEditor({
           </button>
           <button type="button" className="btn" disabled={points.length === 0} onClick={() => { setPoints([]); setSelected(null); }}>Clear this curve</button>
           <button type="button" className="btn" disabled={selected === null} onClick={deleteSelected} data-testid="dispersion-delete-point">Delete point</button>
+          </>
+          ) : null}
         </div>
         <p className="text-xs muted">
-          Click the image to add a point · drag a point to move it · choose a point and press Delete to remove it. One velocity per frequency: a point close in frequency to another replaces it.
+          {canEdit
+            ? "Click the image to add a point · drag a point to move it · choose a point and press Delete to remove it. One velocity per frequency: a point close in frequency to another replaces it."
+            : "Hand picks are made by processors and leads; your role may look at them."}
         </p>
         {data.error ? <p role="alert" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{data.error.message}</p> : null}
         <div ref={wrap} className="relative w-full select-none" style={{ height: H }}>
@@ -227,7 +236,7 @@ export function DispersionEditor({
                 ))}
                 <text x={M.left + pw / 2} y={H - 6} textAnchor="middle" fontSize={11} fill="#4a5559">Frequency (Hz)</text>
                 <text transform={`translate(14 ${M.top + ph / 2}) rotate(-90)`} textAnchor="middle" fontSize={11} fill="#4a5559">Phase velocity (m/s)</text>
-                <rect x={M.left} y={M.top} width={pw} height={ph} fill="transparent" stroke="#4a5559" onPointerDown={onBackgroundDown} style={{ cursor: "crosshair" }} data-testid="dispersion-image" />
+                <rect x={M.left} y={M.top} width={pw} height={ph} fill="transparent" stroke="#4a5559" onPointerDown={canEdit ? onBackgroundDown : undefined} style={{ cursor: canEdit ? "crosshair" : "default" }} data-testid="dispersion-image" />
                 {automatic && automatic.points.length > 1 ? (
                   <g pointerEvents="none">
                     <polyline points={line(automatic.points)} fill="none" stroke="#ffffff" strokeWidth={1.2} strokeDasharray="4 3" />
@@ -252,8 +261,8 @@ export function DispersionEditor({
                     fill={i === (drag?.moved ? -1 : selected) ? "#7b3fa0" : HAND}
                     stroke="#ffffff"
                     strokeWidth={1.5}
-                    onPointerDown={(e) => onPointDown(e, i)}
-                    style={{ cursor: "move" }}
+                    onPointerDown={canEdit ? (e) => onPointDown(e, i) : undefined}
+                    style={{ cursor: canEdit ? "move" : "default" }}
                     data-testid="dispersion-point"
                   >
                     <title>{`${formatNumber(p[0], "Hz", 4)}, ${formatNumber(p[1], "m/s", 4)}`}</title>
@@ -279,7 +288,7 @@ export function DispersionEditor({
       </div>
 
       <section className="card p-4" aria-label="Hand picks">
-        <h2 className="mb-2 text-base">Hand picks of this run&apos;s settings</h2>
+        <h2 className="mb-2 text-base">Hand picks in this run&apos;s settings</h2>
         {handPicks.length === 0 ? (
           <p className="text-sm muted">None: the inversion uses the automatic picks.</p>
         ) : (
@@ -299,12 +308,14 @@ export function DispersionEditor({
           </table>
         )}
         {changed.filter((k) => !handPicks.some((h) => `${h.window}/${h.mode}` === k)).map((k) => <p key={k} className="text-xs text-warn">{k.replace("/", ", mode ")}: removed, not saved</p>)}
+        {canEdit ? (
         <div className="mt-3 flex flex-wrap items-center gap-3">
           <button type="button" className="btn-primary" disabled={changed.length === 0 || saving} onClick={save} data-testid="save-dispersion-picks">
             {saving ? "Starting the run…" : "Save as a new run"}
           </button>
           <span className="text-xs muted">Reruns from {label} with these curves in its settings; earlier steps come from the cache.</span>
         </div>
+        ) : null}
         {error ? <p role="alert" className="mt-2 rounded-md bg-bad-soft px-3 py-2 text-sm text-bad" data-testid="dispersion-editor-error">{error}</p> : null}
       </section>
     </div>

@@ -10,10 +10,13 @@ import { LogStream } from "./log-stream";
 
 const DOWNLOAD_WORDS = { segy: "SEG-Y", csv: "CSV", json: "JSON" } as const;
 
-/** Steps whose picks can be edited by hand, and the page that does it (saving reruns from the step). */
-const PICK_EDITORS: Record<string, { path: string; words: string }> = {
+/**
+ * Steps whose picks can be edited by hand, and the page that does it (saving reruns from the
+ * step). `readerWords`: the page also shows the result to those who may not rerun.
+ */
+const PICK_EDITORS: Record<string, { path: string; words: string; readerWords?: string }> = {
   "first-arrivals": { path: "picks", words: "Edit picks by hand…" },
-  "dispersion-image": { path: "dispersion-picks", words: "Edit dispersion picks…" },
+  "dispersion-image": { path: "dispersion-picks", words: "Edit dispersion picks…", readerWords: "Dispersion image and picks" },
 };
 
 /** One step of a run: its validated settings, inputs and outputs, summary, curves and log. */
@@ -43,18 +46,18 @@ export function StepPanel({
             {step.cacheHit ? ` · result reused${step.cacheSourceRunId ? ` from run ${step.cacheSourceRunId}` : ""} (same step, settings and inputs)` : ""}
           </p>
         </div>
-        {canRerun && !live ? (
-          <div className="flex flex-wrap items-center gap-2">
-            {step.status === "succeeded" && PICK_EDITORS[step.stepId] ? (
-              <Link href={`/runs/${run.id}/${PICK_EDITORS[step.stepId].path}?step=${encodeURIComponent(step.label)}`} className="btn" data-testid="edit-picks-link">
-                {PICK_EDITORS[step.stepId].words}
-              </Link>
-            ) : null}
+        <div className="flex flex-wrap items-center gap-2">
+          {step.status === "succeeded" && PICK_EDITORS[step.stepId] && ((canRerun && !live) || PICK_EDITORS[step.stepId].readerWords) ? (
+            <Link href={`/runs/${run.id}/${PICK_EDITORS[step.stepId].path}?step=${encodeURIComponent(step.label)}`} className="btn" data-testid={canRerun && !live ? "edit-picks-link" : "view-picks-link"}>
+              {canRerun && !live ? PICK_EDITORS[step.stepId].words : PICK_EDITORS[step.stepId].readerWords}
+            </Link>
+          ) : null}
+          {canRerun && !live ? (
             <Link href={`/runs/${run.id}/rerun?from=${encodeURIComponent(step.label)}`} className="btn-primary" data-testid="rerun-button">
               Rerun from this step…
             </Link>
-          </div>
-        ) : null}
+          ) : null}
+        </div>
       </header>
       {step.error ? <p role="alert" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{step.error}</p> : null}
 
