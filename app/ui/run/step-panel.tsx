@@ -2,11 +2,16 @@
 
 import Link from "next/link";
 import type { RunView, StepView } from "@/app/lib/view-types";
-import { formatDuration, formatSettingValue, formatTime, readableName, shortHash, unitOfDescription } from "@/app/ui/format";
+import { formatDuration, formatReadable, formatSettingValue, formatTime, readableName, shortHash, unitOfDescription } from "@/app/ui/format";
 import { formatOfSlot, stepDownloadHref } from "@/app/lib/downloads";
 import { StepSeriesChart } from "@/app/ui/charts/run-charts";
 import { StatusBadge } from "@/app/ui/status-badge";
 import { LogStream } from "./log-stream";
+
+/** A setting's value in words; lists of objects (hand pick edits, inversion stages) item by item rather than as JSON. */
+function settingText(v: unknown, unit: string | null): string {
+  return Array.isArray(v) && v.some((x) => x !== null && typeof x === "object" && !Array.isArray(x)) ? formatReadable(v, unit) : formatSettingValue(v, unit);
+}
 
 const DOWNLOAD_WORDS = { segy: "SEG-Y", csv: "CSV", json: "JSON" } as const;
 
@@ -76,7 +81,7 @@ export function StepPanel({
                       <span className="text-ink">{name.words}</span>
                       <span className="block font-mono text-[10px] text-ink-faint">{k}</span>
                     </td>
-                    <td className="py-1 align-top text-xs tabular-nums break-words">{formatSettingValue(v, unit)}{k in changed ? <span className="ml-2 rounded bg-warn px-1 text-[10px] text-white">changed in this rerun</span> : null}</td>
+                    <td className="py-1 align-top text-xs tabular-nums break-words">{settingText(v, unit)}{k in changed ? <span className="ml-2 rounded bg-warn px-1 text-[10px] text-white">changed in this rerun</span> : null}</td>
                   </tr>
                 );
               })}
