@@ -3,7 +3,8 @@
  *  1. creates/migrates the SQLite database under ./data (or TRACEWRIGHT_DATA_DIR),
  *  2. adds the demo accounts (one per role),
  *  3. generates the invented Quillmoor survey (examples/quillmoor),
- *  4. runs the example pipelines through the command line, then a rerun with a changed filter,
+ *  4. runs the example pipelines through the command line, then reruns with two first-arrival
+ *     picks edited by hand and with a changed filter,
  *     then the lead approves the inversion and makes the client report (data/reports/),
  *  5. builds the control room if needed and serves it on http://127.0.0.1:3000.
  * `--prepare-only` stops after step 4 (browser tests use it with a temporary data folder).
