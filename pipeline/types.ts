@@ -99,6 +99,8 @@ export interface PickSet {
     quality: number;
     /** True when the pick breaks the smooth offset-time trend. */
     flagged: boolean;
+    /** "hand" when the pick comes from the step's `pickEdits` (absent in picks made before hand edits existed: automatic). */
+    origin?: "automatic" | "hand";
   }>;
 }
 

@@ -3,7 +3,8 @@
  *  1. creates/migrates the SQLite database under ./data (or TRACEWRIGHT_DATA_DIR),
  *  2. adds the demo accounts (one per role),
  *  3. generates the invented Quillmoor survey (examples/quillmoor),
- *  4. runs the example pipelines through the command line, then a rerun with a changed filter,
+ *  4. runs the example pipelines through the command line, then reruns with two first-arrival
+ *     picks edited by hand and with a changed filter,
  *     then the lead approves the inversion and makes the client report (data/reports/),
  *  5. builds the control room if needed and serves it on http://127.0.0.1:3000.
  * `--prepare-only` stops after step 4 (browser tests use it with a temporary data folder).
@@ -22,7 +23,8 @@ import { addReviewOnce, latestDecision } from "../db/queries/review-decisions";
 import { getUserByEmail } from "../db/queries/users";
 import { readArtifactSync } from "../pipeline/artifact-store";
 import { recordInterpretation } from "../pipeline/report/interpretation";
-import type { ElasticModel } from "../pipeline/types";
+import type { ElasticModel, GatherSet, PickSet } from "../pipeline/types";
+import { trueOnsets } from "../examples/quillmoor/assess-picks";
 import { addProfile, createSurvey, getProfile, getSurveyBySlug, setSurveyPerson, updateSurvey } from "../db/queries/surveys";
 import { profileFields, newSurvey } from "../db/survey-fields";
 import type { Db } from "../db/client";
@@ -264,6 +266,62 @@ async function assessFirstArrivalPicks(): Promise<void> {
   if (r.exitCode !== 0) say("  (no first-arrival picks to compare with the true onsets)");
 }
 
+/**
+ * Hand edits of first-arrival picks from the command line, as the control room's pick editor
+ * saves them: the two flagged picks of the model-from-data run farthest from the true onsets
+ * (only the demo knows them), the worst moved onto its true onset and the next deleted, written
+ * to a settings file and given to `tracewright rerun --from first-arrivals --set
+ * first-arrivals.pickEdits=...`; prints the changed picks and the tomography's fit before and after.
+ */
+async function editFirstArrivalPicksByHand(processorEmail: string | undefined): Promise<void> {
+  const db = getDb();
+  const latest = listRuns(db, { pipelineName: "quillmoor-qm1-model-from-data", status: "succeeded", pageSize: 1 }).rows[0];
+  const run = latest ? getRun(db, latest.id) : null;
+  closeDb();
+  const step = run?.steps.find((s) => s.stepId === "first-arrivals" && s.status === "succeeded");
+  if (!run || !step?.outputs.picks || !step.inputs.gathers) {
+    say("  (no model-from-data run with first-arrival picks to edit by hand)");
+    return;
+  }
+  const picks = readArtifactSync(step.outputs.picks) as PickSet;
+  const gathers = readArtifactSync(step.inputs.gathers) as GatherSet;
+  const byId = new Map(gathers.gathers.map((g) => [g.id, g]));
+  const flagged = picks.picks.filter((p) => p.flagged).map((p) => ({ p, h: byId.get(p.gatherId)!.traces[p.traceIndex] }));
+  if (flagged.length < 2) {
+    say("  (fewer than two flagged picks: nothing to correct by hand)");
+    return;
+  }
+  const onsets = trueOnsets(flagged.map((f) => ({ sourceX: f.h.sourceX, receiverX: f.h.receiverX })));
+  const worst = flagged.map((f, i) => ({ ...f, onsetS: onsets[i], errorMs: 1000 * (f.p.timeS - onsets[i]) })).sort((a, b) => Math.abs(b.errorMs) - Math.abs(a.errorMs));
+  const [move, drop] = worst;
+  const edits = [
+    { gather: move.p.gatherId, channel: move.h.channel, action: "moved", timeMs: Math.round(move.onsetS * 1e5) / 100 },
+    { gather: drop.p.gatherId, channel: drop.h.channel, action: "deleted", timeMs: null },
+  ];
+  const file = path.join(dataDir(), "examples", "quillmoor", "pick-edits.json");
+  fs.mkdirSync(path.dirname(file), { recursive: true });
+  fs.writeFileSync(file, JSON.stringify(edits, null, 2) + "\n");
+  say(`\n  editing two first-arrival picks of run ${run.id} by hand (settings file ${path.relative(projectRoot, file)}), as ${processorEmail}`);
+  const r = await cli(["rerun", String(run.id), "--from", step.label, "--set", `${step.label}.pickEdits=${fs.readFileSync(file, "utf8")}`, ...(processorEmail ? ["--as", processorEmail] : [])]);
+  if (r.exitCode !== 0) throw new Error(`the rerun with hand-edited picks failed (exit ${r.exitCode})`);
+  const db2 = getDb();
+  const edited = getRun(db2, listRuns(db2, { pipelineName: "quillmoor-qm1-model-from-data", pageSize: 1 }).rows[0].id)!;
+  closeDb();
+  const newPicks = readArtifactSync(edited.steps.find((s) => s.label === step.label)!.outputs.picks) as PickSet;
+  for (const [e, w] of [[edits[0], move], [edits[1], drop]] as const) {
+    const now = newPicks.picks.find((p) => p.gatherId === w.p.gatherId && p.traceIndex === w.p.traceIndex);
+    const after = now ? `${(now.timeS * 1000).toFixed(2)} ms (${now.origin ?? "automatic"}, error ${(1000 * (now.timeS - w.onsetS)).toFixed(2)} ms)` : "no pick";
+    say(`    ${w.p.gatherId} channel ${w.h.channel} (offset ${w.h.offset.toFixed(1)} m), ${e.action}: ${(w.p.timeS * 1000).toFixed(2)} ms (flagged, error ${w.errorMs.toFixed(2)} ms against the true onset) → ${after}`);
+  }
+  // Flagged picks are left out of the tomography; the hand pick is not flagged, so it counts now.
+  const fit = (d: typeof run) => d.steps.find((s) => s.stepId === "first-arrival-tomography")?.summary as { finalRmsMs?: number; picks?: number } | null | undefined;
+  const [before, after] = [fit(run), fit(edited)];
+  if (before?.finalRmsMs !== undefined && after?.finalRmsMs !== undefined) {
+    say(`    tomography: run ${run.id} ${before.picks} picks used, rms residual ${before.finalRmsMs.toFixed(3)} ms → run ${edited.id} ${after.picks} picks, ${after.finalRmsMs.toFixed(3)} ms`);
+  }
+  say(`    (in the control room: /runs/${edited.id}, step ${step.label}, "Edit picks by hand…")`);
+}
+
 async function main() {
   say(`Tracewright demo: data in ${dataDir()}`);
   const db = getDb();
@@ -304,6 +362,7 @@ async function main() {
   if (assessed.exitCode !== 0) say("  (no inverted model to compare with the true ground)");
 
   await assessFirstArrivalPicks();
+  await editFirstArrivalPicksByHand(processor);
 
   // The team's everyday move: change one filter corner and rerun; upstream steps come from the cache.
   const db2 = getDb();

@@ -8,9 +8,9 @@ import { getDb } from "@/db/client";
 import { isArtifactRecorded } from "@/db/queries/artifacts";
 import { readArtifact } from "@/pipeline/artifact-store";
 import { AppError } from "@/pipeline/errors";
-import type { ElasticModel, GatherSet, JsonDocument, MuteSet, PickSet, SnapshotSet, SpectrumSet } from "@/pipeline/types";
+import type { DispersionSet, ElasticModel, GatherSet, JsonDocument, MuteSet, PickSet, SnapshotSet, SpectrumSet } from "@/pipeline/types";
 import { decimatePeaks, encodeWire } from "./trace-wire";
-import type { ArtifactOutline, TraceHeaderWire } from "./view-types";
+import type { ArtifactOutline, DispersionWindowJson, TraceHeaderWire } from "./view-types";
 
 const CACHE_SIZE = 6;
 const cache = new Map<string, unknown>();
@@ -118,6 +118,7 @@ export async function gatherWire(hash: string, gatherId: string | undefined, max
     decimation: factor,
     offsetsM: gather.traces.map((t) => t.offset),
     receiverXM: gather.traces.map((t) => t.receiverX),
+    channels: gather.traces.map((t) => t.channel),
     sourceXM: gather.traces[0]?.sourceX ?? 0,
     dead: gather.traces.map((t) => t.dead),
   };
@@ -166,7 +167,7 @@ export async function gatherLines(hash: string, gatherId: string) {
     const p = value as PickSet;
     return {
       kind: "picks" as const,
-      picks: p.picks.filter((x) => x.gatherId === gatherId).map((x) => ({ traceIndex: x.traceIndex, timeS: x.timeS, flagged: x.flagged })),
+      picks: p.picks.filter((x) => x.gatherId === gatherId).map((x) => ({ traceIndex: x.traceIndex, timeS: x.timeS, flagged: x.flagged, hand: x.origin === "hand" })),
     };
   }
   if (kind === "mutes") {
@@ -177,6 +178,39 @@ export async function gatherLines(hash: string, gatherId: string) {
     };
   }
   throw new AppError("bad-input", `Artifact ${hash.slice(0, 12)}… holds ${kind}; lines come from picks or mutes.`, { field: "hash" });
+}
+
+/**
+ * One window of a dispersion artifact, JSON: the axes, the image (flat `[frequency][velocity]`,
+ * rounded to 4 decimals: values lie in [0, 1]), the picked curves and the modelled one, and the
+ * list of windows to choose from. Without `windowId`, the first window.
+ */
+export async function dispersionJson(hash: string, windowId?: string): Promise<DispersionWindowJson> {
+  const d = await loadAs<DispersionSet>(hash, "dispersion");
+  const w = windowId === undefined ? d.windows[0] : d.windows.find((x) => x.id === windowId);
+  if (!w) throw new AppError("not-found", `No window "${windowId}" here. Windows: ${d.windows.map((x) => x.id).join(", ")}.`, { field: "window" });
+  const curve = (c: DispersionSet["windows"][number]["picks"][number]) => ({
+    mode: c.mode,
+    origin: c.origin,
+    points: Array.from(c.frequenciesHz, (f, i) => [f, c.velocitiesMps[i]] as [number, number]),
+  });
+  return {
+    frequenciesHz: Array.from(d.frequenciesHz),
+    velocitiesMps: Array.from(d.velocitiesMps),
+    normalisation: d.normalisation,
+    windows: d.windows.map((x) => ({ id: x.id, centreX: x.centreX, receiverX0: x.receiverX0, receiverX1: x.receiverX1 })),
+    window: {
+      id: w.id,
+      centreX: w.centreX,
+      gatherIds: w.gatherIds,
+      traceCount: w.traceCount,
+      minOffsetM: w.minOffsetM,
+      maxOffsetM: w.maxOffsetM,
+      image: Array.from(w.image, (v) => Math.round(v * 1e4) / 1e4),
+      picks: w.picks.map(curve),
+      modelled: w.modelled ? curve(w.modelled) : null,
+    },
+  };
 }
 
 /** Mean amplitude spectrum of each gather (or one), JSON. */

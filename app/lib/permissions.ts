@@ -100,6 +100,7 @@ export const ROUTE_REQUIREMENTS: Record<string, Requirement> = {
   "GET /api/artifacts/[hash]/positions": "runs.read",
   "GET /api/artifacts/[hash]/snapshots": "runs.read",
   "GET /api/artifacts/[hash]/spectra": "runs.read",
+  "GET /api/artifacts/[hash]/dispersion": "runs.read",
   "GET /api/artifacts/[hash]/traces": "runs.read",
   "GET /api/audit": "audit.read",
   "GET /api/pipeline-versions/[versionId]/yaml": "runs.read",

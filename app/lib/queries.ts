@@ -4,7 +4,7 @@
  */
 import { queryOptions } from "@tanstack/react-query";
 import { decodeWire } from "./trace-wire";
-import type { ArtifactOutline, LogLine, RunListPage, RunView, TraceHeaderWire } from "./view-types";
+import type { ArtifactOutline, DispersionWindowJson, LogLine, RunListPage, RunView, TraceHeaderWire } from "./view-types";
 
 const live = (status: string | undefined) => status === "queued" || status === "running";
 
@@ -103,9 +103,15 @@ export const artifactQueries = {
       queryKey: ["lines", hash, gatherId],
       queryFn: () =>
         getJson<
-          | { kind: "picks"; picks: Array<{ traceIndex: number; timeS: number; flagged: boolean }> }
+          | { kind: "picks"; picks: Array<{ traceIndex: number; timeS: number; flagged: boolean; hand?: boolean }> }
           | { kind: "mutes"; lines: Array<{ role: string; timesS: number[] }> }
         >(`/api/artifacts/${hash}/lines?gather=${encodeURIComponent(gatherId)}`),
+      staleTime: Infinity,
+    }),
+  dispersion: (hash: string, windowId?: string) =>
+    queryOptions({
+      queryKey: ["dispersion", hash, windowId ?? "first"],
+      queryFn: () => getJson<DispersionWindowJson>(`/api/artifacts/${hash}/dispersion${windowId ? `?window=${encodeURIComponent(windowId)}` : ""}`),
       staleTime: Infinity,
     }),
   model: (hash: string) =>

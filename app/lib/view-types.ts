@@ -160,6 +160,37 @@ export interface TraceHeaderWire {
   decimation: number;
   offsetsM: number[];
   receiverXM: number[];
+  /** Channel number of each trace within its record (1-based). */
+  channels: number[];
   sourceXM: number;
   dead: boolean[];
+}
+
+/** A dispersion curve as the browser holds it: points [frequency Hz, phase velocity m/s]. */
+export interface DispersionCurveJson {
+  mode: number;
+  origin: "automatic" | "hand" | "modelled";
+  points: Array<[number, number]>;
+}
+
+/** One window of a dispersion artifact (GET /api/artifacts/:hash/dispersion). */
+export interface DispersionWindowJson {
+  /** Frequency axis, Hz (image rows). */
+  frequenciesHz: number[];
+  /** Trial phase-velocity axis, m/s (image columns). */
+  velocitiesMps: number[];
+  normalisation: "per-frequency" | "none";
+  windows: Array<{ id: string; centreX: number; receiverX0: number; receiverX1: number }>;
+  window: {
+    id: string;
+    centreX: number;
+    gatherIds: string[];
+    traceCount: number;
+    minOffsetM: number;
+    maxOffsetM: number;
+    /** Flat `[frequency][velocity]`, values in [0, 1]. */
+    image: number[];
+    picks: DispersionCurveJson[];
+    modelled: DispersionCurveJson | null;
+  };
 }

@@ -178,6 +178,15 @@ export const dispersionImageStep = defineStep({
     const knownIds = spans.map((_, i) => windowId(i));
     p.handPicks.forEach((h, i) => {
       if (!knownIds.includes(h.window)) throw new StepInputError(`handPicks[${i}] names window "${h.window}"; the windows are ${knownIds.join(", ")}`, `handPicks.${i}.window`);
+      // A hand pick lies on the image it was picked on (half a step of slack at the edges).
+      h.points.forEach(([f, c], j) => {
+        if (f < p.minFrequencyHz - p.frequencyStepHz / 2 || f > p.maxFrequencyHz + p.frequencyStepHz / 2) {
+          throw new StepInputError(`handPicks[${i}].points[${j}] is at ${f} Hz, outside the image's ${p.minFrequencyHz} to ${p.maxFrequencyHz} Hz`, `handPicks.${i}.points.${j}`);
+        }
+        if (c < p.minVelocityMps - p.velocityStepMps / 2 || c > p.maxVelocityMps + p.velocityStepMps / 2) {
+          throw new StepInputError(`handPicks[${i}].points[${j}] is at ${c} m/s, outside the image's ${p.minVelocityMps} to ${p.maxVelocityMps} m/s`, `handPicks.${i}.points.${j}`);
+        }
+      });
     });
 
     const pickOptions = {

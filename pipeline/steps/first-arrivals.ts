@@ -6,9 +6,23 @@
  */
 import { z } from "zod";
 import { defineStep, StepInputError, throwIfAborted } from "../step";
-import type { GatherSet, PickSet } from "../types";
+import type { Gather, GatherSet, PickSet } from "../types";
 import { aicPicks, flagOffsetOutliers, staLtaPicks, type PickSearchWindow } from "../kernels/pickers";
+import { applyPickEdits, type TracePickEdit } from "../kernels/pick-edits";
 import { runTraceBlocks } from "../workers/trace-blocks";
+
+/** One hand edit of a pick, as the control room saves it (see pipeline/kernels/pick-edits.ts for the semantics). */
+const pickEditSchema = z.object({
+  gather: z.string().min(1).describe('Id of the gather (shot record) the trace belongs to, e.g. "sp07"'),
+  channel: z.number().int().min(1).describe("Channel number of the trace within its record (1-based)"),
+  action: z
+    .enum(["moved", "deleted", "added"])
+    .describe('"moved": the pick of the trace goes to timeMs; "added": a pick at timeMs where the picker made none; "deleted": the trace keeps no pick'),
+  timeMs: z.number().nullable().default(null).describe("New pick time, ms after the source (null for deleted)"),
+});
+
+/** A hand edit of a first-arrival pick (a `pickEdits` entry). */
+export type FirstArrivalPickEdit = z.output<typeof pickEditSchema>;
 
 export const firstArrivalsParams = z
   .object({
@@ -63,6 +77,13 @@ export const firstArrivalsParams = z
     trendNeighbours: z.number().int().min(1).max(20).default(3).describe("Picked traces on each side used to fit the local offset-time trend"),
     /** @default 4 */
     trendToleranceMs: z.number().positive().default(4).describe("A pick farther than this from the local offset-time trend is flagged, ms"),
+    /** @default [] */
+    pickEdits: z
+      .array(pickEditSchema)
+      .default([])
+      .describe(
+        "Picks edited by hand (in the control room), applied after the automatic picker in list order (the last edit of a trace decides); hand picks have quality 1, are never flagged and are marked as hand picks",
+      ),
   })
   .superRefine((p, ctx) => {
     if (p.longWindowMs < p.shortWindowMs) {
@@ -74,13 +95,57 @@ export const firstArrivalsParams = z
     if (p.searchEndMs !== null && p.searchEndMs <= p.searchStartMs) {
       ctx.addIssue({ code: "custom", path: ["searchEndMs"], message: `searchEndMs (${p.searchEndMs}) must be after searchStartMs (${p.searchStartMs})` });
     }
+    p.pickEdits.forEach((e, i) => {
+      if (e.action !== "deleted" && e.timeMs === null) {
+        ctx.addIssue({ code: "custom", path: ["pickEdits", i, "timeMs"], message: `pickEdits[${i}] (${e.action}) needs a time, timeMs` });
+      }
+    });
   });
 
 export type FirstArrivalsParams = z.output<typeof firstArrivalsParams>;
 
+/**
+ * The hand edits resolved to traces, per gather id. Refuses, as StepInputError naming the edit's
+ * field (`pickEdits.3.channel`), an edit of a gather that is not there, of a channel the gather
+ * does not hold (or holds on several traces), of a dead trace, or a time outside the record.
+ */
+export function resolvePickEdits(gathers: readonly Gather[], edits: readonly FirstArrivalPickEdit[]): Map<string, TracePickEdit[]> {
+  const byId = new Map(gathers.map((g) => [g.id, g]));
+  const out = new Map<string, TracePickEdit[]>();
+  edits.forEach((e, i) => {
+    const g = byId.get(e.gather);
+    if (!g) {
+      const ids = [...byId.keys()];
+      throw new StepInputError(`pickEdits[${i}] names gather "${e.gather}", which is not among the gathers (${ids.slice(0, 8).join(", ")}${ids.length > 8 ? ", …" : ""})`, `pickEdits.${i}.gather`);
+    }
+    const rows = g.traces.flatMap((h, t) => (h.channel === e.channel ? [t] : []));
+    if (rows.length === 0) {
+      const channels = g.traces.map((h) => h.channel);
+      throw new StepInputError(`pickEdits[${i}] names channel ${e.channel} of gather "${g.id}", which holds channels ${Math.min(...channels)} to ${Math.max(...channels)}`, `pickEdits.${i}.channel`);
+    }
+    if (rows.length > 1) throw new StepInputError(`pickEdits[${i}]: channel ${e.channel} occurs on ${rows.length} traces of gather "${g.id}" (several components?); edit a gather with one trace per channel`, `pickEdits.${i}.channel`);
+    const trace = rows[0];
+    if (g.traces[trace].dead) throw new StepInputError(`pickEdits[${i}] edits channel ${e.channel} of gather "${g.id}", a dead trace`, `pickEdits.${i}.channel`);
+    let timeS = NaN;
+    if (e.action !== "deleted") {
+      const firstMs = g.startTimeS * 1000;
+      const lastMs = (g.startTimeS + (g.sampleCount - 1) * g.sampleIntervalS) * 1000;
+      // Half a microsecond of slack for the ms ↔ s round trip.
+      if (e.timeMs === null || !(e.timeMs >= firstMs - 5e-4 && e.timeMs <= lastMs + 5e-4)) {
+        throw new StepInputError(`pickEdits[${i}] puts the pick of channel ${e.channel} of gather "${g.id}" at ${e.timeMs} ms, outside the record (${firstMs.toFixed(3)} … ${lastMs.toFixed(3)} ms)`, `pickEdits.${i}.timeMs`);
+      }
+      timeS = e.timeMs / 1000;
+    }
+    const list = out.get(g.id) ?? [];
+    list.push({ trace, action: e.action, timeS });
+    out.set(g.id, list);
+  });
+  return out;
+}
+
 export const firstArrivalsStep = defineStep({
   id: "first-arrivals",
-  version: 3,
+  version: 4,
   title: "First-arrival picking (STA/LTA, AIC)",
   description:
     "Picks first arrivals per trace by an energy ratio (STA/LTA on Allen's 1978 characteristic function) or by an information criterion " +
@@ -126,9 +191,11 @@ export const firstArrivalsStep = defineStep({
       }
       return w;
     });
+    const editsByGather = resolvePickEdits(set.gathers, params.pickEdits);
     const result: PickSet = { kind: "picks", method: params.method, picks: [] };
-    const table: Array<{ gatherId: string; traceIndex: number; channel: number; offsetM: number; timeS: number; quality: number; flagged: boolean }> = [];
-    const perGather: Array<{ gatherId: string; traces: number; picked: number; flagged: number; dropped: number }> = [];
+    const table: Array<{ gatherId: string; traceIndex: number; channel: number; offsetM: number; timeS: number; quality: number; flagged: boolean; origin: "automatic" | "hand" }> = [];
+    const perGather: Array<{ gatherId: string; traces: number; picked: number; flagged: number; dropped: number; handPicks: number; handDeleted: number }> = [];
+    const hand = { moved: 0, added: 0, deleted: 0, superseded: 0 };
     for (let gi = 0; gi < set.gathers.length; gi++) {
       throwIfAborted(ctx.signal);
       const g = set.gathers[gi];
@@ -174,18 +241,36 @@ export const firstArrivalsStep = defineStep({
           quality[t] = p.result.quality[k];
         }
       }
+      // Hand edits after the automatic picker; the trend check sees the edited picks, and a hand
+      // pick is the processor's word: quality 1, never flagged.
+      const edited = applyPickEdits(timesS, editsByGather.get(g.id) ?? []);
+      hand.moved += edited.moved;
+      hand.added += edited.added;
+      hand.deleted += edited.deleted;
+      hand.superseded += edited.superseded;
       const offsets = g.traces.map((h) => h.offset);
-      const flags = flagOffsetOutliers(offsets, timesS, params.trendNeighbours, params.trendToleranceMs / 1000);
+      const flags = flagOffsetOutliers(offsets, edited.timesS, params.trendNeighbours, params.trendToleranceMs / 1000);
       let picked = 0;
       let flagged = 0;
+      let handPicks = 0;
+      let handDeleted = 0;
       for (let t = 0; t < n; t++) {
-        if (!(timesS[t] === timesS[t])) continue;
+        const byHand = edited.hand[t] === 1;
+        const time = edited.timesS[t];
+        if (!(time === time)) {
+          if (byHand) handDeleted++;
+          continue;
+        }
+        const q = byHand ? 1 : quality[t];
+        const isFlagged = !byHand && flags[t] === 1;
+        const origin = byHand ? ("hand" as const) : ("automatic" as const);
         picked++;
-        if (flags[t]) flagged++;
-        result.picks.push({ gatherId: g.id, traceIndex: t, timeS: timesS[t], quality: quality[t], flagged: flags[t] === 1 });
-        table.push({ gatherId: g.id, traceIndex: t, channel: g.traces[t].channel, offsetM: offsets[t], timeS: timesS[t], quality: quality[t], flagged: flags[t] === 1 });
+        if (byHand) handPicks++;
+        if (isFlagged) flagged++;
+        result.picks.push({ gatherId: g.id, traceIndex: t, timeS: time, quality: q, flagged: isFlagged, origin });
+        table.push({ gatherId: g.id, traceIndex: t, channel: g.traces[t].channel, offsetM: offsets[t], timeS: time, quality: q, flagged: isFlagged, origin });
       }
-      perGather.push({ gatherId: g.id, traces: n, picked, flagged, dropped });
+      perGather.push({ gatherId: g.id, traces: n, picked, flagged, dropped, handPicks, handDeleted });
       ctx.progress((gi + 1) / set.gathers.length, g.id);
     }
     const traces = perGather.reduce((s, p) => s + p.traces, 0);
@@ -193,18 +278,24 @@ export const firstArrivalsStep = defineStep({
     const flagged = result.picks.filter((p) => p.flagged).length;
     const dropped = perGather.reduce((s, p) => s + p.dropped, 0);
     ctx.log.info({ traces, picked, flagged, dropped }, `picked ${picked} of ${traces} traces (${params.method}); ${flagged} picks flagged off the offset trend, ${dropped} dropped below quality ${params.minQuality}`);
+    if (params.pickEdits.length > 0) {
+      ctx.log.info(
+        { handEdits: params.pickEdits.length, ...hand },
+        `${params.pickEdits.length} hand edit(s): ${hand.moved} pick(s) moved, ${hand.added} added, ${hand.deleted} deleted${hand.superseded ? `, ${hand.superseded} edit(s) overruled by a later edit of the same trace` : ""}`,
+      );
+    }
     return {
       outputs: {
         picks: result,
         report: { kind: "json", role: "first-arrivals", data: { method: params.method, perGather, offsetTime: table } },
       },
-      summary: { method: params.method, traces, picked, flagged, dropped },
+      summary: { method: params.method, traces, picked, flagged, dropped, handEdits: params.pickEdits.length, handMoved: hand.moved, handAdded: hand.added, handDeleted: hand.deleted },
       series: [
         {
           name: "first-arrivals",
           xLabel: "offset (m)",
           yLabel: "first-arrival time (ms)",
-          points: table.map((r) => ({ x: r.offsetM, y: r.timeS * 1000, group: r.flagged ? `${r.gatherId} (flagged)` : r.gatherId })),
+          points: table.map((r) => ({ x: r.offsetM, y: r.timeS * 1000, group: r.origin === "hand" ? `${r.gatherId} (hand)` : r.flagged ? `${r.gatherId} (flagged)` : r.gatherId })),
         },
       ],
     };

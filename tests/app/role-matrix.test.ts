@@ -46,7 +46,7 @@ const ORIGIN = "http://127.0.0.1:3000";
 let tmp: string;
 const users = {} as Record<Role, { id: number; role: Role; name: string; email: string }>;
 let reviewCount = 0;
-const fx = { runId: 0, fieldCheckRunId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", spare: 0, invertedRunId: 0, report: "", profileId: 0, uploadId: 0, transferSessionId: 0, transfer: "" };
+const fx = { runId: 0, fieldCheckRunId: 0, pipelineVersionId: 0, datasetId: 0, gathers: "", model: "", snapshots: "", picks: "", spectra: "", dispersion: "", spare: 0, invertedRunId: 0, report: "", profileId: 0, uploadId: 0, transferSessionId: 0, transfer: "" };
 let surveyCount = 0;
 let uploadFileCount = 0;
 const tusHeaders = (extra: Record<string, string>) => ({ "tus-resumable": "1.0.0", ...extra });
@@ -95,6 +95,7 @@ const CASES: Record<string, Case> = {
   "GET /api/artifacts/[hash]/positions": () => ({ url: `/api/artifacts/${fx.gathers}/positions`, params: { hash: fx.gathers } }),
   "GET /api/artifacts/[hash]/snapshots": () => ({ url: `/api/artifacts/${fx.snapshots}/snapshots?frame=1`, params: { hash: fx.snapshots } }),
   "GET /api/artifacts/[hash]/spectra": () => ({ url: `/api/artifacts/${fx.spectra}/spectra`, params: { hash: fx.spectra } }),
+  "GET /api/artifacts/[hash]/dispersion": () => ({ url: `/api/artifacts/${fx.dispersion}/dispersion?window=W01`, params: { hash: fx.dispersion } }),
   "GET /api/artifacts/[hash]/traces": () => ({ url: `/api/artifacts/${fx.gathers}/traces`, params: { hash: fx.gathers } }),
   "GET /api/audit": () => ({ url: "/api/audit" }),
   "GET /api/pipeline-versions/[versionId]/yaml": () => ({ url: `/api/pipeline-versions/${fx.pipelineVersionId}/yaml`, params: { versionId: String(fx.pipelineVersionId) } }),
@@ -172,6 +173,13 @@ beforeAll(async () => {
   fx.invertedRunId = await runInversionFixture(db, tmp, { lowPassHz: [40], iterations: 1 });
   addReview(db, { runId: fx.invertedRunId, reviewerUserId: users.lead.id, decision: "approved", comment: "" });
   fx.report = (await createReport(db, fx.invertedRunId, { userId: users.lead.id, label: users.lead.name, door: "cli" })).hash;
+  fx.dispersion = record("dispersion", {
+    kind: "dispersion",
+    frequenciesHz: new Float64Array([10, 20]),
+    velocitiesMps: new Float64Array([100, 200]),
+    normalisation: "per-frequency",
+    windows: [{ id: "W01", centreX: 5, receiverX0: 0, receiverX1: 10, gatherIds: ["g1"], traceCount: 3, minOffsetM: 1, maxOffsetM: 10, image: new Float32Array([1, 0.5, 0.2, 1]), picks: [{ mode: 0, origin: "automatic", frequenciesHz: new Float64Array([10, 20]), velocitiesMps: new Float64Array([100, 200]) }] }],
+  });
   fx.spectra = record("spectra", { kind: "spectra", frequenciesHz: new Float32Array([0, 10]), gathers: [{ gatherId: "g1", mean: new Float32Array([1, 2]), perTrace: new Float32Array([1, 2]) }] });
 }, 180_000);
 

@@ -749,6 +749,148 @@ async function main() {
       check((await page.textContent("body"))?.includes("Not allowed for your role"), "rerun page not refused");
     });
 
+    await test("hand picks: a first-arrival pick and a dispersion curve edited and saved as new runs; the auditor gets 403", async () => {
+      await signIn(page, origin, account("processor").email, account("processor").password);
+      // The model-from-data run: first-arrival picks and dispersion images in one run.
+      let source: Awaited<ReturnType<typeof apiRun>> | null = null;
+      for (const row of (await apiRuns(page, origin)).rows.filter((r) => r.status === "succeeded")) {
+        const detail = await apiRun(page, origin, row.id);
+        if (detail.steps.some((st) => st.stepId === "first-arrivals") && detail.steps.some((st) => st.stepId === "dispersion-image")) source = detail;
+      }
+      check(source, "the demo data has no succeeded run with first-arrivals and dispersion-image steps");
+      const fa = source.steps.find((st) => st.stepId === "first-arrivals")!;
+      // With a job queue the forward modelling's shots wait for a worker: start one for these runs.
+      const worker = redis ? spawnWorkerProcess({ url: redis.url, dataDir }) : null;
+      try {
+      const waitForRun = async (id: number) => {
+        const deadline = Date.now() + 300_000;
+        let detail = await apiRun(page, origin, id);
+        while ((detail.status === "queued" || detail.status === "running") && Date.now() < deadline) {
+          await page.waitForTimeout(1000);
+          detail = await apiRun(page, origin, id);
+        }
+        check(detail.status === "succeeded", `run ${id} ended ${detail.status}`);
+        return detail;
+      };
+
+      // First arrivals: from the step's card to the editor.
+      await goto(page, `${origin}/runs/${source.id}?step=${encodeURIComponent(fa.label)}`);
+      await page.click("[data-testid=edit-picks-link]");
+      await page.waitForURL(/\/picks\?step=/);
+      const canvas = page.locator("[data-testid=pick-editor-canvas]");
+      await canvas.waitFor();
+      await page.selectOption("[data-testid=pick-editor-gather]", { index: 2 });
+      const gatherId = await page.inputValue("[data-testid=pick-editor-gather]");
+      await page.waitForFunction(() => (document.querySelector("[data-testid=pick-editor-canvas]") as HTMLCanvasElement | null)?.dataset.drawMs !== undefined);
+      await page.waitForTimeout(500);
+      const box = (await canvas.boundingBox())!;
+      // Trace canvas margins (draw-traces.ts MARGIN): left 58, right 14, top 38, bottom 12.
+      const plotX = (f: number) => box.x + 58 + f * (box.width - 72);
+      const plotY = (f: number) => box.y + 38 + f * (box.height - 50);
+      // A click on a trace near the middle puts its pick at the clicked time (a dead trace takes
+      // none and says so: then the next trace along).
+      for (const f of [0.5, 0.55, 0.6, 0.65]) {
+        await page.mouse.click(plotX(f), plotY(0.3));
+        if (await page.locator("[data-testid=pending-edit]").count()) break;
+      }
+      await page.waitForSelector("[data-testid=pending-edit]");
+      const moved = (await page.locator("[data-testid=pending-edit]").first().locator("td").allTextContents()).map((t) => t.trim());
+      const movedChannel = Number(moved[1]);
+      const movedMs = parseFloat(moved[4]);
+      check(moved[0] === gatherId && Number.isInteger(movedChannel) && Number.isFinite(movedMs) && (moved[3] === "moved" || moved[3] === "added"), `unexpected pending edit: ${moved.join(" | ")}`);
+      // Another trace: chosen by a click, then its pick removed with the Delete key.
+      await page.mouse.click(plotX(0.2), plotY(0.3));
+      await page.keyboard.press("Delete");
+      await page.waitForFunction(() => [...document.querySelectorAll("[data-testid=pending-edit]")].some((r) => r.textContent?.includes("deleted")));
+      // A trace with an automatic pick (about 9 m from the source): a click there moves it.
+      await page.mouse.click(plotX(0.28), plotY(0.36));
+      const rows = await page.locator("[data-testid=pending-edit]").evaluateAll((els) => els.map((e) => [...e.querySelectorAll("td")].map((td) => (td.textContent ?? "").trim())));
+      check(rows.length === 3, `expected 3 pending edits, found ${rows.length}`);
+      check(rows.some((r) => r[3] === "moved"), `no pick was moved: ${JSON.stringify(rows)}`);
+      const deletedChannel = Number(rows.find((r) => r[3] === "deleted")![1]);
+      await shoot(page, "pick-editor");
+      await page.click("[data-testid=save-pick-edits]");
+      await page.waitForURL(/\/runs\/\d+$/, { timeout: 20_000 });
+      const pickRunId = Number(page.url().split("/").pop());
+      check(pickRunId > source.id, "saving the edits did not open a new run");
+      const pickRun = await waitForRun(pickRunId);
+      const faNew = pickRun.steps.find((st) => st.label === fa.label)!;
+      const edits = faNew.params.pickEdits as Array<{ gather: string; channel: number; action: string; timeMs: number | null }>;
+      check(edits.some((e) => e.gather === gatherId && e.channel === movedChannel && e.timeMs === movedMs), `the new run's pickEdits lack the move: ${JSON.stringify(edits)}`);
+      check(edits.some((e) => e.gather === gatherId && e.channel === deletedChannel && e.action === "deleted"), `the new run's pickEdits lack the deletion: ${JSON.stringify(edits)}`);
+      check(pickRun.steps.slice(0, pickRun.steps.indexOf(faNew)).every((st) => st.cacheHit), "steps before the picks were not taken from the cache");
+      // The new picks artifact holds the hand pick at the clicked time (the trace is found by its channel).
+      const lines = (await (await page.request.get(`${origin}/api/artifacts/${faNew.outputs.picks}/lines?gather=${encodeURIComponent(gatherId)}`)).json()) as { picks: Array<{ traceIndex: number; timeS: number; hand?: boolean }> };
+      const handPicks = lines.picks.filter((p) => p.hand);
+      check(handPicks.length === 2 && handPicks.some((p) => Math.abs(p.timeS * 1000 - movedMs) < 1e-6), `expected two hand picks, one at ${movedMs} ms, got ${JSON.stringify(handPicks)}`);
+      // The card of the new run draws it as a hand pick in the travel-time chart.
+      await goto(page, `${origin}/runs/${pickRunId}?step=${encodeURIComponent(fa.label)}`);
+      await page.waitForSelector("[data-testid=travel-time-shot]");
+      await page.selectOption("[data-testid=travel-time-shot]", gatherId);
+      await page.waitForSelector("[data-testid=hand-pick]");
+      await shoot(page, "pick-edit-result");
+
+      // Dispersion: a curve started from the automatic pick, a point added, one dragged, one deleted.
+      const di = pickRun.steps.find((st) => st.stepId === "dispersion-image")!;
+      await goto(page, `${origin}/runs/${pickRunId}/dispersion-picks?step=${encodeURIComponent(di.label)}`);
+      await page.waitForSelector("[data-testid=dispersion-image]");
+      await page.click("[data-testid=dispersion-from-automatic]");
+      const points = page.locator("[data-testid=dispersion-point]");
+      const startCount = await points.count();
+      check(startCount >= 4, `the automatic pick gave ${startCount} points`);
+      const centre = async (i: number) => {
+        const b = (await points.nth(i).boundingBox())!;
+        return { x: b.x + b.width / 2, y: b.y + b.height / 2 };
+      };
+      const [p1, p2] = [await centre(1), await centre(2)];
+      await page.mouse.click((p1.x + p2.x) / 2, (p1.y + p2.y) / 2);
+      check((await points.count()) === startCount + 1, "a click on the image did not add a point");
+      const before = await centre(3);
+      await page.mouse.move(before.x, before.y);
+      await page.mouse.down();
+      await page.mouse.move(before.x, before.y - 12, { steps: 4 });
+      await page.mouse.up();
+      const after = await centre(3);
+      check(Math.abs(after.y - (before.y - 12)) < 2 && Math.abs(after.x - before.x) < 2, `the dragged point is at ${JSON.stringify(after)}, expected 12 px above ${JSON.stringify(before)}`);
+      const chosen = await centre(5);
+      await page.mouse.click(chosen.x, chosen.y);
+      await page.click("[data-testid=dispersion-delete-point]");
+      check((await points.count()) === startCount, "Delete point did not remove the chosen point");
+      await shoot(page, "dispersion-editor");
+      const window = await page.inputValue("[data-testid=dispersion-window]");
+      await page.click("[data-testid=save-dispersion-picks]");
+      await page.waitForURL(/\/runs\/\d+$/, { timeout: 20_000 });
+      const dispRunId = Number(page.url().split("/").pop());
+      check(dispRunId > pickRunId, "saving the dispersion picks did not open a new run");
+      const dispRun = await waitForRun(dispRunId);
+      const diNew = dispRun.steps.find((st) => st.label === di.label)!;
+      const saved = diNew.params.handPicks as Array<{ window: string; mode: number; points: Array<[number, number]> }>;
+      check(saved.length === 1 && saved[0].window === window && saved[0].mode === 0 && saved[0].points.length === startCount, `unexpected handPicks: ${JSON.stringify(saved)}`);
+      const image = (await (await page.request.get(`${origin}/api/artifacts/${diNew.outputs.dispersion}/dispersion?window=${window}`)).json()) as { window: { picks: Array<{ origin: string; mode: number; points: Array<[number, number]> }> } };
+      const hand = image.window.picks.find((c) => c.origin === "hand" && c.mode === 0);
+      check(hand && JSON.stringify(hand.points) === JSON.stringify(saved[0].points), "the new dispersion artifact does not hold the hand pick");
+
+      // The auditor may look at runs but not edit picks: the pages and the rerun answer 403.
+      await signIn(page, origin, account("auditor").email, account("auditor").password);
+      await goto(page, `${origin}/runs/${pickRunId}?step=${encodeURIComponent(fa.label)}`);
+      await page.waitForSelector("[data-testid=step-panel]");
+      check((await page.locator("[data-testid=edit-picks-link]").count()) === 0, "the auditor sees the pick editor link");
+      await goto(page, `${origin}/runs/${pickRunId}/picks`);
+      check((await page.textContent("body"))?.includes("Not allowed for your role"), "the pick editor is not refused to the auditor");
+      // The dispersion image with its picks is for every reader; its editing controls are not.
+      await goto(page, `${origin}/runs/${dispRunId}/dispersion-picks`);
+      await page.waitForSelector("[data-testid=dispersion-image]");
+      check((await page.locator("[data-testid=dispersion-point]").count()) === startCount, "the auditor does not see the saved hand pick");
+      check((await page.locator("[data-testid=save-dispersion-picks], [data-testid=dispersion-from-automatic]").count()) === 0, "the auditor sees editing controls");
+      await page.click("[data-testid=dispersion-image]");
+      check((await page.locator("[data-testid=dispersion-point]").count()) === startCount, "a click by the auditor added a point");
+      const res = await page.request.post(`${origin}/api/runs/${pickRunId}/rerun`, { data: { fromLabel: fa.label, overrides: { [fa.label]: { pickEdits: edits } } } });
+      check(res.status() === 403, `the auditor's pick edit rerun answered ${res.status()}`);
+      } finally {
+        await worker?.stop("SIGTERM");
+      }
+    });
+
     await test("lead approves a run; the audit trail records it", async () => {
       await signIn(page, origin, account("lead").email, account("lead").password);
       await goto(page, `${origin}/runs/${firstRunId}`);

@@ -5,11 +5,11 @@ import type { StepView } from "@/app/lib/view-types";
 import { formatNumber } from "@/app/ui/format";
 import { niceDomain, niceTicks, tickLabel } from "./ticks";
 
-/** A series group name "sp07 (flagged)" → shot "sp07", flagged. */
-export function parseGroup(group: string | undefined, fallback: string): { shot: string; flagged: boolean } {
+/** A series group name "sp07 (flagged)" → shot "sp07", flagged; "sp07 (hand)" → shot "sp07", a hand pick. */
+export function parseGroup(group: string | undefined, fallback: string): { shot: string; flagged: boolean; hand: boolean } {
   const g = group ?? fallback;
-  const m = /^(.*) \(flagged\)$/.exec(g);
-  return m ? { shot: m[1], flagged: true } : { shot: g, flagged: false };
+  const m = /^(.*) \((flagged|hand)\)$/.exec(g);
+  return m ? { shot: m[1], flagged: m[2] === "flagged", hand: m[2] === "hand" } : { shot: g, flagged: false, hand: false };
 }
 
 const capital = (t: string) => t.charAt(0).toUpperCase() + t.slice(1);
@@ -31,7 +31,7 @@ export function TravelTimeChart({ series }: { series: StepView["series"][number]
   const points = useMemo(() => series.points.map((p) => ({ x: p.x, y: p.y, ...parseGroup(p.group, series.name) })), [series]);
   const shots = useMemo(() => [...new Set(points.map((p) => p.shot))], [points]);
   const [shot, setShot] = useState<string>("");
-  const [hover, setHover] = useState<{ x: number; y: number; shot: string; flagged: boolean } | null>(null);
+  const [hover, setHover] = useState<{ x: number; y: number; shot: string; flagged: boolean; hand: boolean } | null>(null);
   const active = shot || shots[0] || "";
   const wrap = useRef<HTMLDivElement>(null);
   const [width, setWidth] = useState(0);
@@ -53,6 +53,7 @@ export function TravelTimeChart({ series }: { series: StepView["series"][number]
   const mine = points.filter((p) => p.shot === active);
   const good = mine.filter((p) => !p.flagged).sort((a, b) => a.x - b.x);
   const flaggedCount = points.filter((p) => p.flagged).length;
+  const handCount = points.filter((p) => p.hand).length;
 
   return (
     <figure className="card min-w-0 p-3 lg:col-span-2" data-testid={`series-${series.name}`}>
@@ -88,7 +89,9 @@ export function TravelTimeChart({ series }: { series: StepView["series"][number]
             ))}
             {good.length > 1 ? <polyline points={good.map((p) => `${px(p.x)},${py(p.y)}`).join(" ")} fill="none" stroke="#1f5f8b" strokeWidth={1.2} /> : null}
             {mine.map((p, i) =>
-              p.flagged ? (
+              p.hand ? (
+                <rect key={`m${i}`} x={px(p.x) - 3.5} y={py(p.y) - 3.5} width={7} height={7} fill="#2f7a4f" stroke="#fff" strokeWidth={0.8} onMouseEnter={() => setHover(p)} data-testid="hand-pick" />
+              ) : p.flagged ? (
                 <circle key={`m${i}`} cx={px(p.x)} cy={py(p.y)} r={3.5} fill="#fff" stroke="#b23a2e" strokeWidth={1.4} onMouseEnter={() => setHover(p)} />
               ) : (
                 <circle key={`m${i}`} cx={px(p.x)} cy={py(p.y)} r={3} fill="#1f5f8b" onMouseEnter={() => setHover(p)} />
@@ -98,7 +101,7 @@ export function TravelTimeChart({ series }: { series: StepView["series"][number]
               <g pointerEvents="none">
                 <rect x={Math.min(px(hover.x) + 8, M.left + pw - 170)} y={Math.max(M.top, py(hover.y) - 30)} width={165} height={22} rx={3} fill="#ffffff" stroke="#c9cfcc" />
                 <text x={Math.min(px(hover.x) + 14, M.left + pw - 164)} y={Math.max(M.top, py(hover.y) - 30) + 15} fontSize={10} fill="#1c2326">
-                  {hover.shot}: {formatNumber(hover.x, picks ? "m" : null, 3)}, {formatNumber(hover.y, picks ? "ms" : null, 3)}{hover.flagged ? " (flagged)" : ""}
+                  {hover.shot}: {formatNumber(hover.x, picks ? "m" : null, 3)}, {formatNumber(hover.y, picks ? "ms" : null, 3)}{hover.flagged ? " (flagged)" : hover.hand ? " (by hand)" : ""}
                 </text>
               </g>
             ) : null}
@@ -110,6 +113,7 @@ export function TravelTimeChart({ series }: { series: StepView["series"][number]
       <ul className="mt-1 flex flex-wrap gap-x-4 text-[11px] text-ink-soft" aria-label="Legend">
         <li><span className="mr-1 inline-block h-2 w-2 rounded-full bg-[#1f5f8b] align-middle" />{picks ? "picks of" : "values of"} {active}</li>
         {flaggedCount ? <li><span className="mr-1 inline-block h-2 w-2 rounded-full border border-[#b23a2e] align-middle" />flagged off the trend ({mine.filter((p) => p.flagged).length} here, {flaggedCount} of {points.length} in all)</li> : null}
+        {handCount ? <li><span className="mr-1 inline-block h-2 w-2 bg-[#2f7a4f] align-middle" />picked by hand ({mine.filter((p) => p.hand).length} here, {handCount} in all)</li> : null}
         <li><span className="mr-1 inline-block h-1.5 w-1.5 rounded-full bg-[#9aa3a6] align-middle" />other {picks ? "shots" : "gathers"} (click one to choose it)</li>
       </ul>
     </figure>

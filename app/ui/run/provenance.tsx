@@ -1,6 +1,6 @@
 import Link from "next/link";
 import type { RunView } from "@/app/lib/view-types";
-import { DOOR_LABELS, formatSettingValue, formatTime, readableName, shortHash } from "@/app/ui/format";
+import { DOOR_LABELS, formatReadable, formatSettingValue, formatTime, readableName, shortHash } from "@/app/ui/format";
 import { StatusBadge } from "@/app/ui/status-badge";
 
 /** Who made this result, from what and how: the auditor's view of one run. */
@@ -37,7 +37,7 @@ export function Provenance({ run, canExportAudit = false }: { run: RunView; canE
         <div className="mt-3">
           <h3 className="text-xs font-semibold text-ink-soft">Changed settings{run.rerunFromStep ? ` (from step ${run.rerunFromStep})` : ""}</h3>
           <ul className="mt-1 space-y-0.5 font-mono text-xs" data-testid="overrides">
-            {overrideEntries.flatMap(([label, params]) => Object.entries(params).map(([k, v]) => { const n = readableName(k); return <li key={`${label}.${k}`}>{label} · <span className="font-sans">{n.label}</span> = {formatSettingValue(v, n.unit)} <span className="text-[10px] text-ink-faint">{k}</span></li>; }))}
+            {overrideEntries.flatMap(([label, params]) => Object.entries(params).map(([k, v]) => { const n = readableName(k); return <li key={`${label}.${k}`}>{label} · <span className="font-sans">{n.label}</span> = {Array.isArray(v) && v.some((x) => x !== null && typeof x === "object" && !Array.isArray(x)) ? formatReadable(v, n.unit) : formatSettingValue(v, n.unit)} <span className="text-[10px] text-ink-faint">{k}</span></li>; }))}
           </ul>
         </div>
       ) : null}

@@ -2,13 +2,27 @@
 
 import Link from "next/link";
 import type { RunView, StepView } from "@/app/lib/view-types";
-import { formatDuration, formatSettingValue, formatTime, readableName, shortHash, unitOfDescription } from "@/app/ui/format";
+import { formatDuration, formatReadable, formatSettingValue, formatTime, readableName, shortHash, unitOfDescription } from "@/app/ui/format";
 import { formatOfSlot, stepDownloadHref } from "@/app/lib/downloads";
 import { StepSeriesChart } from "@/app/ui/charts/run-charts";
 import { StatusBadge } from "@/app/ui/status-badge";
 import { LogStream } from "./log-stream";
 
+/** A setting's value in words; lists of objects (hand pick edits, inversion stages) item by item rather than as JSON. */
+function settingText(v: unknown, unit: string | null): string {
+  return Array.isArray(v) && v.some((x) => x !== null && typeof x === "object" && !Array.isArray(x)) ? formatReadable(v, unit) : formatSettingValue(v, unit);
+}
+
 const DOWNLOAD_WORDS = { segy: "SEG-Y", csv: "CSV", json: "JSON" } as const;
+
+/**
+ * Steps whose picks can be edited by hand, and the page that does it (saving reruns from the
+ * step). `readerWords`: the page also shows the result to those who may not rerun.
+ */
+const PICK_EDITORS: Record<string, { path: string; words: string; readerWords?: string }> = {
+  "first-arrivals": { path: "picks", words: "Edit picks by hand…" },
+  "dispersion-image": { path: "dispersion-picks", words: "Edit dispersion picks…", readerWords: "Dispersion image and picks" },
+};
 
 /** One step of a run: its validated settings, inputs and outputs, summary, curves and log. */
 export function StepPanel({
@@ -37,11 +51,18 @@ export function StepPanel({
             {step.cacheHit ? ` · result reused${step.cacheSourceRunId ? ` from run ${step.cacheSourceRunId}` : ""} (same step, settings and inputs)` : ""}
           </p>
         </div>
-        {canRerun && !live ? (
-          <Link href={`/runs/${run.id}/rerun?from=${encodeURIComponent(step.label)}`} className="btn-primary" data-testid="rerun-button">
-            Rerun from this step…
-          </Link>
-        ) : null}
+        <div className="flex flex-wrap items-center gap-2">
+          {step.status === "succeeded" && PICK_EDITORS[step.stepId] && ((canRerun && !live) || PICK_EDITORS[step.stepId].readerWords) ? (
+            <Link href={`/runs/${run.id}/${PICK_EDITORS[step.stepId].path}?step=${encodeURIComponent(step.label)}`} className="btn" data-testid={canRerun && !live ? "edit-picks-link" : "view-picks-link"}>
+              {canRerun && !live ? PICK_EDITORS[step.stepId].words : PICK_EDITORS[step.stepId].readerWords}
+            </Link>
+          ) : null}
+          {canRerun && !live ? (
+            <Link href={`/runs/${run.id}/rerun?from=${encodeURIComponent(step.label)}`} className="btn-primary" data-testid="rerun-button">
+              Rerun from this step…
+            </Link>
+          ) : null}
+        </div>
       </header>
       {step.error ? <p role="alert" className="rounded-md bg-bad-soft px-3 py-2 text-sm text-bad">{step.error}</p> : null}
 
@@ -60,7 +81,7 @@ export function StepPanel({
                       <span className="text-ink">{name.words}</span>
                       <span className="block font-mono text-[10px] text-ink-faint">{k}</span>
                     </td>
-                    <td className="py-1 align-top text-xs tabular-nums break-words">{formatSettingValue(v, unit)}{k in changed ? <span className="ml-2 rounded bg-warn px-1 text-[10px] text-white">changed in this rerun</span> : null}</td>
+                    <td className="py-1 align-top text-xs tabular-nums break-words">{settingText(v, unit)}{k in changed ? <span className="ml-2 rounded bg-warn px-1 text-[10px] text-white">changed in this rerun</span> : null}</td>
                   </tr>
                 );
               })}

@@ -47,7 +47,10 @@ export interface ViewWindow {
 }
 
 export interface Overlays {
-  picks?: Array<{ traceIndex: number; timeS: number; flagged: boolean }>;
+  /** `hand`: a pick edited by hand (drawn as a square); `pending`: an edit not saved yet (drawn in the pending colour). */
+  picks?: Array<{ traceIndex: number; timeS: number; flagged: boolean; hand?: boolean; pending?: boolean }>;
+  /** A trace to mark (the editor's chosen trace), drawn as a faint band. */
+  selectedTrace?: number;
   mutes?: Array<{ role: string; timesS: number[] }>;
 }
 
@@ -61,12 +64,47 @@ export const COLOURS = {
   grid: "rgba(28,35,38,0.08)",
   pick: "#d0611b",
   pickFlagged: "#b23a2e",
+  pickHand: "#2f7a4f",
+  pickPending: "#7b3fa0",
   mute: "#2f7a4f",
 };
 
 /** Horizontal position of trace i in view units. */
 export function tracePosition(g: GatherView, settings: DisplaySettings, i: number): number {
   return settings.spacing === "offset" ? g.offsetsM[i] : i;
+}
+
+/**
+ * The trace and time under a point of the canvas (CSS pixels from its top-left corner), the
+ * inverse of the drawing's mapping: the nearest trace by position, the time at the point.
+ * Null outside the plot area or when no trace is within one trace spacing.
+ */
+export function pointAt(
+  g: GatherView,
+  settings: DisplaySettings,
+  view: ViewWindow,
+  size: { width: number; height: number },
+  x: number,
+  y: number,
+): { traceIndex: number; timeS: number } | null {
+  const pw = Math.max(10, size.width - MARGIN.left - MARGIN.right);
+  const ph = Math.max(10, size.height - MARGIN.top - MARGIN.bottom);
+  const fx = (x - MARGIN.left) / pw;
+  const fy = (y - MARGIN.top) / ph;
+  if (!(fx >= 0 && fx <= 1 && fy >= 0 && fy <= 1) || g.traces === 0) return null;
+  const at = view.xMin + fx * (view.xMax - view.xMin);
+  let best = -1;
+  let bestD = Infinity;
+  for (let i = 0; i < g.traces; i++) {
+    const d = Math.abs(tracePosition(g, settings, i) - at);
+    if (d < bestD) {
+      bestD = d;
+      best = i;
+    }
+  }
+  const spacing = settings.spacing === "offset" && g.traces > 1 ? Math.abs(g.offsetsM[g.traces - 1] - g.offsetsM[0]) / (g.traces - 1) || 1 : 1;
+  if (bestD > spacing) return null;
+  return { traceIndex: best, timeS: view.tMinS + fy * (view.tMaxS - view.tMinS) };
 }
 
 /** The whole gather's window (with half a trace spacing of margin either side). */
@@ -211,18 +249,28 @@ export function drawGather(
     }
     ctx.setLineDash([]);
   }
+  if (overlays.selectedTrace !== undefined && overlays.selectedTrace >= 0 && overlays.selectedTrace < g.traces) {
+    const x = px(tracePosition(g, settings, overlays.selectedTrace));
+    ctx.fillStyle = "rgba(123,63,160,0.12)";
+    ctx.fillRect(x - 5, py(view.tMinS), 10, py(view.tMaxS) - py(view.tMinS));
+  }
   if (overlays.picks) {
     ctx.lineWidth = 1.5;
     for (const p of overlays.picks) {
       if (p.traceIndex < 0 || p.traceIndex >= g.traces) continue;
       const x = px(tracePosition(g, settings, p.traceIndex));
       const y = py(p.timeS);
-      ctx.strokeStyle = p.flagged ? COLOURS.pickFlagged : COLOURS.pick;
+      ctx.strokeStyle = p.pending ? COLOURS.pickPending : p.hand ? COLOURS.pickHand : p.flagged ? COLOURS.pickFlagged : COLOURS.pick;
       ctx.beginPath();
-      ctx.moveTo(x - 4, y);
-      ctx.lineTo(x + 4, y);
-      ctx.moveTo(x, y - 4);
-      ctx.lineTo(x, y + 4);
+      if (p.hand || p.pending) {
+        // Hand picks as squares, automatic ones as crosses.
+        ctx.rect(x - 4, y - 4, 8, 8);
+      } else {
+        ctx.moveTo(x - 4, y);
+        ctx.lineTo(x + 4, y);
+        ctx.moveTo(x, y - 4);
+        ctx.lineTo(x, y + 4);
+      }
       ctx.stroke();
     }
   }

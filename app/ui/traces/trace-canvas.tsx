@@ -1,7 +1,7 @@
 "use client";
 
 import { useEffect, useRef, useState } from "react";
-import { drawGather, fullWindow, MARGIN, type DisplaySettings, type GatherView, type Overlays, type ViewWindow } from "./draw-traces";
+import { drawGather, fullWindow, MARGIN, pointAt, type DisplaySettings, type GatherView, type Overlays, type ViewWindow } from "./draw-traces";
 
 /**
  * One gather on a canvas. Wheel zooms time around the pointer (with Shift: offset), dragging
@@ -19,6 +19,7 @@ export function TraceCanvas({
   title,
   height = 520,
   testId,
+  onPointAt,
 }: {
   gather: GatherView;
   settings: DisplaySettings;
@@ -29,6 +30,8 @@ export function TraceCanvas({
   title?: string;
   height?: number;
   testId?: string;
+  /** A click (a press and release without dragging) at a trace and time, e.g. to set a pick there. */
+  onPointAt?: (p: { traceIndex: number; timeS: number }) => void;
 }) {
   const wrap = useRef<HTMLDivElement>(null);
   const canvas = useRef<HTMLCanvasElement>(null);
@@ -111,8 +114,14 @@ export function TraceCanvas({
     const tMinS = Math.max(full.tMinS, Math.min(d.view.tMinS - dtS, full.tMaxS - spanT));
     onViewChange({ xMin, xMax: xMin + spanX, tMinS, tMaxS: tMinS + spanT });
   }
-  function onPointerUp() {
+  function onPointerUp(e: React.PointerEvent<HTMLCanvasElement>) {
+    const d = drag.current;
     drag.current = null;
+    // Less than 4 px of movement is a click, not a pan.
+    if (!d || !onPointAt || Math.hypot(e.clientX - d.x, e.clientY - d.y) >= 4) return;
+    const rect = e.currentTarget.getBoundingClientRect();
+    const hit = pointAt(gather, settings, view, { width: rect.width, height: rect.height }, e.clientX - rect.left, e.clientY - rect.top);
+    if (hit) onPointAt(hit);
   }
 
   return (
@@ -120,7 +129,7 @@ export function TraceCanvas({
       <canvas
         ref={canvas}
         data-testid={testId}
-        style={{ width: "100%", height, touchAction: "none", cursor: "grab" }}
+        style={{ width: "100%", height, touchAction: "none", cursor: onPointAt ? "crosshair" : "grab" }}
         onPointerDown={onPointerDown}
         onPointerMove={onPointerMove}
         onPointerUp={onPointerUp}

@@ -79,6 +79,11 @@ describe("dispersion-image step", () => {
     expect(Array.from(hand.velocitiesMps)).toEqual([250, 160]);
     const bad = dispersionImageStep.params.parse({ ...imageSettings, handPicks: [{ window: "W07", points: [[20, 160]] }] });
     await expect(dispersionImageStep.run({ gathers: gathers() }, bad, makeStepContext())).rejects.toThrow(/W07/);
+    // A hand pick off the image (above its highest velocity) is refused, naming the point.
+    const off = dispersionImageStep.params.parse({ ...imageSettings, handPicks: [{ window: "W01", points: [[20, 160], [12, imageSettings.maxVelocityMps + 50]] }] });
+    const err = await dispersionImageStep.run({ gathers: gathers() }, off, makeStepContext()).catch((e) => e);
+    expect(err).toBeInstanceOf(StepInputError);
+    expect(err.field).toBe("handPicks.0.points.1");
   });
 
   it("refuses settings and data it cannot image", async () => {
