@@ -276,7 +276,7 @@ function fixedMask(model: ElasticModel, p: WaveformInversionParams, shots: ShotD
 
 export const waveformInversionStep = defineStep({
   id: "waveform-inversion",
-  version: 1,
+  version: 2,
   title: "Waveform inversion",
   description:
     "Full-waveform inversion of the shot gathers for Vs (and Vp, density): frequency stages of rising low-pass corner (Bunks et al. 1995), adjoint-state gradients per shot on the worker pool (Tarantola 1986; Plessix 2006), pseudo-Hessian preconditioning (Shin et al. 2001), L-BFGS with a Wolfe line search (Nocedal & Wright 2006), bounds on the model, wavelet re-estimation per stage (Pratt 1999). Records every iteration's model and gradient, checkpoints after each iteration and resumes from the last.",

@@ -217,7 +217,8 @@ describe("list editor of the rerun form", () => {
     const windowEnd = stages.items!.find((d) => d.name === "windowEndMs")!;
     expect(fieldValue(iterations, "12")).toBe(12);
     expect(fieldValue(windowEnd, "")).toBeUndefined();
-    expect(fieldProblem(iterations, 0)).toBe("At least 1.");
+    expect(fieldProblem(iterations, -1)).toBe("At least 0.");
+    expect(fieldProblem(iterations, 0)).toBeNull();
     expect(fieldProblem(iterations, 2.5)).toBe("Enter a whole number.");
     expect(fieldProblem(iterations, 201)).toBe("At most 200.");
     expect(fieldProblem(windowEnd, undefined)).toBeNull();
