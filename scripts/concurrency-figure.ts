@@ -14,8 +14,10 @@
  *     seconds, file by file, then drops the READY marker;
  *   - the control room: `next start` on loopback (built first when the build is missing or older
  *     than the sources) and a lead who signs in over HTTP and keeps approving and sending back runs,
- *     rerunning from the mute step with another taper (each rerun starts an engine process that
- *     writes too), adding profiles to the survey and signing in again.
+ *     (the run page's server action and the reviews route handler), saving interpretations of
+ *     approved runs (the report page's server action), rerunning from the mute step with another
+ *     taper (each rerun starts an engine process that writes too), adding profiles to the survey
+ *     and signing in again.
  * Afterwards it waits for the runs started in the window to finish, stops everything and counts:
  *   - busy errors: lines saying SQLITE_BUSY or "database is locked" in everything each process
  *     printed, in the engine processes' log files, in the control room's answers and in the
@@ -68,7 +70,7 @@ export interface ConcurrencyFigure {
   /** From the start until the last command-line run ended (it is not cut short). */
   wallSeconds: number;
   commandLine: WriterFigure;
-  watcher: WriterFigure & { foldersCopied: number };
+  watcher: WriterFigure & { foldersCopied: number; skipped: number };
   controlRoom: WriterFigure & { byKind: Record<string, { ok: number; failed: number }> };
   /** Engine processes the control room's reruns started (their log files). */
   engineProcesses: { logFiles: number; busyErrors: number };
@@ -123,6 +125,9 @@ async function main(): Promise<number> {
   let db: Db = openDatabase(dbFile);
   const firstRunId = (listRuns(db, { pageSize: 1 }).rows[0]?.id ?? 0) + 1;
   db.$client.close();
+  // Subsets differ from one invocation to the next on the same data folder (the watcher skips a
+  // folder whose content it has run before, and the cache would answer the command line).
+  const offset = firstRunId * 7;
   const logsDir = path.join(dataDir, "logs");
   const logSizes = new Map<string, number>();
   if (fs.existsSync(logsDir)) for (const f of fs.readdirSync(logsDir)) logSizes.set(f, fs.statSync(path.join(logsDir, f)).size);
@@ -135,15 +140,19 @@ async function main(): Promise<number> {
   process.stderr.write(`control room on ${server.origin}; watcher on ${inbox}\n`);
 
   const watcher: ResultPromise = cli(["watch", inbox, "--pipeline", FIELD_CHECK, "--settle-seconds", "1", "--quiet-seconds", "600", "--as", lead.email]);
+  let watcherLive = "";
   await new Promise<void>((resolve, reject) => {
     const timer = setTimeout(() => reject(new Error("the watcher did not start within 60 s")), 60_000);
     watcher.stderr?.on("data", (b: Buffer) => {
-      if (b.toString().includes("watching ")) {
+      watcherLive += b.toString();
+      if (watcherLive.includes("watching ")) {
         clearTimeout(timer);
         resolve();
       }
     });
   });
+  /** Folders the watcher has finished with: a run ended ("run <id> <status>") or was skipped (content run before). */
+  const watcherDone = () => (watcherLive.match(/^run \d+ \w+/gm)?.length ?? 0) + (watcherLive.match(/^\S+ run-skipped /gm)?.length ?? 0);
 
   const started = Date.now();
   const deadline = started + seconds * 1000;
@@ -156,7 +165,7 @@ async function main(): Promise<number> {
     for (let k = 0; Date.now() < deadline; k++) {
       const folder = path.join(subsets, `subset-${k}`);
       fs.mkdirSync(folder);
-      const leftOut = records[k % records.length];
+      const leftOut = records[(offset + k) % records.length];
       for (const f of [...records, ...others]) if (f !== leftOut) fs.linkSync(path.join(fieldSrc, f), path.join(folder, f));
       const r = await cli(["run", PROCESSING, "--field-data", folder, "--as", processor.email, "--verbose"]);
       cliOutputs.push(r.all ?? "");
@@ -175,7 +184,7 @@ async function main(): Promise<number> {
     for (let k = 0; Date.now() < deadline; k++) {
       const folder = path.join(inbox, `field-${String(k).padStart(3, "0")}`);
       fs.mkdirSync(folder);
-      const leftOut = records[(records.length - 1 - k + records.length * 4) % records.length];
+      const leftOut = records[(offset + records.length - 1 - k + records.length * 4) % records.length];
       for (const f of [...others, ...records]) if (f !== leftOut) fs.copyFileSync(path.join(fieldSrc, f), path.join(folder, f));
       fs.writeFileSync(path.join(folder, "READY"), "");
       foldersCopied++;
@@ -212,6 +221,27 @@ async function main(): Promise<number> {
       count(kind, okStatus.includes(res.status), `${res.status} ${text.slice(0, 200)}`);
       return { status: res.status, text };
     };
+    // Server actions as the pages call them: POST to the page with the action's id (from the
+    // build's manifest) and the arguments as JSON; the answer's flight data holds { ok } or { error }.
+    const manifest = JSON.parse(fs.readFileSync(path.join(projectRoot, ".next", "server", "server-reference-manifest.json"), "utf8")) as {
+      node: Record<string, { exportedName?: string }>;
+    };
+    const actionId = (name: string) => {
+      const hit = Object.entries(manifest.node).find(([, v]) => v.exportedName === name);
+      if (!hit) throw new Error(`no server action ${name} in the build`);
+      return hit[0];
+    };
+    const serverAction = async (name: string, page: string, arg: unknown) => {
+      const res = await fetch(`${server.origin}${page}`, {
+        method: "POST",
+        headers: { cookie, origin: server.origin, "next-action": actionId(name), "content-type": "text/plain;charset=UTF-8", accept: "text/x-component" },
+        body: JSON.stringify([arg]),
+      });
+      const text = await res.text();
+      webBodies.push(text);
+      const state = /\{"(ok|error)":"((?:[^"\\]|\\.)*)"/.exec(text);
+      count(name, res.status === 200 && state?.[1] === "ok", `${res.status} ${state?.[2] ?? text.slice(0, 200)}`);
+    };
     for (let k = 0; Date.now() < deadline; k++) {
       const list = await fetch(`${server.origin}/api/runs?status=succeeded&pageSize=10`, { headers: { cookie } });
       const listText = await list.text();
@@ -222,9 +252,15 @@ async function main(): Promise<number> {
         continue;
       }
       const rows = (JSON.parse(listText) as { rows: Array<{ id: number; pipelineName: string; review: { decision: string } | null }> }).rows;
-      for (const r of rows.slice(0, 3)) {
+      for (const [i, r] of rows.slice(0, 3).entries()) {
         const decision = r.review?.decision === "approved" ? "returned" : "approved";
-        await post("review", `/api/runs/${r.id}/reviews`, { decision, comment: `concurrency figure, round ${k}` }, [201]);
+        const comment = `concurrency figure, round ${k}`;
+        // One decision through the page's server action, the others through the route handler.
+        if (i === 0) await serverAction("decideRun", `/runs/${r.id}`, { runId: r.id, decision, comment });
+        else await post("review", `/api/runs/${r.id}/reviews`, { decision, comment }, [201]);
+        if (decision === "approved" && k % 2 === 0) {
+          await serverAction("saveRunInterpretation", `/runs/${r.id}/report`, { runId: r.id, sections: { summary: `Interpretation written during the concurrency figure, round ${k}.` } });
+        }
       }
       const processing = rows.find((r) => r.pipelineName === "quillmoor-qm1-processing");
       if (processing && k % 4 === 0) {
@@ -254,7 +290,7 @@ async function main(): Promise<number> {
   const windowRuns = () => listRuns(db, { pageSize: 1000 }).rows.filter((r) => r.id >= firstRunId);
   const settleDeadline = Date.now() + 180_000;
   await sleep(3000);
-  while (Date.now() < settleDeadline && windowRuns().some((r) => !FINAL.has(r.status))) await sleep(1000);
+  while (Date.now() < settleDeadline && (watcherDone() < foldersCopied || windowRuns().some((r) => !FINAL.has(r.status)))) await sleep(1000);
   const runsNow = windowRuns();
   db.$client.close();
 
@@ -263,9 +299,13 @@ async function main(): Promise<number> {
   await server.stop();
   const serverResult = await server.process;
 
-  // The watcher's runs: what it printed ("run <id> <status>").
+  // Everything each process printed stays in the work folder.
   const watcherText = String(watcherResult.all ?? "");
-  const watcherFig = { ...emptyWriter(), foldersCopied };
+  fs.writeFileSync(path.join(work, "watcher.log"), watcherText);
+  fs.writeFileSync(path.join(work, "server.log"), String(serverResult.all ?? ""));
+  fs.writeFileSync(path.join(work, "command-line.log"), cliOutputs.join("\n"));
+  // The watcher's runs: what it printed ("run <id> <status>").
+  const watcherFig = { ...emptyWriter(), foldersCopied, skipped: watcherText.match(/^\S+ run-skipped /gm)?.length ?? 0 };
   for (const m of watcherText.matchAll(/^run (\d+) (\w+)(?::\s*(.*))?$/gm)) {
     watcherFig.actions++;
     if (m[2] === "succeeded") watcherFig.ok++;
@@ -355,7 +395,7 @@ async function main(): Promise<number> {
     `concurrency (${seconds} s of new work, ${wallSeconds.toFixed(0)} s until the last command-line run ended, one database; ${formatMachine(machine)}; load average after ${fig.loadAverageAfter.map((x) => x.toFixed(2)).join(" ")}):`,
     `  ${"writer".padEnd(14)} ${"what".padEnd(30)} ${"count".padStart(6)} ${"ok".padStart(6)} ${"failed".padStart(7)} ${"busy".padStart(6)}`,
     row("command line", "processing runs", commandLine),
-    row("watcher", `field-check runs (${foldersCopied} folders)`, watcherFig),
+    row("watcher", `field-check runs (${foldersCopied} folders${watcherFig.skipped ? `, ${watcherFig.skipped} skipped` : ""})`, watcherFig),
     row("control room", "write requests", controlRoom),
     `  ${"".padEnd(14)} (${kinds})`,
     `  engine processes of the reruns: ${engine.logFiles} log files, ${engine.busyErrors} busy`,
