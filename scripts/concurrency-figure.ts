@@ -2,13 +2,14 @@
  * The concurrency figure: the command line, a watcher and the control room writing one database
  * at once for a stated time, then counting busy errors and lost log lines.
  *
- *   npm run bench:concurrency -- --data <data folder> [--seconds 60] [--feed-every 8] [--out <file.json>] [--work <folder>]
+ *   npm run bench:concurrency -- --data <data folder> [--seconds 60] [--feed-every 8] [--cli-records 8] [--out <file.json>] [--work <folder>]
  *
  * Use a copy of a prepared data folder (`cp -a /work/final-data /tmp/my-data`): the figure adds
  * runs, reviews, profiles and audit events to it. At once, until the time is up:
  *   - the command line: `tracewright run examples/quillmoor/qm1-processing.yaml --field-data <f>`
- *     in a loop, each on another subset of the field records (one blow left out, a different one
- *     each time), so every step computes and writes artifacts, step records and log lines;
+ *     in a loop, each on the next --cli-records field records (default 8: two source points of
+ *     the demo line, with the geometry table), so every step computes and writes artifacts, step
+ *     records and log lines;
  *   - the watcher: `tracewright watch <inbox> --pipeline examples/quillmoor/qm1-field-check.yaml`,
  *     while the figure copies a field folder (again one blow left out) into the inbox every few
  *     seconds, file by file, then drops the READY marker;
@@ -103,6 +104,8 @@ async function main(): Promise<number> {
   if (!fs.existsSync(dbFile)) throw new Error(`${dbFile}: no database there (copy a prepared data folder first)`);
   const seconds = Number(argValue(args, "--seconds", "60"));
   const feedEveryS = Number(argValue(args, "--feed-every", "8"));
+  const cliRecords = Number(argValue(args, "--cli-records", "8"));
+  if (!(Number.isInteger(cliRecords) && cliRecords >= 1)) throw new Error("--cli-records: expected a whole number of at least 1");
   if (!(seconds > 0) || !(feedEveryS > 0)) throw new Error("--seconds and --feed-every: expected positive numbers");
   const work = path.resolve(argValue(args, "--work") ?? fs.mkdtempSync(path.join(os.tmpdir(), "tw-concurrency-")));
   const fieldSrc = path.resolve(argValue(args, "--field-data") ?? path.join(dataDir, "examples", "quillmoor", "field"));
@@ -126,7 +129,7 @@ async function main(): Promise<number> {
   const firstRunId = (listRuns(db, { pageSize: 1 }).rows[0]?.id ?? 0) + 1;
   db.$client.close();
   // Subsets differ from one invocation to the next on the same data folder (the watcher skips a
-  // folder whose content it has run before, and the cache would answer the command line).
+  // folder whose content it has run before, and the cache would answer the command line), mostly.
   const offset = firstRunId * 7;
   const logsDir = path.join(dataDir, "logs");
   const logSizes = new Map<string, number>();
@@ -165,8 +168,9 @@ async function main(): Promise<number> {
     for (let k = 0; Date.now() < deadline; k++) {
       const folder = path.join(subsets, `subset-${k}`);
       fs.mkdirSync(folder);
-      const leftOut = records[(offset + k) % records.length];
-      for (const f of [...records, ...others]) if (f !== leftOut) fs.linkSync(path.join(fieldSrc, f), path.join(folder, f));
+      const first = (offset + k * cliRecords) % records.length;
+      const window = Array.from({ length: Math.min(cliRecords, records.length) }, (_, i) => records[(first + i) % records.length]);
+      for (const f of [...window, ...others]) fs.linkSync(path.join(fieldSrc, f), path.join(folder, f));
       const r = await cli(["run", PROCESSING, "--field-data", folder, "--as", processor.email, "--verbose"]);
       cliOutputs.push(r.all ?? "");
       commandLine.actions++;
