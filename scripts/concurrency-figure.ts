@@ -7,12 +7,13 @@
  * Use a copy of a prepared data folder (`cp -a /work/final-data /tmp/my-data`): the figure adds
  * runs, reviews, profiles and audit events to it. At once, until the time is up:
  *   - the command line: `tracewright run examples/quillmoor/qm1-processing.yaml --field-data <f>`
- *     in a loop, each on the next --cli-records field records (default 8: two source points of
- *     the demo line, with the geometry table), so every step computes and writes artifacts, step
- *     records and log lines;
+ *     in a loop, each on --cli-records consecutive field records from a random one (default 8:
+ *     two source points of the demo line, with the geometry table), so every step computes and
+ *     writes artifacts, step records and log lines;
  *   - the watcher: `tracewright watch <inbox> --pipeline examples/quillmoor/qm1-field-check.yaml`,
- *     while the figure copies a field folder (again one blow left out) into the inbox every few
- *     seconds, file by file, then drops the READY marker;
+ *     while the figure copies a field folder into the inbox every few
+ *     seconds, file by file (all records but two chosen at random: the watcher skips a folder whose
+ *     content it has run before), then drops the READY marker;
  *   - the control room: `next start` on loopback (built first when the build is missing or older
  *     than the sources) and a lead who signs in over HTTP and keeps approving and sending back runs,
  *     (the run page's server action and the reviews route handler), saving interpretations of
@@ -29,6 +30,7 @@
  * Prints a table and writes the figures as JSON (--out, default <work>/concurrency-figure.json).
  * Exits 1 when any count is not zero or a check fails.
  */
+import { randomInt } from "node:crypto";
 import fs from "node:fs";
 import os from "node:os";
 import path from "node:path";
@@ -128,9 +130,6 @@ async function main(): Promise<number> {
   let db: Db = openDatabase(dbFile);
   const firstRunId = (listRuns(db, { pageSize: 1 }).rows[0]?.id ?? 0) + 1;
   db.$client.close();
-  // Subsets differ from one invocation to the next on the same data folder (the watcher skips a
-  // folder whose content it has run before, and the cache would answer the command line), mostly.
-  const offset = firstRunId * 7;
   const logsDir = path.join(dataDir, "logs");
   const logSizes = new Map<string, number>();
   if (fs.existsSync(logsDir)) for (const f of fs.readdirSync(logsDir)) logSizes.set(f, fs.statSync(path.join(logsDir, f)).size);
@@ -168,7 +167,7 @@ async function main(): Promise<number> {
     for (let k = 0; Date.now() < deadline; k++) {
       const folder = path.join(subsets, `subset-${k}`);
       fs.mkdirSync(folder);
-      const first = (offset + k * cliRecords) % records.length;
+      const first = randomInt(records.length);
       const window = Array.from({ length: Math.min(cliRecords, records.length) }, (_, i) => records[(first + i) % records.length]);
       for (const f of [...window, ...others]) fs.linkSync(path.join(fieldSrc, f), path.join(folder, f));
       const r = await cli(["run", PROCESSING, "--field-data", folder, "--as", processor.email, "--verbose"]);
@@ -188,8 +187,9 @@ async function main(): Promise<number> {
     for (let k = 0; Date.now() < deadline; k++) {
       const folder = path.join(inbox, `field-${String(k).padStart(3, "0")}`);
       fs.mkdirSync(folder);
-      const leftOut = records[(offset + records.length - 1 - k + records.length * 4) % records.length];
-      for (const f of [...others, ...records]) if (f !== leftOut) fs.copyFileSync(path.join(fieldSrc, f), path.join(folder, f));
+      const a = randomInt(records.length);
+      const leftOut = new Set([records[a], records[(a + 1 + randomInt(records.length - 1)) % records.length]]);
+      for (const f of [...others, ...records]) if (!leftOut.has(f)) fs.copyFileSync(path.join(fieldSrc, f), path.join(folder, f));
       fs.writeFileSync(path.join(folder, "READY"), "");
       foldersCopied++;
       const wait = deadline - Date.now();

@@ -2,14 +2,16 @@
  * The load figure: signed-in users at once on the runs list, a run page and the trace endpoint
  * of the control room, served by `next start` on loopback, measured with autocannon.
  *
- *   npm run bench:load -- --data <data folder> [--seconds 30] [--users 50] [--timeout 10] [--out <file.json>]
+ *   npm run bench:load -- --data <data folder> [--seconds 30] [--users 50] [--timeout 10] [--warmup 5] [--targets runs-list,run-page,trace-endpoint] [--out <file.json>]
  *
  * Use a copy of a prepared data folder (`cp -a /work/final-data /tmp/my-data`): the figure adds
  * its users to it (load-user-NN@corvell.example, processor role, through db/queries/users.ts with
  * an audit event each; kept for the next time). It builds the control room when the build is
  * missing or older than the sources, starts it, signs every user in over HTTP (each has its own
  * session cookie) and then, one target after the other, keeps one connection per user busy for
- * the stated time (autocannon, keep-alive, one request at a time per connection):
+ * the stated time (autocannon, keep-alive, one request at a time per connection), after a
+ * warm-up of --warmup seconds (default 5; the first answers of a route after `next start` load
+ * its modules; reported on its own line, not in the figures):
  *   - the runs list (/runs),
  *   - the page of the latest succeeded run with gathers (/runs/<id>),
  *   - the trace endpoint of that run's last gathers (/api/artifacts/<hash>/traces?gather=<id>), a
@@ -46,11 +48,15 @@ export interface TargetFigure extends LatencySummary {
   /** Status code → count, every answer. */
   statuses: Record<string, number>;
   socketErrors: number;
+  /** Seconds from the start of the target at which each socket error or timeout was reported. */
+  errorAtS: number[];
   timeouts: number;
   errors: number;
   requestsPerSecond: number;
   megabytesPerSecond: number;
   seconds: number;
+  /** The warm-up before the measurement (not in the figures above), or null without one. */
+  warmUp: { seconds: number; requests: number; errors: number; p95Ms: number; maxMs: number } | null;
 }
 
 export interface LoadFigure {
@@ -59,6 +65,7 @@ export interface LoadFigure {
   users: number;
   secondsPerTarget: number;
   timeoutS: number;
+  warmupS: number;
   runId: number;
   targets: TargetFigure[];
   errors: number;
@@ -105,11 +112,14 @@ function pickRun(dbFile: string): { runId: number; hash: string } {
   throw new Error("no succeeded run with gathers in this data folder (prepare it with the demo first)");
 }
 
-async function measure(name: string, origin: string, urlPaths: string[], cookies: string[], seconds: number, timeoutS: number): Promise<TargetFigure> {
+async function measure(name: string, origin: string, urlPaths: string[], cookies: string[], seconds: number, timeoutS: number): Promise<Omit<TargetFigure, "warmUp">> {
   const times: number[] = [];
   const statuses: Record<string, number> = {};
   let socketErrors = 0;
   let next = 0;
+  const began = Date.now();
+  /** Seconds from the start at which each socket error or timeout was reported. */
+  const errorAtS: number[] = [];
   const result = await new Promise<Result>((resolve, reject) => {
     const instance = autocannon(
       {
@@ -129,7 +139,10 @@ async function measure(name: string, origin: string, urlPaths: string[], cookies
       times.push(responseTime);
       statuses[statusCode] = (statuses[statusCode] ?? 0) + 1;
     });
-    instance.on("reqError", () => socketErrors++);
+    instance.on("reqError", () => {
+      socketErrors++;
+      errorAtS.push((Date.now() - began) / 1000);
+    });
   });
   const non2xx = Object.entries(statuses)
     .filter(([s]) => !s.startsWith("2"))
@@ -142,6 +155,7 @@ async function measure(name: string, origin: string, urlPaths: string[], cookies
     non2xx,
     statuses,
     socketErrors,
+    errorAtS,
     timeouts: result.timeouts,
     errors: non2xx + socketErrors,
     requestsPerSecond: lat.requests / result.duration,
@@ -163,6 +177,8 @@ async function main(): Promise<number> {
   const seconds = Number(argValue(args, "--seconds", "30"));
   const users = Number(argValue(args, "--users", "50"));
   const timeoutS = Number(argValue(args, "--timeout", "10"));
+  const warmupS = Number(argValue(args, "--warmup", "5"));
+  if (!(warmupS >= 0)) throw new Error("--warmup: expected a number of seconds >= 0");
   if (!(seconds > 0) || !(Number.isInteger(users) && users >= 1 && users <= 99) || !(timeoutS > 0)) {
     throw new Error("--seconds and --timeout: positive numbers; --users: a whole number from 1 to 99");
   }
@@ -195,13 +211,24 @@ async function main(): Promise<number> {
       { name: "run page", paths: [`/runs/${runId}`], expect: (res, body) => res.status === 200 && body.includes(`Run ${runId}`) },
       { name: "trace endpoint", paths: tracePaths, expect: (res, body) => res.status === 200 && body.length > 1000 },
     ];
+    const wanted = argValue(args, "--targets")?.split(",").map((x) => x.trim());
+    const chosen = wanted ? targets.filter((t) => wanted.includes(t.name.replaceAll(" ", "-"))) : targets;
+    if (chosen.length === 0) throw new Error(`--targets ${wanted?.join(",")}: expected some of ${targets.map((t) => t.name.replaceAll(" ", "-")).join(", ")}`);
     const figures: TargetFigure[] = [];
-    for (const t of targets) {
+    for (const t of chosen) {
       const check = await fetch(`${server.origin}${t.paths[0]}`, { headers: { cookie: cookies[cookies.length - 1] }, redirect: "manual" });
       const body = Buffer.from(await check.arrayBuffer());
       if (!t.expect(check, body)) throw new Error(`${t.name}: ${t.paths[0]} answered ${check.status} without the expected content for a signed-in user`);
+      // The first answers of a route after `next start` load its modules and warm the JIT: a
+      // warm-up with the same users comes first, reported but not in the figure.
+      let warmUp: TargetFigure["warmUp"] = null;
+      if (warmupS > 0) {
+        process.stderr.write(`${t.name}: warming up for ${warmupS} s...\n`);
+        const w = await measure(t.name, server.origin, t.paths, cookies, warmupS, timeoutS);
+        warmUp = { seconds: warmupS, requests: w.requests, errors: w.errors, p95Ms: w.p95Ms, maxMs: w.maxMs };
+      }
       process.stderr.write(`${t.name}: ${users} users for ${seconds} s...\n`);
-      figures.push(await measure(t.name, server.origin, t.paths, cookies, seconds, timeoutS));
+      figures.push({ ...(await measure(t.name, server.origin, t.paths, cookies, seconds, timeoutS)), warmUp });
     }
     figure = {
       machine,
@@ -209,6 +236,7 @@ async function main(): Promise<number> {
       users,
       secondsPerTarget: seconds,
       timeoutS,
+      warmupS,
       runId,
       targets: figures,
       errors: figures.reduce((n, f) => n + f.errors, 0),
@@ -221,11 +249,14 @@ async function main(): Promise<number> {
 
   const ms = (x: number) => (Number.isFinite(x) ? x.toFixed(0) : "-").padStart(7);
   const lines = [
-    `load (${users} signed-in users, one connection each, ${seconds} s per target, timeout ${timeoutS} s; next start on loopback; ${formatMachine(machine)}; load average after ${figure.loadAverageAfter.map((x) => x.toFixed(2)).join(" ")}):`,
+    `load (${users} signed-in users, one connection each, ${seconds} s per target after ${warmupS} s of warm-up, timeout ${timeoutS} s; next start on loopback; ${formatMachine(machine)}; load average after ${figure.loadAverageAfter.map((x) => x.toFixed(2)).join(" ")}):`,
     `  ${"target".padEnd(16)} ${"requests".padStart(8)} ${"errors".padStart(7)} ${"p50 ms".padStart(7)} ${"p95 ms".padStart(7)} ${"p99 ms".padStart(7)} ${"max ms".padStart(7)} ${"req/s".padStart(7)} ${"MB/s".padStart(6)}`,
     ...figure.targets.map(
       (f) =>
         `  ${f.name.padEnd(16)} ${String(f.requests).padStart(8)} ${String(f.errors).padStart(7)} ${ms(f.p50Ms)} ${ms(f.p95Ms)} ${ms(f.p99Ms)} ${ms(f.maxMs)} ${f.requestsPerSecond.toFixed(1).padStart(7)} ${f.megabytesPerSecond.toFixed(1).padStart(6)}`,
+    ),
+    ...figure.targets.flatMap((f) =>
+      f.warmUp ? [`  (warm-up before ${f.name}: ${f.warmUp.seconds} s, ${f.warmUp.requests} requests, ${f.warmUp.errors} errors, p95 ${f.warmUp.p95Ms.toFixed(0)} ms, max ${f.warmUp.maxMs.toFixed(0)} ms; not in the figures)`] : [],
     ),
     `  run page: /runs/${figure.runId}; errors are non-2xx answers, socket errors and timeouts (${figure.targets.map((f) => `${f.name}: ${f.non2xx} non-2xx, ${f.socketErrors} socket, ${f.timeouts} timeouts`).join("; ")})`,
     `  figures: ${out}`,
