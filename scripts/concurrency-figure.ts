@@ -88,7 +88,7 @@ function emptyWriter(): WriterFigure {
   return { actions: 0, ok: 0, failed: 0, busyErrors: 0, failures: [] };
 }
 
-/** All .sg2 files of the field folder and its geometry table; subset k leaves out blow k mod n. */
+/** The field records (.sg2) of the field folder, and its other files (the geometry table), sorted by name. */
 function fieldFiles(folder: string): { records: string[]; others: string[] } {
   const all = fs.readdirSync(folder).sort();
   return { records: all.filter((f) => /\.sg2$/i.test(f)), others: all.filter((f) => !/\.sg2$/i.test(f)) };
