@@ -1,10 +1,37 @@
 /** `tracewright bench`: speed figures of the readers, the signal steps and the solver. */
+import fs from "node:fs";
+import os from "node:os";
+import path from "node:path";
 import type { Command } from "commander";
+import { execa } from "execa";
+import { projectRoot } from "../../db/paths";
 import { AppError } from "../../pipeline/errors";
 import { action, printJson } from "../shared";
 
 const PARTS = ["readers", "signal", "field-check", "solver", "inversion", "queue"] as const;
 type Part = (typeof PARTS)[number];
+/**
+ * Figures measured only when asked for by name: they start the control room (`next start`, built
+ * when needed) and write to a data folder (--data, a copy of a prepared one).
+ */
+const ON_REQUEST = { concurrency: "concurrency-figure.ts", load: "load-figure.ts" } as const;
+type OnRequest = keyof typeof ON_REQUEST;
+
+/** Runs scripts/<figure script> on `data`; its table goes to the terminal (stderr with --json), its figures are returned. */
+async function runFigureScript(part: OnRequest, data: string | undefined, seconds: string | undefined, json: boolean): Promise<{ exitCode: number; figures: unknown }> {
+  if (!data) throw new AppError("bad-input", `--only ${part}: give --data <folder>, a copy of a prepared data folder (the figure writes to it)`, { field: "--data" });
+  if (seconds !== undefined && !(Number(seconds) > 0)) throw new AppError("bad-input", `--seconds ${seconds}: expected a positive number`, { field: "--seconds" });
+  const out = path.join(fs.mkdtempSync(path.join(os.tmpdir(), `tw-${part}-`)), `${part}.json`);
+  const r = await execa(process.execPath, ["--import", "tsx", path.join(projectRoot, "scripts", ON_REQUEST[part]), "--data", data, "--out", out, ...(seconds ? ["--seconds", seconds] : [])], {
+    cwd: projectRoot,
+    stdin: "ignore",
+    stdout: json ? process.stderr : "inherit",
+    stderr: "inherit",
+    reject: false,
+  });
+  const figures = fs.existsSync(out) ? JSON.parse(fs.readFileSync(out, "utf8")) : null;
+  return { exitCode: r.exitCode ?? 1, figures };
+}
 
 function parseGrid(text: string): { nx: number; nz: number } {
   const m = /^(\d+)x(\d+)$/.exec(text);
@@ -21,8 +48,12 @@ function parseGrid(text: string): { nx: number; nz: number } {
 export function registerBench(program: Command): void {
   program
     .command("bench")
-    .description("measure and print speed figures: field-file readers, signal steps, field check, finite-difference solver, waveform inversion, shot tasks on the job queue")
-    .option("--only <part>", `measure one part: ${PARTS.join(", ")}`)
+    .description(
+      "measure and print speed figures: field-file readers, signal steps, field check, finite-difference solver, waveform inversion, shot tasks on the job queue; on request, concurrent writers and the control room under load",
+    )
+    .option("--only <part>", `measure one part: ${PARTS.join(", ")}; or, only when named, ${Object.keys(ON_REQUEST).join(", ")}`)
+    .option("--data <folder>", "concurrency, load: the data folder to measure on, a copy of a prepared one (the figures write to it)")
+    .option("--seconds <s>", "concurrency: how long the writers run (default 60); load: seconds per target (default 30)")
     .option("--grid <nx>x<nz>", "solver grid in cells", "1000x400")
     .option("--steps <n>", "solver time steps per shot", "300")
     .option("--pairs <n>", "solver: rounds of the C yardstick and the solver in turn; figures are medians over them", "5")
@@ -32,9 +63,18 @@ export function registerBench(program: Command): void {
     )
     .option("--json", "print JSON")
     .action(
-      action(async (opts: { only?: string; grid: string; steps: string; pairs: string; yardstick?: string; json?: boolean }) => {
-        if (opts.only && !PARTS.includes(opts.only as Part)) {
-          throw new AppError("bad-input", `--only ${opts.only}: expected one of ${PARTS.join(", ")}`, { field: "--only", choices: [...PARTS] });
+      action(async (opts: { only?: string; grid: string; steps: string; pairs: string; yardstick?: string; data?: string; seconds?: string; json?: boolean }) => {
+        const choices = [...PARTS, ...Object.keys(ON_REQUEST)];
+        if (opts.only && !choices.includes(opts.only)) {
+          throw new AppError("bad-input", `--only ${opts.only}: expected one of ${choices.join(", ")}`, { field: "--only", choices });
+        }
+        if (opts.only && opts.only in ON_REQUEST) {
+          const part = opts.only as OnRequest;
+          const r = await runFigureScript(part, opts.data, opts.seconds, Boolean(opts.json));
+          if (opts.json) printJson({ [part]: r.figures });
+          // Exit 1 when the figure found errors (busy errors, lost lines, failed requests).
+          if (r.exitCode !== 0) process.exitCode = 1;
+          return;
         }
         const want = (p: Part) => !opts.only || opts.only === p;
         const steps = Number(opts.steps);
