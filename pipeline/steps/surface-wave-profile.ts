@@ -61,6 +61,13 @@ export const surfaceWaveProfileParams = z
       ),
     /** @default 5 */
     minPicks: z.number().int().min(2).default(5).describe("Windows with fewer picks are left out (count)"),
+    maxMisfitPercent: z
+      .number()
+      .positive()
+      .default(10)
+      .describe(
+        "Windows whose rms misfit after the inversion exceeds this share of their mean picked phase velocity are left out: no layered ground explains their curve (ground changing within the window, a higher mode or noise picked), %",
+      ),
   })
   .superRefine((p, ctx) => {
     if (p.maxVsMps <= p.minVsMps) ctx.addIssue({ code: "custom", path: ["maxVsMps"], message: `maxVsMps (${p.maxVsMps} m/s) must exceed minVsMps (${p.minVsMps} m/s)` });
@@ -86,7 +93,7 @@ export function curveToInvert(picks: DispersionCurve[]): DispersionCurve | undef
 
 export const surfaceWaveProfileStep = defineStep({
   id: "surface-wave-profile",
-  version: 1,
+  version: 2,
   title: "Surface-wave Vs profiles",
   description:
     "Inverts each window's fundamental-mode Rayleigh dispersion curve for a layered Vs profile by damped least squares (Levenberg–Marquardt, finite-difference Jacobian) over phase velocities computed by propagating the half-space's decaying solutions through the layers with orthonormalisation (compound-matrix idea of Dunkin 1965). " +
@@ -181,11 +188,24 @@ export const surfaceWaveProfileStep = defineStep({
         longestWavelengthM: res.longestWavelengthM,
         depthOfInvestigationM: res.depthOfInvestigationM,
       };
+      const meanPicked = curve.velocitiesMps.reduce((a, v) => a + v, 0) / curve.velocitiesMps.length;
+      const misfitPercent = (100 * res.rmsMisfitMps) / meanPicked;
+      if (misfitPercent > p.maxMisfitPercent) {
+        const reason = `rms misfit ${res.rmsMisfitMps.toFixed(1)} m/s is ${misfitPercent.toFixed(0)} % of the mean picked velocity ${meanPicked.toFixed(0)} m/s, above maxMisfitPercent ${p.maxMisfitPercent} %`;
+        skipped.push({ window: w.id, reason });
+        ctx.log.warn(`window ${w.id} at ${w.centreX.toFixed(1)} m: ${reason}; left out (check its picks on the dispersion image, or pick it by hand)`);
+        continue;
+      }
       out.profiles.push(profile);
       ctx.log.info(`window ${w.id} at ${w.centreX.toFixed(1)} m: rms misfit ${res.rmsMisfitMps.toFixed(2)} m/s after ${res.iterations} steps; depth of investigation ${res.depthOfInvestigationM.toFixed(1)} m`);
     }
     if (out.profiles.length === 0) {
-      throw new StepInputError(`no window has ${p.minPicks} or more picks of the fundamental mode: pick by hand or widen the pick bounds of dispersion-image`, "minPicks");
+      throw new StepInputError(
+        skipped.length > 0 && jobs.length > 0
+          ? `no window gave a profile: ${skipped.map((k) => `${k.window} (${k.reason})`).join("; ")}. Pick the curves by hand, widen the pick bounds of dispersion-image or raise maxMisfitPercent`
+          : `no window has ${p.minPicks} or more picks of the fundamental mode: pick by hand or widen the pick bounds of dispersion-image`,
+        jobs.length > 0 ? "maxMisfitPercent" : "minPicks",
+      );
     }
     const tops = (pr: VelocityProfile) => {
       const z: number[] = [0];

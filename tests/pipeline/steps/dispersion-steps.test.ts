@@ -179,6 +179,30 @@ describe("surface-wave-profile step and build-model from the profiles", () => {
     expect(growingThicknesses(3, 19).reduce((a, b) => a + b, 0)).toBeCloseTo(19, 12);
   });
 
+  it("leaves out a window whose curve no layered ground fits (misfit above maxMisfitPercent) and says why", async () => {
+    const image = await dispersionImageStep.run({ gathers: gathers() }, dispersionImageStep.params.parse({ ...imageSettings, windowReceivers: 24, windowStepReceivers: 24 }), makeStepContext());
+    const d = image.outputs.dispersion as DispersionSet;
+    // W02's picks replaced by a zigzag between 60 and 300 m/s: a fundamental-mode Rayleigh curve of
+    // layers over a half-space varies smoothly with frequency (common practice), so no model fits it.
+    const zigzag: DispersionSet = {
+      ...d,
+      windows: d.windows.map((w, i) =>
+        i === 1 ? { ...w, picks: [{ ...w.picks[0], velocitiesMps: Float64Array.from(w.picks[0].velocitiesMps, (_, k) => (k % 2 === 0 ? 60 : 300)) }] } : w,
+      ),
+    };
+    const ctx = makeStepContext();
+    const res = await surfaceWaveProfileStep.run({ dispersion: zigzag }, surfaceWaveProfileStep.params.parse({ layerThicknessesM: [2.5, 5] }), ctx);
+    expect((res.outputs.velocityProfiles as VelocityProfileSet).profiles.map((p) => p.windowId)).toEqual(["W01"]);
+    const skipped = res.summary!.skipped as Array<{ window: string; reason: string }>;
+    expect(skipped.map((k) => k.window)).toEqual(["W02"]);
+    expect(skipped[0].reason).toMatch(/maxMisfitPercent 10 %/);
+    // With every window unfit, the step refuses and names the setting.
+    const allBad: DispersionSet = { ...zigzag, windows: zigzag.windows.map((w) => ({ ...w, picks: zigzag.windows[1].picks })) };
+    await expect(surfaceWaveProfileStep.run({ dispersion: allBad }, surfaceWaveProfileStep.params.parse({ layerThicknessesM: [2.5, 5] }), makeStepContext())).rejects.toMatchObject({
+      field: "maxMisfitPercent",
+    });
+  }, 30000);
+
   it("are registered before build-model with documented parameters", () => {
     const ids = listSteps().map((s) => s.id);
     expect(ids.indexOf("dispersion-image")).toBeLessThan(ids.indexOf("surface-wave-profile"));
