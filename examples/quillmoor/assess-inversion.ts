@@ -8,7 +8,9 @@
  *
  * The hollow in the inverted model is taken as the cells whose Vs is at least 20 % below the true
  * background at their depth (the background is known here; the threshold is a choice of this
- * demo): its centre is the Vs-deficit-weighted mean x; its width the extent of the slow cells at
+ * demo), and the slow body is the largest group of such cells that touch each other (scattered
+ * slow cells elsewhere, e.g. at the poorly covered ends of the line, are not the hollow): its
+ * centre is the Vs-deficit-weighted mean x of that body; its width the extent of its cells at
  * 0.5 m depth around the centre, bridging gaps of up to 1 m (the ground right under a source point
  * changes little, because the update fades out near every source: one slower-than-threshold column
  * under a source does not split the body in two); its base the deepest such cell in the columns
@@ -66,22 +68,63 @@ export function slowExtentM(slow: Uint8Array, nx: number, row: number, centre: n
   return (hi - lo + 1) * h;
 }
 
+/**
+ * The slow body: of the groups of cells at least `threshold` below the background that touch each
+ * other (sides or corners), the one with the largest summed deficit; 1 marks its cells.
+ */
+export function largestSlowBody(deficit: Float64Array, nx: number, nz: number, threshold: number): Uint8Array {
+  const label = new Int32Array(nx * nz).fill(-1);
+  const sums: number[] = [];
+  const stack: number[] = [];
+  for (let start = 0; start < label.length; start++) {
+    if (label[start] !== -1 || !(deficit[start] >= threshold)) continue;
+    const id = sums.length;
+    let sum = 0;
+    label[start] = id;
+    stack.push(start);
+    while (stack.length > 0) {
+      const k = stack.pop()!;
+      sum += deficit[k];
+      const i = k % nx;
+      const j = (k - i) / nx;
+      for (let dj = -1; dj <= 1; dj++) {
+        for (let di = -1; di <= 1; di++) {
+          const ii = i + di;
+          const jj = j + dj;
+          if (ii < 0 || ii >= nx || jj < 0 || jj >= nz) continue;
+          const q = jj * nx + ii;
+          if (label[q] === -1 && deficit[q] >= threshold) {
+            label[q] = id;
+            stack.push(q);
+          }
+        }
+      }
+    }
+    sums.push(sum);
+  }
+  const out = new Uint8Array(nx * nz);
+  if (sums.length === 0) return out;
+  const best = sums.indexOf(Math.max(...sums));
+  for (let k = 0; k < out.length; k++) if (label[k] === best) out[k] = 1;
+  return out;
+}
+
 /** Compares an inverted model with the true ground on the model's own grid. */
 export function assessInversion(m: ElasticModel): InversionAssessment {
   const grid = { originX: m.originX, originZ: m.originZ, spacingM: m.spacingM, nx: m.nx, nz: m.nz };
   const background = buildModel(grid, QUILLMOOR_LAYERS, []);
   const h = m.spacingM;
+  const deficit = new Float64Array(m.nx * m.nz);
+  for (let k = 0; k < deficit.length; k++) deficit[k] = 1 - m.vs[k] / background.vs[k];
+  const slow = largestSlowBody(deficit, m.nx, m.nz, 0.2);
   let wSum = 0;
   let xSum = 0;
-  const slow = new Uint8Array(m.nx * m.nz);
   for (let j = 0; j < m.nz; j++) {
     for (let i = 0; i < m.nx; i++) {
       const k = j * m.nx + i;
-      const deficit = 1 - m.vs[k] / background.vs[k];
-      if (deficit >= 0.2) {
-        slow[k] = 1;
-        wSum += deficit;
-        xSum += deficit * (m.originX + i * h);
+      if (slow[k]) {
+        wSum += deficit[k];
+        xSum += deficit[k] * (m.originX + i * h);
       }
     }
   }
