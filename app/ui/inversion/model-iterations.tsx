@@ -59,6 +59,9 @@ export function ModelIterations({
 
   const startModel = useQuery({ ...artifactQueries.model(start?.modelHash ?? ""), enabled: Boolean(start) });
   const model = useQuery({ ...artifactQueries.model(frame?.modelHash ?? ""), enabled: Boolean(frame), placeholderData: keepPreviousData });
+  // The colour bar spans the starting and the latest model, the same for every iteration shown.
+  const latest = frames.at(-1);
+  const latestModel = useQuery({ ...artifactQueries.model(latest?.modelHash ?? ""), enabled: Boolean(latest), placeholderData: keepPreviousData });
   const gradient = useQuery({ ...inversionQueries.field(frame?.gradientHash ?? ""), enabled: Boolean(frame?.gradientHash), placeholderData: keepPreviousData });
 
   useEffect(() => {
@@ -75,7 +78,12 @@ export function ModelIterations({
   const p = PARAMETERS[param];
   const startValues = useMemo(() => (startModel.data ? startModel.data.payload.subarray(p.index * n, (p.index + 1) * n) : null), [startModel.data, p.index, n]);
   const values = useMemo(() => (model.data ? model.data.payload.subarray(p.index * n, (p.index + 1) * n) : null), [model.data, p.index, n]);
-  const limits = useMemo(() => (startValues ? valueRange(startValues) : values ? valueRange(values) : null), [startValues, values]);
+  const latestValues = useMemo(() => (latestModel.data && n > 0 && latestModel.data.payload.length >= (p.index + 1) * n ? latestModel.data.payload.subarray(p.index * n, (p.index + 1) * n) : null), [latestModel.data, p.index, n]);
+  const limits = useMemo(() => {
+    const ranges = [startValues, latestValues].filter((v): v is Float32Array => v !== null).map((v) => valueRange(v));
+    if (ranges.length === 0) return values ? valueRange(values) : null;
+    return { lo: Math.min(...ranges.map((r) => r.lo)), hi: Math.max(...ranges.map((r) => r.hi)) };
+  }, [startValues, latestValues, values]);
   const diff = useMemo(() => (values && startValues && values.length === startValues.length ? modelDifference(values, startValues) : null), [values, startValues]);
   const diffValues = diff ? (diffUnit === "abs" ? diff.absolute : diff.percent) : null;
   const diffLimit = diffValues ? Math.max(symmetricLimit(diffValues), diffUnit === "abs" ? 1 : 0.1) : 1;
@@ -162,7 +170,7 @@ export function ModelIterations({
           <div className="space-y-4">
             <figure>
               <figcaption className="mb-1 text-xs font-medium text-ink-soft">
-                {p.label} {p.short !== p.label ? `(${p.short})` : ""}, {showing} · colour bar fixed to the starting model&apos;s range ({Math.round(limits.lo)}–{Math.round(limits.hi)} {p.unit}; values beyond it take the end colours)
+                {p.label} {p.short !== p.label ? `(${p.short})` : ""}, {showing} · colour bar the same for every iteration: the range of the starting and the latest model ({Math.round(limits.lo)}–{Math.round(limits.hi)} {p.unit})
               </figcaption>
               <FieldCanvas values={values} grid={grid} lo={limits.lo} hi={limits.hi} lut={SEQUENTIAL} unit={p.unit} label={`${p.label}, ${showing}`} pickX={x} onPick={setPickX} testId="iteration-model-canvas" />
             </figure>
