@@ -7,30 +7,8 @@
 import { describe, expect, it } from "vitest";
 import { firstArrivalsStep } from "../../../pipeline/steps/first-arrivals";
 import { StepInputError } from "../../../pipeline/step";
-import type { GatherSet } from "../../../pipeline/types";
 import { makeStepContext } from "../../helpers/step-context";
-import { seededRandom } from "../../helpers/random";
-import { makeGather } from "./make-gather";
-
-const DT = 0.00025;
-
-/**
- * 48 traces, source at −1 m, receivers 0 … 47 m (channels 1 … 48): a direct wave at 400 m/s
- * (a one-sided 60 Hz pulse) in seeded noise of 1/20 of its peak; trace 30 (channel 31) arrives
- * 15 ms late, so the automatic pick there is flagged off the offset trend.
- */
-function refractionGather(): { set: GatherSet; onsets: number[] } {
-  const rnd = seededRandom(404);
-  const onsets: number[] = [];
-  const g = makeGather({ id: "sp01", traceCount: 48, sampleCount: 1600, sampleIntervalS: DT, startTimeS: -0.01 }, (t, time, h) => {
-    const onset = Math.abs(h.offset) / 400 + (t === 30 ? 0.015 : 0);
-    onsets[t] = onset;
-    const tau = time - onset;
-    const pulse = tau >= 0 ? Math.sin(2 * Math.PI * 60 * tau) * Math.exp(-tau * 60) : 0;
-    return pulse + 0.05 * rnd.gaussian();
-  });
-  return { set: { kind: "gathers", gathers: [g] }, onsets };
-}
+import { refractionGather } from "./make-gather";
 
 describe("first-arrivals step: hand edits", () => {
   it("moves a flagged pick, deletes one and adds one beyond maxOffsetM; hand picks are marked, unflagged, of quality 1", async () => {

@@ -2,7 +2,8 @@
  * Builds small gathers for step tests: a line of receivers either side of a source, samples
  * filled by a caller-given function of (trace, time).
  */
-import type { Gather, TraceHeader } from "../../../pipeline/types";
+import type { Gather, GatherSet, TraceHeader } from "../../../pipeline/types";
+import { seededRandom } from "../../helpers/random";
 
 export interface GatherShape {
   id?: string;
@@ -57,4 +58,23 @@ export function makeGather(shape: GatherShape, fill: (trace: number, timeS: numb
 export function ricker(t: number, fp: number): number {
   const a = (Math.PI * fp * t) ** 2;
   return (1 - 2 * a) * Math.exp(-a);
+}
+
+/**
+ * 48-trace gather sp01, source at −1 m, receivers 0 … 47 m (channels 1 … 48), 0.25 ms sampling
+ * from −10 ms: a direct wave at 400 m/s (onset at |offset| / 400 s, a one-sided 60 Hz pulse) in
+ * seeded noise of 1/20 of its peak. Trace 30 (channel 31) arrives 15 ms late, as if its receiver
+ * were logged 6 m off, so an automatic pick there lies off the offset trend. Returns the onsets.
+ */
+export function refractionGather(): { set: GatherSet; onsets: number[] } {
+  const rnd = seededRandom(404);
+  const onsets: number[] = [];
+  const g = makeGather({ id: "sp01", traceCount: 48, sampleCount: 1600, sampleIntervalS: 0.00025, startTimeS: -0.01 }, (t, time, h) => {
+    const onset = Math.abs(h.offset) / 400 + (t === 30 ? 0.015 : 0);
+    onsets[t] = onset;
+    const tau = time - onset;
+    const pulse = tau >= 0 ? Math.sin(2 * Math.PI * 60 * tau) * Math.exp(-tau * 60) : 0;
+    return pulse + 0.05 * rnd.gaussian();
+  });
+  return { set: { kind: "gathers", gathers: [g] }, onsets };
 }

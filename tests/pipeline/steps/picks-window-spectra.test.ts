@@ -5,30 +5,10 @@ import { lineSourceStep } from "../../../pipeline/steps/line-source";
 import { spectraStep } from "../../../pipeline/steps/spectra";
 import { lineSourceTraces } from "../../../pipeline/kernels/line-source";
 import { StepInputError } from "../../../pipeline/step";
-import type { GatherSet } from "../../../pipeline/types";
 import { makeStepContext } from "../../helpers/step-context";
-import { seededRandom } from "../../helpers/random";
-import { makeGather, ricker } from "./make-gather";
+import { makeGather, refractionGather, ricker } from "./make-gather";
 
 const DT = 0.00025;
-
-/**
- * 48-trace gather, source at −1 m, receivers 0 … 47 m: a direct wave at 400 m/s (onset at
- * |offset| / 400 s, a one-sided 60 Hz pulse) in seeded noise of 1/20 of its peak. Trace 30 has
- * its arrival 15 ms late, as if the receiver were logged 6 m off.
- */
-function refractionGather(): { set: GatherSet; onsets: number[] } {
-  const rnd = seededRandom(404);
-  const onsets: number[] = [];
-  const g = makeGather({ id: "sp01", traceCount: 48, sampleCount: 1600, sampleIntervalS: DT, startTimeS: -0.01 }, (t, time, h) => {
-    const onset = Math.abs(h.offset) / 400 + (t === 30 ? 0.015 : 0);
-    onsets[t] = onset;
-    const tau = time - onset;
-    const pulse = tau >= 0 ? Math.sin(2 * Math.PI * 60 * tau) * Math.exp(-tau * 60) : 0;
-    return pulse + 0.05 * rnd.gaussian();
-  });
-  return { set: { kind: "gathers", gathers: [g] }, onsets };
-}
 
 describe("first-arrivals step", () => {
   it("keeps every pick between the velocity lines it is given (common practice: velocity-bounded search)", async () => {
