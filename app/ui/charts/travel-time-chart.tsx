@@ -1,9 +1,10 @@
 "use client";
 
-import { useEffect, useMemo, useRef, useState } from "react";
+import { useMemo, useState } from "react";
 import type { StepView } from "@/app/lib/view-types";
 import { formatNumber } from "@/app/ui/format";
 import { niceDomain, niceTicks, tickLabel } from "./ticks";
+import { useElementWidth } from "@/app/ui/use-element-width";
 
 /** A series group name "sp07 (flagged)" → shot "sp07", flagged; "sp07 (hand)" → shot "sp07", a hand pick. */
 export function parseGroup(group: string | undefined, fallback: string): { shot: string; flagged: boolean; hand: boolean } {
@@ -33,15 +34,7 @@ export function TravelTimeChart({ series }: { series: StepView["series"][number]
   const [shot, setShot] = useState<string>("");
   const [hover, setHover] = useState<{ x: number; y: number; shot: string; flagged: boolean; hand: boolean } | null>(null);
   const active = shot || shots[0] || "";
-  const wrap = useRef<HTMLDivElement>(null);
-  const [width, setWidth] = useState(0);
-  useEffect(() => {
-    const el = wrap.current;
-    if (!el) return;
-    const ro = new ResizeObserver((e) => setWidth(Math.floor(e[0].contentRect.width)));
-    ro.observe(el);
-    return () => ro.disconnect();
-  }, []);
+  const [wrap, width] = useElementWidth();
 
   const [x0, x1] = niceDomain(Math.min(...points.map((p) => p.x)), Math.max(...points.map((p) => p.x)), 8);
   const ys = points.map((p) => p.y).filter(Number.isFinite);

@@ -1,7 +1,8 @@
 "use client";
 
-import { useEffect, useRef, useState } from "react";
+import { useEffect, useRef } from "react";
 import { gridToCanvas, lutCss } from "@/app/ui/model/colour-maps";
+import { useElementWidth } from "@/app/ui/use-element-width";
 
 export interface Grid {
   nx: number;
@@ -53,17 +54,8 @@ export function FieldCanvas({
   onPick?: (xM: number) => void;
   testId?: string;
 }) {
-  const wrap = useRef<HTMLDivElement>(null);
+  const [wrap, width] = useElementWidth();
   const canvas = useRef<HTMLCanvasElement>(null);
-  const [width, setWidth] = useState(0);
-
-  useEffect(() => {
-    const el = wrap.current;
-    if (!el) return;
-    const ro = new ResizeObserver((e) => setWidth(Math.floor(e[0].contentRect.width)));
-    ro.observe(el);
-    return () => ro.disconnect();
-  }, []);
 
   const extentX = Math.max(grid.spacingM, (grid.nx - 1) * grid.spacingM);
   const extentZ = Math.max(grid.spacingM, (grid.nz - 1) * grid.spacingM);

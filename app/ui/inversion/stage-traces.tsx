@@ -4,6 +4,7 @@ import { useEffect, useMemo, useRef, useState } from "react";
 import { useQuery } from "@tanstack/react-query";
 import { artifactQueries } from "@/app/lib/queries";
 import { measuredTraces, windowSamples, type IntermediateItem } from "./inversion-data";
+import { useElementWidth } from "@/app/ui/use-element-width";
 
 interface StageSettings {
   lowPassHz?: number;
@@ -41,17 +42,9 @@ function Wiggles({
   /** Samples drawn from the trace start (default all). */
   shownSamples?: number;
 }) {
-  const wrap = useRef<HTMLDivElement>(null);
+  const [wrap, width] = useElementWidth();
   const canvas = useRef<HTMLCanvasElement>(null);
-  const [width, setWidth] = useState(0);
   const height = 420;
-  useEffect(() => {
-    const el = wrap.current;
-    if (!el) return;
-    const ro = new ResizeObserver((e) => setWidth(Math.floor(e[0].contentRect.width)));
-    ro.observe(el);
-    return () => ro.disconnect();
-  }, []);
   useEffect(() => {
     const c = canvas.current;
     if (!c || width === 0) return;

@@ -8,6 +8,7 @@ import { formatNumber } from "@/app/ui/format";
 import { gridToCanvas, lutCss, SEQUENTIAL } from "./colour-maps";
 import { ModelCautions } from "./cautions";
 import { modelHeading, type ModelKind } from "./model-kind";
+import { useElementWidth } from "@/app/ui/use-element-width";
 
 export type Field = "vs" | "vp" | "rho";
 export const FIELDS: Record<Field, { label: string; symbol: string; unit: string; index: number }> = {
@@ -65,17 +66,8 @@ export function ModelSection({
   const field = fieldProp ?? ownField;
   const setField = onFieldChange ?? setOwnField;
   const [pickX, setPickX] = useState<number | null>(null);
-  const wrap = useRef<HTMLDivElement>(null);
+  const [wrap, width] = useElementWidth();
   const canvas = useRef<HTMLCanvasElement>(null);
-  const [width, setWidth] = useState(0);
-
-  useEffect(() => {
-    const el = wrap.current;
-    if (!el) return;
-    const ro = new ResizeObserver((e) => setWidth(Math.floor(e[0].contentRect.width)));
-    ro.observe(el);
-    return () => ro.disconnect();
-  }, []);
 
   const grid = useMemo(() => {
     if (!model.data) return null;
@@ -247,15 +239,7 @@ export function ModelSection({
 
 /** A property against depth, depth growing downwards from the surface (as in the section), axis titles with units. */
 export function DepthProfile({ pts, symbol, unit, height = 256 }: { pts: Array<{ depth: number; value: number }>; symbol: string; unit: string; height?: number }) {
-  const wrap = useRef<HTMLDivElement>(null);
-  const [width, setWidth] = useState(0);
-  useEffect(() => {
-    const el = wrap.current;
-    if (!el) return;
-    const ro = new ResizeObserver((e) => setWidth(Math.floor(e[0].contentRect.width)));
-    ro.observe(el);
-    return () => ro.disconnect();
-  }, []);
+  const [wrap, width] = useElementWidth();
   const m = { left: 44, right: 14, top: 36, bottom: 8 };
   const pw = Math.max(40, width - m.left - m.right);
   const ph = height - m.top - m.bottom;

@@ -7,6 +7,7 @@ import { artifactQueries } from "@/app/lib/queries";
 import { niceTicks, tickLabel } from "@/app/ui/charts/ticks";
 import { formatNumber } from "@/app/ui/format";
 import { DIVERGING, gridToCanvas, lutCss } from "./colour-maps";
+import { useElementWidth } from "@/app/ui/use-element-width";
 
 const M = { left: 56, right: 92, top: 30, bottom: 40 };
 
@@ -78,16 +79,7 @@ export function SnapshotPlayer({
   const gathers = useQuery({ ...artifactQueries.outline(positionsHash ?? ""), enabled: Boolean(positionsHash) });
   const shotX = gathers.data && gathers.data.kind === "gathers" && "gathers" in gathers.data ? (gathers.data.gathers.find((g) => g.id === shotId)?.sourceX ?? null) : null;
   const canvas = useRef<HTMLCanvasElement>(null);
-  const wrap = useRef<HTMLDivElement>(null);
-  const [width, setWidth] = useState(0);
-
-  useEffect(() => {
-    const el = wrap.current;
-    if (!el) return;
-    const ro = new ResizeObserver((e) => setWidth(Math.floor(e[0].contentRect.width)));
-    ro.observe(el);
-    return () => ro.disconnect();
-  }, []);
+  const [wrap, width] = useElementWidth();
 
   useEffect(() => {
     if (!playing) return;

@@ -8,6 +8,7 @@ import { formatNumber } from "@/app/ui/format";
 import { niceTicks, tickLabel } from "@/app/ui/charts/ticks";
 import { gridToCanvas, lutCss, SEQUENTIAL } from "@/app/ui/model/colour-maps";
 import { addPoint, curveOf, deletePoint, movePoint, thinCurve, withCurve, type CurvePoint, type HandPickEntry } from "./dispersion-points";
+import { useElementWidth } from "@/app/ui/use-element-width";
 
 const M = { left: 62, right: 16, top: 12, bottom: 42 };
 const H = 440;
@@ -50,16 +51,8 @@ export function DispersionEditor({
   const [drag, setDrag] = useState<{ index: number; x: number; y: number; at: CurvePoint; moved: boolean } | null>(null);
   const [saving, setSaving] = useState(false);
   const [error, setError] = useState<string | null>(null);
-  const wrap = useRef<HTMLDivElement>(null);
+  const [wrap, width] = useElementWidth();
   const canvas = useRef<HTMLCanvasElement>(null);
-  const [width, setWidth] = useState(0);
-  useEffect(() => {
-    const el = wrap.current;
-    if (!el) return;
-    const ro = new ResizeObserver((e) => setWidth(Math.floor(e[0].contentRect.width)));
-    ro.observe(el);
-    return () => ro.disconnect();
-  }, []);
 
   const d = data.data;
   const win = d?.window.id ?? windowId ?? "";
