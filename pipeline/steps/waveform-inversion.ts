@@ -105,6 +105,14 @@ export const waveformInversionParams = z
       .describe("Bounds kept by the parameterisation"),
     waveletFrom: z.enum(["wavelet-slot", "ricker"]).default("wavelet-slot").describe('Starting source wavelet: the wavelet slot (from source-wavelet) or a Ricker wavelet'),
     rickerPeakHz: z.number().positive().default(30).describe("Peak frequency of the Ricker wavelet, Hz"),
+    waveletLeadMs: z
+      .number()
+      .min(0)
+      .max(500)
+      .default(60)
+      .describe(
+        "How long before the source instant a re-estimated wavelet may start, ms: a zero-phase filter in the processing spreads the hammer's pulse to both sides of t = 0, and a wavelet kept causal cannot follow it (the solver then starts the source this much earlier)",
+      ),
     shotStride: z.number().int().min(1).default(1).describe("Use every n-th shot gather (1: all)"),
     preconditioning: z.enum(["pseudo-hessian", "none"]).default("pseudo-hessian").describe("Diagonal pseudo-Hessian preconditioning (Shin et al. 2001) or none"),
     stabilisation: z.number().positive().max(1).default(0.05).describe("Added to the illumination as a fraction of its maximum before dividing by it"),
@@ -153,7 +161,7 @@ interface ShotData {
 
 /** What the step saves after every iteration (plain data). */
 interface InversionCheckpoint {
-  version: 1;
+  version: 2;
   stage: number;
   /** Iteration within the stage, 0 before the first. */
   stageIteration: number;
@@ -276,7 +284,7 @@ function fixedMask(model: ElasticModel, p: WaveformInversionParams, shots: ShotD
 
 export const waveformInversionStep = defineStep({
   id: "waveform-inversion",
-  version: 2,
+  version: 3,
   title: "Waveform inversion",
   description:
     "Full-waveform inversion of the shot gathers for Vs (and Vp, density): frequency stages of rising low-pass corner (Bunks et al. 1995), adjoint-state gradients per shot on the worker pool (Tarantola 1986; Plessix 2006), pseudo-Hessian preconditioning (Shin et al. 2001), L-BFGS with a Wolfe line search (Nocedal & Wright 2006), bounds on the model, wavelet re-estimation per stage (Pratt 1999). Records every iteration's model and gradient, checkpoints after each iteration and resumes from the last.",
@@ -323,14 +331,20 @@ export const waveformInversionStep = defineStep({
     if (ns < first.sampleCount) {
       for (const s of shots) s.gather = truncate(s.gather, ns);
     }
-    const output = { intervalS: dt, count: ns, startTimeS: first.startTimeS };
+    // The wavelets start waveletLeadMs before the source instant: index 0 of every wavelet array is
+    // at t = −lead. The solver starts at the first wavelet sample, so its traces are read `lead` later
+    // than the gathers' times (the same traces, on the gathers' time axis).
+    const leadSamples = Math.round(p.waveletLeadMs / 1000 / dt);
+    const lead = leadSamples * dt;
+    const waveletCount = ns + leadSamples;
+    const output = { intervalS: dt, count: ns, startTimeS: first.startTimeS + lead };
 
     // Refuse a model too large before any allocation: per worker one solver buffer plus the forward
     // wavefield kept for the gradient (velocities and strain rates on the model cells, 5 arrays in
     // P-SV, 3 in SH, every K-th step with K·dt ≤ 1/(2·fmax): about 2·fmax·T + 1 kept steps). fmax is
     // taken as twice the highest stage's lowPassHz, an upper estimate of the filtered band's edge.
     const fmaxHz = 2 * Math.max(...p.stages.map((s) => s.lowPassHz));
-    const keptSteps = Math.ceil(2 * fmaxHz * ns * dt) + 1;
+    const keptSteps = Math.ceil(2 * fmaxHz * (ns * dt + lead)) + 1;
     const storedBytes = keptSteps * (p.mode === "psv" ? 5 : 3) * startModel.nx * startModel.nz * 4;
     const footprint = solverFootprint(startModel, {
       mode: p.mode,
@@ -345,16 +359,22 @@ export const waveformInversionStep = defineStep({
     const startWavelets = (): Record<string, Float32Array> => {
       const out: Record<string, Float32Array> = {};
       for (const s of shots) {
+        const samples = new Float32Array(waveletCount);
         if (p.waveletFrom === "ricker") {
-          out[s.id] = sampled({ peakHz: p.rickerPeakHz }, dt, ns);
+          samples.set(sampled({ peakHz: p.rickerPeakHz }, dt, ns), leadSamples);
+          out[s.id] = samples;
           continue;
         }
         const slot = input.wavelet;
         if (!slot || slot.gathers.length === 0) throw new StepInputError('waveletFrom "wavelet-slot" needs a wavelet from an earlier step (source-wavelet).', "waveletFrom");
         const w = slot.gathers.find((g) => g.id === s.id) ?? slot.gathers[0];
         if (w.sampleIntervalS !== dt) throw new StepInputError(`The wavelet is sampled every ${w.sampleIntervalS} s, the gathers every ${dt} s; estimate it on the same gathers.`, "waveletFrom");
-        const samples = new Float32Array(ns);
-        samples.set(w.data.subarray(0, Math.min(ns, w.sampleCount)));
+        // Sample j of the slot's wavelet is at w.startTimeS + j·dt, i.e. at index j + first here.
+        const first = leadSamples + Math.round(w.startTimeS / dt);
+        for (let j = 0; j < w.sampleCount; j++) {
+          const k = first + j;
+          if (k >= 0 && k < waveletCount) samples[k] = w.data[j];
+        }
         out[s.id] = samples;
       }
       return out;
@@ -366,10 +386,10 @@ export const waveformInversionStep = defineStep({
     ctx.signal.addEventListener("abort", onAbort, { once: true });
 
     let cp = ctx.loadCheckpoint() as InversionCheckpoint | null;
-    if (cp && cp.version !== 1) cp = null;
+    if (cp && cp.version !== 2) cp = null;
     if (cp) ctx.log.info(`resuming from the checkpoint after iteration ${cp.iteration} (stage ${cp.stage + 1})`);
     const state: InversionCheckpoint = cp ?? {
-      version: 1,
+      version: 2,
       stage: 0,
       stageIteration: 0,
       iteration: 0,
@@ -396,7 +416,7 @@ export const waveformInversionStep = defineStep({
           // illumination and the scale, and the first evaluation.
           throwIfAborted(ctx.signal);
           const base = startWavelets();
-          for (const s of shots) state.wavelets[s.id] = lowPass(base[s.id], 1, ns, dt, stage.lowPassHz, stage.filterOrder);
+          for (const s of shots) state.wavelets[s.id] = lowPass(base[s.id], 1, waveletCount, dt, stage.lowPassHz, stage.filterOrder);
           let waveletFit: number | undefined;
           if (stage.reestimateWavelet) {
             waveletFit = await reestimate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag });
@@ -553,7 +573,7 @@ export const waveformInversionStep = defineStep({
           if (k === 0 && which === "start" && state.stageRecords[0]) return state.stageRecords[0].startMisfit;
           const base = startWavelets();
           const scratch: InversionCheckpoint = { ...state, model, wavelets: {} };
-          for (const s of shots) scratch.wavelets[s.id] = lowPass(base[s.id], 1, ns, dt, stage.lowPassHz, stage.filterOrder);
+          for (const s of shots) scratch.wavelets[s.id] = lowPass(base[s.id], 1, waveletCount, dt, stage.lowPassHz, stage.filterOrder);
           if (stage.reestimateWavelet) await reestimate(ctx, scratch, prepared, shots, p, physics, `measure-table/stage-${k + 1}/${which}/wavelet`);
           const r = await evaluate(ctx, scratch, prepared, shots, p, physics, model, false, `measure-table/stage-${k + 1}/${which}`);
           state.forwardSolves = scratch.forwardSolves;

@@ -751,11 +751,13 @@ async function main() {
 
     await test("hand picks: a first-arrival pick and a dispersion curve edited and saved as new runs; the auditor gets 403", async () => {
       await signIn(page, origin, account("processor").email, account("processor").password);
-      // The model-from-data run: first-arrival picks and dispersion images in one run.
+      // The model-from-data run: first-arrival picks and dispersion images in one run, and no
+      // inversion after them (a rerun from the picks would run it again, minutes on two cores).
       let source: Awaited<ReturnType<typeof apiRun>> | null = null;
       for (const row of (await apiRuns(page, origin)).rows.filter((r) => r.status === "succeeded")) {
         const detail = await apiRun(page, origin, row.id);
-        if (detail.steps.some((st) => st.stepId === "first-arrivals") && detail.steps.some((st) => st.stepId === "dispersion-image")) source = detail;
+        const has = (id: string) => detail.steps.some((st) => st.stepId === id);
+        if (has("first-arrivals") && has("dispersion-image") && !has("waveform-inversion")) source = detail;
       }
       check(source, "the demo data has no succeeded run with first-arrivals and dispersion-image steps");
       const fa = source.steps.find((st) => st.stepId === "first-arrivals")!;

@@ -103,12 +103,12 @@ describe("waveform-inversion", () => {
     const set: GatherSet = { kind: "gathers", gathers };
     const p = waveformInversionParams.parse({ mode: "sh", pmlCells: 10, waveletFrom: "ricker", rickerPeakHz: 30, stages: [{ lowPassHz: 60, iterations: 1 }] });
     // Solver grid 117 × 43 = 5,031 cells, within 6,000; the kept wavefields (about 2 · 120 Hz ·
-    // 0.15 s + 1 = 37 steps × 3 arrays × 3,201 cells × 4 bytes = 1.4 MB) exceed the 240 kB that
-    // 6,000 cells allow per worker.
+    // (0.15 s + the default 0.06 s wavelet lead) + 1 = 52 steps × 3 arrays × 3,201 cells × 4 bytes
+    // = 2.0 MB) exceed the 240 kB that 6,000 cells allow per worker.
     process.env[MAX_MODEL_CELLS_ENV] = "6000";
     const err = await refusal(waveformInversionStep.run({ gathers: set, model }, p, makeStepContext()));
     expect(err.field).toBe("model");
-    expect(err.message).toMatch(/stored forward wavefields \(37 steps\) 1 MB/);
+    expect(err.message).toMatch(/stored forward wavefields \(52 steps\) 2 MB/);
     expect(err.message).toMatch(/more than the 240 kB per worker that the limit of 6,000 cells allows/);
   });
 });
