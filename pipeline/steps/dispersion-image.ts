@@ -97,6 +97,13 @@ export const dispersionImageParams = z
       .describe(
         'Which peak the automatic pick takes at each frequency: "slowest" the slowest clear peak (the fundamental mode is the slowest Rayleigh mode; common practice), "strongest" the largest value within the bounds',
       ),
+    /** @default true */
+    pickAboveAliasing: z
+      .boolean()
+      .default(true)
+      .describe(
+        "The automatic pick stays above f × the trace spacing at each frequency: slower, the image repeats faster waves (spatial aliasing), and the slowest-peak rule would take the repetition",
+      ),
     /** @default [] */
     handPicks: z
       .array(handPickSchema)
@@ -144,7 +151,7 @@ const windowId = (i: number) => `W${String(i + 1).padStart(2, "0")}`;
 
 export const dispersionImageStep = defineStep({
   id: "dispersion-image",
-  version: 1,
+  version: 2,
   title: "Dispersion image",
   description:
     "Phase velocity against frequency images of the surface waves by the phase-shift method (Park, Miller & Xia 1998): unit-amplitude trace spectra, phase-shifted by ω·|offset|/c and summed, for one window of receivers or moving windows along the line, several shots stacked, normalised per frequency. " +
@@ -237,7 +244,10 @@ export const dispersionImageStep = defineStep({
         continue;
       }
       const image = phaseShiftImage(inputs, axes, p.normalisation === "per-frequency");
-      const auto = pickDispersionCurve(image, axes.frequenciesHz, axes.velocitiesMps, pickOptions);
+      const auto = pickDispersionCurve(image, axes.frequenciesHz, axes.velocitiesMps, {
+        ...pickOptions,
+        aliasSpacingM: p.pickAboveAliasing ? traceSpacingM(inputs) : 0,
+      });
       const picks: DispersionCurve[] = [curveFromPicks(axes.frequenciesHz, auto.velocitiesMps)];
       for (const h of p.handPicks.filter((x) => x.window === id)) {
         const pts = [...h.points].sort((a, b) => a[0] - b[0]);
@@ -289,3 +299,21 @@ function curveFromPicks(frequenciesHz: Float64Array, velocities: Float64Array): 
 }
 
 export default dispersionImageStep;
+
+/**
+ * The spacing of a window's traces along the line, m: per shot the median step between its sorted
+ * source–receiver distances, and the smallest of those over the shots (the finest sampling decides
+ * where the image starts to repeat).
+ */
+export function traceSpacingM(inputs: PhaseShiftInput[]): number {
+  let finest = Infinity;
+  for (const s of inputs) {
+    const d = Array.from(s.distancesM).sort((a, b) => a - b);
+    const steps: number[] = [];
+    for (let i = 1; i < d.length; i++) if (d[i] - d[i - 1] > 1e-6) steps.push(d[i] - d[i - 1]);
+    if (steps.length === 0) continue;
+    steps.sort((a, b) => a - b);
+    finest = Math.min(finest, steps[Math.floor(steps.length / 2)]);
+  }
+  return Number.isFinite(finest) ? finest : 0;
+}

@@ -28,6 +28,14 @@ export interface PickOptions {
   maxGapFrequencies?: number;
   /** Take the slowest clear peak rather than the strongest (the fundamental mode is the slowest). Default false. */
   preferSlowest?: boolean;
+  /**
+   * Spacing of the traces the image was stacked from, m (0 or absent: no limit). Picks slower than
+   * f · spacing are left out: a phase-shift stack over traces spaced dx apart cannot tell a wave of
+   * phase velocity c from one of 1/c' = 1/c + n/(f·dx) (spatial sampling: phases differing by 2πn
+   * from trace to trace), and every such repetition on the slow side lies below f·dx. On a 1 m spread
+   * the 150 m/s surface wave at 80 Hz repeats at 52 m/s, where an unbounded picker finds it.
+   */
+  aliasSpacingM?: number;
 }
 
 /** A picked curve: NaN velocity where no pick was made. */
@@ -64,9 +72,14 @@ export function pickDispersionCurve(
   if (nc < 3) return { velocitiesMps: vel, values: val };
   const dc = (velocitiesMps[nc - 1] - velocitiesMps[0]) / (nc - 1);
   const inBand = (q: number) => frequenciesHz[q] >= o.minFrequencyHz && frequenciesHz[q] <= o.maxFrequencyHz;
+  const spacing = o.aliasSpacingM ?? 0;
+  if (!(spacing >= 0)) throw new RangeError(`aliasSpacingM must be ≥ 0, got ${o.aliasSpacingM}`);
+  /** Slowest velocity a pick at row q may take: above every slow-side repetition, f · spacing. */
+  const aliasFloor = (q: number) => frequenciesHz[q] * spacing;
 
-  /** Index of the largest value in the [cLo, cHi] velocity window at row q, or −1. */
+  /** Index of the largest value in the [cLo, cHi] velocity window at row q (above the alias floor), or −1. */
   const strongestIn = (q: number, cLo: number, cHi: number): number => {
+    cLo = Math.max(cLo, aliasFloor(q));
     let best = -1;
     let bv = -Infinity;
     for (let j = 0; j < nc; j++) {
@@ -91,6 +104,7 @@ export function pickDispersionCurve(
    */
   const bestIn = (q: number, cLo: number, cHi: number): number => {
     if (o.preferSlowest) {
+      cLo = Math.max(cLo, aliasFloor(q));
       const floor = o.minRelativeValue * rowMax(q);
       for (let j = 0; j < nc; j++) {
         const c = velocitiesMps[j];
@@ -105,6 +119,7 @@ export function pickDispersionCurve(
   };
   const accept = (q: number, j: number): boolean => {
     const v = image[q * nc + j];
+    if (velocitiesMps[j] < aliasFloor(q)) return false;
     if (!(v > 0) || v < o.minRelativeValue * rowMax(q)) return false;
     // A maximum on the edge of the search window is not a peak unless it is the image edge.
     const left = j > 0 ? image[q * nc + j - 1] : -Infinity;

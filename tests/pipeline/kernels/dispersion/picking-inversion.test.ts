@@ -1,6 +1,6 @@
 import { describe, expect, it } from "vitest";
 import { pickDispersionCurve } from "../../../../pipeline/kernels/dispersion/picking";
-import { evenAxis } from "../../../../pipeline/kernels/dispersion/phase-shift";
+import { evenAxis, phaseShiftImage } from "../../../../pipeline/kernels/dispersion/phase-shift";
 import { densityFromRule, invertDispersionCurve, layeredFromVs, solveSymmetric, vpFromPoisson } from "../../../../pipeline/kernels/dispersion/inversion";
 import { rayleighDispersion } from "../../../../pipeline/kernels/dispersion/rayleigh";
 import { profilesToModel } from "../../../../pipeline/kernels/dispersion/profile-section";
@@ -67,6 +67,31 @@ describe("automatic dispersion picking", () => {
       expect(Math.abs(slowest.velocitiesMps[q] - fundamental(fq)), `${fq} Hz`).toBeLessThan(1.5);
       expect(Math.abs(strongest.velocitiesMps[q] - higher(fq)), `${fq} Hz`).toBeLessThan(1.5);
     });
+  });
+
+  it("stays above f × trace spacing, where a phase-shift image repeats a wave (spatial aliasing), and finds the repetition without that limit", () => {
+    // One non-dispersive wave at 150 m/s recorded every 1 m from 2 to 25 m (a Ricker pulse of 45 Hz).
+    // Stacked with trial phase shifts, traces dx apart cannot tell c from 1/c' = 1/c + n/(f·dx)
+    // (sampling theorem: phases that differ by 2πn per trace); at 80 Hz the n = 1 repetition is at
+    // 1/(1/150 + 1/80) = 52.2 m/s, inside a 50–800 m/s image, and it is the slowest peak.
+    const dt = 0.00025;
+    const ns = 1600;
+    const dist = Array.from({ length: 24 }, (_, k) => 2 + k);
+    const data = new Float64Array(dist.length * ns);
+    dist.forEach((x, t) => {
+      for (let k = 0; k < ns; k++) {
+        const a = Math.PI * 45 * (k * dt - 0.05 - x / 150);
+        data[t * ns + k] = (1 - 2 * a * a) * Math.exp(-a * a);
+      }
+    });
+    const axes = { frequenciesHz: evenAxis(15, 80, 0.5, "frequency"), velocitiesMps: evenAxis(50, 800, 1, "velocity") };
+    const image = phaseShiftImage([{ data, sampleCount: ns, sampleIntervalS: dt, startTimeS: 0, traceRows: dist.map((_, t) => t), distancesM: dist }], axes, true);
+    const o = { minVelocityMps: 50, maxVelocityMps: 800, minFrequencyHz: 15, maxFrequencyHz: 80, maxStepFraction: 0.15, minRelativeValue: 0.5, preferSlowest: true };
+    const last = axes.frequenciesHz.length - 1;
+    const free = pickDispersionCurve(image, axes.frequenciesHz, axes.velocitiesMps, o);
+    expect(Math.abs(free.velocitiesMps[last] - 1 / (1 / 150 + 1 / 80))).toBeLessThan(2);
+    const bounded = pickDispersionCurve(image, axes.frequenciesHz, axes.velocitiesMps, { ...o, aliasSpacingM: 1 });
+    axes.frequenciesHz.forEach((fq, q) => expect(Math.abs(bounded.velocitiesMps[q] - 150), `${fq} Hz`).toBeLessThan(3));
   });
 
   it("leaves frequencies without a clear peak unpicked and refuses bad settings", () => {
