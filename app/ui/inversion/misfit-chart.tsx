@@ -109,7 +109,8 @@ export function MisfitChart({ points, currentIteration }: { points: SeriesPoint[
         </div>
       )}
       <p className="mt-1 text-xs muted">
-        Each stage measures the misfit in its own frequency band, so the curve jumps where a stage starts (dashed): the same model, measured with more of the data.
+        Each stage measures the misfit in its own frequency band, so the curve usually jumps up where a stage starts (dashed): the same model, measured with more of the data. A
+        stage that re-estimates the wavelet may also start lower, when the new wavelet explains the data better than the last one did.
         {stages.length ? ` ${stages.length} stage${stages.length > 1 ? "s" : ""} so far.` : ""}
       </p>
     </figure>
