@@ -1,6 +1,7 @@
 "use client";
 
 import { useEffect, useRef, useState } from "react";
+import { useElementWidth } from "../use-element-width";
 import { drawGather, fullWindow, MARGIN, pointAt, type DisplaySettings, type GatherView, type Overlays, type ViewWindow } from "./draw-traces";
 
 /**
@@ -33,19 +34,10 @@ export function TraceCanvas({
   /** A click (a press and release without dragging) at a trace and time, e.g. to set a pick there. */
   onPointAt?: (p: { traceIndex: number; timeS: number }) => void;
 }) {
-  const wrap = useRef<HTMLDivElement>(null);
+  const [wrap, width] = useElementWidth();
   const canvas = useRef<HTMLCanvasElement>(null);
-  const [width, setWidth] = useState(0);
   const [drawMs, setDrawMs] = useState<number | null>(null);
   const drag = useRef<{ x: number; y: number; view: ViewWindow } | null>(null);
-
-  useEffect(() => {
-    const el = wrap.current;
-    if (!el) return;
-    const ro = new ResizeObserver((entries) => setWidth(Math.floor(entries[0].contentRect.width)));
-    ro.observe(el);
-    return () => ro.disconnect();
-  }, []);
 
   useEffect(() => {
     const c = canvas.current;
