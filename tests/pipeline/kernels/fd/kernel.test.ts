@@ -28,6 +28,10 @@ describe("WebAssembly kernel", () => {
     { mode: "psv", kind: "force-z", nx: 45, fs: true, pml: 8 },
     { mode: "psv", kind: "explosive", nx: 42, fs: true, pml: 6 },
     { mode: "psv", kind: "force-x", nx: 40, fs: false, pml: 7 },
+    // Interiors between the absorbing strips of 3 and 0 columns past whole groups of four
+    // (43 + 2·8 - 2·12 = 35; 40 + 2·8 - 2·12 = 32), the strips' own loops beside them.
+    { mode: "psv", kind: "force-z", nx: 43, fs: false, pml: 8 },
+    { mode: "psv", kind: "explosive", nx: 40, fs: true, pml: 8 },
     { mode: "sh", kind: "force-y", nx: 43, fs: true, pml: 8 },
     { mode: "sh", kind: "force-y", nx: 41, fs: false, pml: 0 },
   ];

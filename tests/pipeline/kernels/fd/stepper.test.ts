@@ -85,6 +85,8 @@ describe("several steps per call", () => {
     { mode: "psv", nx: 45, nz: 31, pml: 8, fs: true, source: "force", sourceRow: 3, chunks: [1, 3, 5, 64, 17, 2] },
     { mode: "psv", nx: 42, nz: 29, pml: 6, fs: true, source: "explosive", sourceRow: 1, chunks: [4, 7, 64, 11] },
     { mode: "psv", nx: 40, nz: 33, pml: 7, fs: false, source: "explosive", sourceRow: 20, chunks: [2, 64, 30] },
+    { mode: "psv", nx: 43, nz: 30, pml: 8, fs: false, source: "force", sourceRow: 6, chunks: [64, 64, 5] },
+    { mode: "psv", nx: 40, nz: 28, pml: 8, fs: true, source: "explosive", sourceRow: 2, chunks: [3, 64, 61] },
     { mode: "sh", nx: 43, nz: 30, pml: 8, fs: true, source: "force", sourceRow: 0, chunks: [5, 64, 9] },
     { mode: "sh", nx: 41, nz: 28, pml: 0, fs: false, source: "force", sourceRow: 12, chunks: [64, 36] },
   ];
