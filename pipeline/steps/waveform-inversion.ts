@@ -422,6 +422,7 @@ export const waveformInversionStep = defineStep({
             waveletFit = await reestimate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag });
             ctx.log.info(`stage ${state.stage + 1}: source wavelet re-estimated (mean relative residual ${waveletFit.toFixed(3)})`);
           }
+          recordStageWavelets(ctx, state.stage, stage, shots, state.wavelets, dt, -lead, waveletFit);
           // The grid resolves waves down to Vs = points · fmax · h: in this stage no cell may go
           // slower, or the solver's accuracy check would refuse the model half way (common practice:
           // 5 to 8 points per shortest S wavelength).
@@ -825,6 +826,45 @@ function gradientDocument(model: ElasticModel, g: EvaluationResult["gradient"], 
     ...(params.includes("vp") ? { vp: Float32Array.from(g.vp) } : {}),
     ...(params.includes("rho") ? { rho: Float32Array.from(g.rho) } : {}),
   };
+}
+
+/**
+ * At the start of a stage: the wavelet of every shot that the stage models with (low-passed like
+ * the data, re-estimated when the stage asks), one single-trace gather per shot on the wavelet's own
+ * time axis (from −lead), as the intermediate result "wavelet" of index stage + 1.
+ */
+function recordStageWavelets(
+  ctx: StepContext,
+  stageIndex: number,
+  stage: { lowPassHz: number; reestimateWavelet: boolean },
+  shots: ShotData[],
+  wavelets: Record<string, Float32Array>,
+  dt: number,
+  startTimeS: number,
+  fit: number | undefined,
+): void {
+  const value: GatherSet = {
+    kind: "gathers",
+    gathers: shots.map((s) => {
+      const data = Float32Array.from(wavelets[s.id]);
+      const t = s.gather.traces[0];
+      return {
+        id: s.id,
+        sampleIntervalS: dt,
+        sampleCount: data.length,
+        startTimeS,
+        traces: [{ ...t, receiverX: t.sourceX, receiverZ: t.sourceZ, offset: 0, stackCount: 1, dead: false }],
+        data,
+      };
+    }),
+  };
+  ctx.recordIntermediate({
+    kind: "wavelet",
+    index: stageIndex + 1,
+    label: `stage ${stageIndex + 1} (${stage.lowPassHz} Hz)`,
+    value,
+    meta: { stage: stageIndex + 1, lowPassHz: stage.lowPassHz, reestimated: stage.reestimateWavelet, ...(fit === undefined ? {} : { meanRelativeResidual: fit }) },
+  });
 }
 
 /** At the end of a stage: synthetics and residuals of every shot, as intermediate results. */

@@ -413,6 +413,12 @@ async function main() {
       await page.waitForSelector("[data-testid=iteration-model-canvas]");
       check(await page.locator("[data-testid=inversion-cautions]").count(), "cautions missing beside the inverted model");
       check(/one model of many/i.test((await page.textContent("[data-testid=inversion-cautions]")) ?? ""), "cautions not worded for an inverted model");
+      // The wavelets: the starting ones and each stage's, recorded at the stage's start.
+      await page.waitForSelector("[data-testid=wavelet-chart]");
+      const waveletChoices = await page.locator("[data-testid=wavelet-choice] option").allTextContents();
+      check(waveletChoices.some((c) => /^stage 1 \(/.test(c)), `the wavelet chooser lacks the stages' wavelets: ${waveletChoices.join(", ") || "no chooser"}`);
+      await page.selectOption("[data-testid=wavelet-choice]", "stage-1");
+      await page.waitForFunction(() => /stage 1/.test(document.querySelector("[data-testid=wavelet-chart] figcaption")?.textContent ?? ""));
       const slider = page.locator("[data-testid=iteration-slider]");
       const max = Number(await slider.getAttribute("max"));
       check(max >= 1, "the slider has only the starting model");

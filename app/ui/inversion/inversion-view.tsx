@@ -4,13 +4,13 @@ import { useEffect, useMemo, useRef, useState } from "react";
 import { useQuery } from "@tanstack/react-query";
 import type { RunView, StepView } from "@/app/lib/view-types";
 import { StatusBadge } from "@/app/ui/status-badge";
-import { iterationFrames, type SeriesPoint } from "./inversion-data";
+import { iterationFrames, type IntermediateItem, type SeriesPoint } from "./inversion-data";
 import { MeasureTable } from "./measure-table";
 import { MisfitChart } from "./misfit-chart";
 import { invertedParameters, ModelIterations, PARAMETERS } from "./model-iterations";
 import { inversionQueries } from "./queries";
 import { StageTraces } from "./stage-traces";
-import { WaveletChart } from "./wavelet-chart";
+import { WaveletPanel, type WaveletChoice } from "./wavelet-chart";
 
 /** Step id of the full-waveform inversion. */
 export const INVERSION_STEP_ID = "waveform-inversion";
@@ -57,6 +57,7 @@ export function InversionView({ run, step, live }: { run: RunView; step: StepVie
   const waveletHash = step.inputs.wavelet ?? run.steps.find((s) => s.stepId === "source-wavelet")?.outputs.wavelet ?? null;
   const waveletFrom = run.steps.find((s) => s.outputs.wavelet === waveletHash)?.label ?? "the wavelet step";
   const lastMeta = frames.at(-1)?.meta;
+  const waveletChoices = useMemo(() => waveletChoicesOf(waveletHash, waveletFrom, items), [waveletHash, waveletFrom, items]);
 
   return (
     <section className="card space-y-5 p-4" aria-label={`Inversion ${step.label}`} data-testid="inversion-view">
@@ -74,7 +75,7 @@ export function InversionView({ run, step, live }: { run: RunView; step: StepVie
 
       <div className="grid gap-4 lg:grid-cols-2">
         <MisfitChart points={misfit} currentIteration={frames[shownIndex]?.iteration ?? null} />
-        {waveletHash ? <WaveletChart hash={waveletHash} fromLabel={waveletFrom} /> : <p className="card p-3 text-sm muted">This inversion starts from a Ricker wavelet (no wavelet step).</p>}
+        {waveletChoices.length > 0 ? <WaveletPanel choices={waveletChoices} /> : <p className="card p-3 text-sm muted">This inversion starts from a Ricker wavelet (no wavelet step).</p>}
       </div>
 
       {step.outputs.report ? <MeasureTable reportHash={step.outputs.report} /> : null}
@@ -88,4 +89,27 @@ export function InversionView({ run, step, live }: { run: RunView; step: StepVie
       <StageTraces items={items} stages={stages} />
     </section>
   );
+}
+
+/**
+ * The wavelets the view can draw: the starting ones (from the wavelet step, when there is one) and
+ * those each stage modelled with, recorded at its start (intermediate results "wavelet").
+ */
+export function waveletChoicesOf(startHash: string | null, startFrom: string, items: readonly IntermediateItem[]): WaveletChoice[] {
+  const choices: WaveletChoice[] = [];
+  if (startHash) {
+    choices.push({ key: "start", label: "the start", hash: startHash, caption: `Starting source wavelets, estimated by ${startFrom}` });
+  }
+  for (const w of items.filter((i) => i.kind === "wavelet").sort((a, b) => a.index - b.index)) {
+    const m = w.meta ?? {};
+    const fit = typeof m.meanRelativeResidual === "number" ? ` (mean relative residual of the fit ${m.meanRelativeResidual.toFixed(2)})` : "";
+    const how = m.reestimated === true ? `re-estimated from the data against the model at the stage's start${fit}` : "the starting wavelets low-passed like the data";
+    choices.push({
+      key: `stage-${w.index}`,
+      label: w.label ?? `stage ${w.index}`,
+      hash: w.hash,
+      caption: `Wavelets of ${w.label ?? `stage ${w.index}`}: ${how}; they begin before the source instant (the zero-phase band-pass spreads the pulse to both sides)`,
+    });
+  }
+  return choices;
 }

@@ -1,18 +1,54 @@
 "use client";
 
-import { useMemo } from "react";
+import { useMemo, useState, type ReactNode } from "react";
 import { useQueries, useQuery } from "@tanstack/react-query";
-import { CartesianGrid, Legend, Line, LineChart, ResponsiveContainer, Tooltip, XAxis, YAxis } from "recharts";
+import { CartesianGrid, Line, LineChart, ResponsiveContainer, Tooltip, XAxis, YAxis } from "recharts";
 import { artifactQueries } from "@/app/lib/queries";
 import { STAGE_COLOURS } from "./misfit-chart";
 
 const MAX_SHOWN = 8;
+/** One colour per drawn shot: the stage colours and two more, so no two of the eight repeat. */
+const COLOURS = [...STAGE_COLOURS, "#b8336a", "#2a8f8f"];
+
+/** One set of wavelets the inversion view can draw: the starting ones, or those of a stage. */
+export interface WaveletChoice {
+  key: string;
+  /** Short name in the chooser. */
+  label: string;
+  hash: string;
+  /** What the wavelets are (the chart adds how many). */
+  caption: string;
+}
 
 /**
- * The estimated source wavelet(s) of a wavelet artifact (one single-trace gather per shot, or
- * one "shared"), time in ms, cut to where they carry energy (above 0.5 % of the largest peak).
+ * The wavelets of an inversion: a chooser between the starting wavelets and each stage's (the
+ * newest shown until another is chosen), and the chart of the chosen ones.
  */
-export function WaveletChart({ hash, fromLabel }: { hash: string; fromLabel: string }) {
+export function WaveletPanel({ choices }: { choices: readonly WaveletChoice[] }) {
+  const [key, setKey] = useState<string | null>(null);
+  const shown = choices.find((c) => c.key === key) ?? choices[choices.length - 1];
+  if (!shown) return null;
+  const chooser =
+    choices.length > 1 ? (
+      <label className="flex items-center gap-2 text-xs">
+        <span className="muted">Wavelets of</span>
+        <select className="input py-0.5 text-xs" value={shown.key} onChange={(e) => setKey(e.target.value)} data-testid="wavelet-choice">
+          {choices.map((c) => (
+            <option key={c.key} value={c.key}>
+              {c.label}
+            </option>
+          ))}
+        </select>
+      </label>
+    ) : null;
+  return <WaveletChart hash={shown.hash} caption={shown.caption} control={chooser} />;
+}
+
+/**
+ * The source wavelet(s) of a wavelet artifact (one single-trace gather per shot, or one
+ * "shared"), time in ms, cut to where they carry energy (above 0.5 % of the largest peak).
+ */
+export function WaveletChart({ hash, caption, control }: { hash: string; caption: string; control?: ReactNode }) {
   const outline = useQuery(artifactQueries.outline(hash));
   const ids = outline.data?.kind === "gathers" && "gathers" in outline.data ? outline.data.gathers.map((g) => g.id) : [];
   const shown = ids.slice(0, MAX_SHOWN);
@@ -55,8 +91,11 @@ export function WaveletChart({ hash, fromLabel }: { hash: string; fromLabel: str
 
   return (
     <figure className="card p-3" data-testid="wavelet-chart">
-      <figcaption className="mb-1 text-xs font-medium text-ink-soft">
-        Source wavelet{ids.length > 1 ? "s" : ""} estimated by {fromLabel} ({ids.length === 1 && ids[0] === "shared" ? "one shared by all shots" : `one per shot${ids.length > MAX_SHOWN ? `, first ${MAX_SHOWN} of ${ids.length} shown` : ""}`}); each stage low-passes them like the data
+      <figcaption className="mb-1 flex flex-wrap items-start justify-between gap-2 text-xs font-medium text-ink-soft">
+        <span>
+          {caption} ({ids.length === 1 && ids[0] === "shared" ? "one shared by all shots" : `one per shot${ids.length > MAX_SHOWN ? `, first ${MAX_SHOWN} of ${ids.length} shown` : ""}`})
+        </span>
+        {control}
       </figcaption>
       {outline.error ? <p className="text-sm text-bad">{outline.error.message}</p> : null}
       {data ? (
@@ -67,9 +106,8 @@ export function WaveletChart({ hash, fromLabel }: { hash: string; fromLabel: str
               <XAxis dataKey="t" type="number" domain={["dataMin", "dataMax"]} tick={{ fontSize: 10 }} label={{ value: "Time (ms)", position: "insideBottom", offset: -12, fontSize: 10 }} />
               <YAxis tick={{ fontSize: 10 }} width={56} tickFormatter={(v: number) => v.toPrecision(2)} label={{ value: "Amplitude", angle: -90, position: "insideLeft", fontSize: 10 }} />
               <Tooltip formatter={(v) => Number(v).toPrecision(3)} labelFormatter={(t) => `${t} ms`} />
-              {shown.length > 1 ? <Legend wrapperStyle={{ fontSize: 10 }} /> : null}
               {shown.map((id, i) => (
-                <Line key={id} dataKey={id} name={id === "shared" ? "shared wavelet" : `shot ${id}`} stroke={STAGE_COLOURS[i % STAGE_COLOURS.length]} dot={false} strokeWidth={1.5} isAnimationActive={false} />
+                <Line key={id} dataKey={id} name={id === "shared" ? "shared wavelet" : `shot ${id}`} stroke={COLOURS[i % COLOURS.length]} dot={false} strokeWidth={1.5} isAnimationActive={false} />
               ))}
             </LineChart>
           </ResponsiveContainer>
@@ -77,6 +115,16 @@ export function WaveletChart({ hash, fromLabel }: { hash: string; fromLabel: str
       ) : (
         <p className="py-8 text-center text-xs muted">Loading the wavelets…</p>
       )}
+      {data && shown.length > 1 ? (
+        <ul className="mt-1 flex flex-wrap gap-x-3 gap-y-1 text-[10px] text-ink-soft" aria-label="Shots drawn">
+          {shown.map((id, i) => (
+            <li key={id} className="flex items-center gap-1">
+              <span aria-hidden className="inline-block h-0.5 w-3" style={{ background: COLOURS[i % COLOURS.length] }} />
+              {id === "shared" ? "shared wavelet" : `shot ${id}`}
+            </li>
+          ))}
+        </ul>
+      ) : null}
     </figure>
   );
 }

@@ -118,6 +118,26 @@ describe("waveform-inversion step", () => {
     expect(ctx.records.intermediates.filter((r) => r.kind === "model").map((r) => r.index)).toEqual(
       Array.from({ length: report.stages[0].iterations }, (_, k) => k + 1),
     );
+    // The wavelet the stage modelled with, recorded at its start: one single-trace gather per shot
+    // on the wavelet's own time axis, from 60 ms (the default lead) before the source instant. It is
+    // the 30 Hz Ricker (peak 1.2 periods = 40 ms after its start, pipeline/kernels/fd/wavelet.ts)
+    // through the stage's causal 60 Hz low-pass of order 6, whose group delay at zero frequency is
+    // 1/(ω_c·sin(π/2n)) = 10.2 ms (Butterworth; from memory) and grows towards the corner: the peak
+    // between 49 and 53 ms.
+    const stageWavelets = ctx.records.intermediates.filter((r) => r.kind === "wavelet");
+    expect(stageWavelets.map((r) => r.index)).toEqual([1]);
+    const wg = (stageWavelets[0].value as GatherSet).gathers;
+    expect(wg.length).toBeGreaterThan(0);
+    for (const g of wg) {
+      expect(g.traces).toHaveLength(1);
+      expect(g.startTimeS).toBeCloseTo(-0.06, 9);
+      expect(g.sampleCount).toBe(output.count + Math.round(0.06 / output.intervalS));
+      let at = 0;
+      for (let k = 0; k < g.sampleCount; k++) if (Math.abs(g.data[k]) > Math.abs(g.data[at])) at = k;
+      const peakS = g.startTimeS + at * g.sampleIntervalS;
+      expect(peakS).toBeGreaterThanOrEqual(0.049);
+      expect(peakS).toBeLessThanOrEqual(0.053);
+    }
     // The measure table scores the starting and the final model with the stage's measure; with the
     // wavelet not re-estimated it must agree with the stage's own first and last misfit (the same
     // model, wavelet, filter and window give the same number).
