@@ -434,6 +434,7 @@ export const waveformInversionStep = defineStep({
             state.model = raiseVs(state.model, stageBounds.vsMin, bounds.minVpVsRatio);
           }
           const atStart = await evaluate(ctx, state, prepared, shots, p, { sourceKind, component, output, cancelFlag }, state.model, true, `stage-${state.stage + 1}/start`);
+          recordStageData(ctx, state.stage, shots, prepared, atStart, "start");
           const taper = pointTaper(state.model, shots.map((s) => ({ x: s.positions.sourceX, z: s.positions.sourceZ })), p.sourceTaperM);
           const receivers = new Map<string, { x: number; z: number }>();
           for (const s of shots) s.positions.receiverX.forEach((x, i) => receivers.set(`${x},${s.positions.receiverZ[i]}`, { x, z: s.positions.receiverZ[i] }));
@@ -547,7 +548,7 @@ export const waveformInversionStep = defineStep({
           else if (relChange < stage.stopBelowRelativeChange) stoppedBy = "relative change";
           if (stoppedBy) {
             record.stoppedBy = stoppedBy;
-            if (accepted) recordStageData(ctx, state.stage, shots, prepared, accepted);
+            if (accepted) recordStageData(ctx, state.stage, shots, prepared, accepted, "end");
             state.stage++;
             state.parameterisation = null;
             state.lbfgs = null;
@@ -867,14 +868,18 @@ function recordStageWavelets(
   });
 }
 
-/** At the end of a stage: synthetics and residuals of every shot, as intermediate results. */
-function recordStageData(ctx: StepContext, stageIndex: number, shots: ShotData[], prepared: PreparedStage, accepted: EvaluationResult): void {
+/**
+ * At the start or the end of a stage: the observed traces in the stage's band and the synthetics
+ * of every shot, as intermediate results ("observed", and "synthetic-start" or "synthetic" for the
+ * end; index = stage). The observed ones are the same at both moments.
+ */
+function recordStageData(ctx: StepContext, stageIndex: number, shots: ShotData[], prepared: PreparedStage, result: EvaluationResult, when: "start" | "end"): void {
   const synthetic: GatherSet = {
     kind: "gathers",
-    gathers: shots.map((s, k) => ({ ...s.gather, data: accepted.synthetics[k] })),
+    gathers: shots.map((s, k) => ({ ...s.gather, data: result.synthetics[k] })),
   };
   const observed: GatherSet = { kind: "gathers", gathers: shots.map((s, k) => ({ ...s.gather, data: prepared.observed[k] })) };
-  const label = `end of stage ${stageIndex + 1} (${prepared.stage.lowPassHz} Hz)`;
-  ctx.recordIntermediate({ kind: "observed", index: stageIndex + 1, label, value: observed });
-  ctx.recordIntermediate({ kind: "synthetic", index: stageIndex + 1, label, value: synthetic });
+  const label = `${when} of stage ${stageIndex + 1} (${prepared.stage.lowPassHz} Hz)`;
+  ctx.recordIntermediate({ kind: "observed", index: stageIndex + 1, label: `stage ${stageIndex + 1} (${prepared.stage.lowPassHz} Hz)`, value: observed });
+  ctx.recordIntermediate({ kind: when === "start" ? "synthetic-start" : "synthetic", index: stageIndex + 1, label, value: synthetic });
 }

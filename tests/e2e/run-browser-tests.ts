@@ -419,6 +419,14 @@ async function main() {
       check(waveletChoices.some((c) => /^stage 1 \(/.test(c)), `the wavelet chooser lacks the stages' wavelets: ${waveletChoices.join(", ") || "no chooser"}`);
       await page.selectOption("[data-testid=wavelet-choice]", "stage-1");
       await page.waitForFunction(() => /stage 1/.test(document.querySelector("[data-testid=wavelet-chart] figcaption")?.textContent ?? ""));
+      // Observed against synthetic at the start and the end of a stage, with the residual.
+      await page.waitForSelector("[data-testid=moment-select]");
+      const moments = await page.locator("[data-testid=moment-select] option").allTextContents();
+      check(moments.some((m) => /start/.test(m)) && moments.some((m) => /end/.test(m)), `the stage traces lack the start or the end: ${moments.join(", ")}`);
+      await page.selectOption("[data-testid=moment-select]", "start");
+      await page.waitForFunction(() => /started from/.test(document.querySelector("[data-testid=measure-explanation]")?.textContent ?? ""));
+      await page.waitForSelector("[data-testid=stage-overlay]");
+      await page.waitForSelector("[data-testid=stage-residual]");
       const slider = page.locator("[data-testid=iteration-slider]");
       const max = Number(await slider.getAttribute("max"));
       check(max >= 1, "the slider has only the starting model");

@@ -115,19 +115,27 @@ function peakAbs(...arrays: Float32Array[]): number {
   return m;
 }
 
+/** When in a stage the synthetics were recorded: the model it started from, or the one it ended with. */
+type Moment = "start" | "end";
+
 /**
- * Observed against synthetic for a chosen shot at the end of each stage (both low-passed to the
- * stage's corner), and their residual as the stage's misfit measure sees it.
+ * Observed against synthetic for a chosen shot at the start or the end of each stage (both
+ * low-passed to the stage's corner), and their residual as the stage's misfit measure sees it.
  */
 export function StageTraces({ items, stages }: { items: IntermediateItem[]; stages: StageSettings[] }) {
   const observed = items.filter((i) => i.kind === "observed").sort((a, b) => a.index - b.index);
-  const synthetic = new Map(items.filter((i) => i.kind === "synthetic").map((i) => [i.index, i.hash]));
-  const available = observed.filter((o) => synthetic.has(o.index));
+  const atEnd = new Map(items.filter((i) => i.kind === "synthetic").map((i) => [i.index, i.hash]));
+  const atStart = new Map(items.filter((i) => i.kind === "synthetic-start").map((i) => [i.index, i.hash]));
+  const available = observed.filter((o) => atEnd.has(o.index) || atStart.has(o.index));
   const [stageChoice, setStageChoice] = useState<number | null>(null);
+  const [momentChoice, setMomentChoice] = useState<Moment | null>(null);
   const [view, setView] = useState<"measured" | "recorded">("measured");
   const stage = stageChoice ?? available.at(-1)?.index ?? null;
+  const moments: Moment[] = stage === null ? [] : [...(atStart.has(stage) ? (["start"] as const) : []), ...(atEnd.has(stage) ? (["end"] as const) : [])];
+  // The end where there is one (the newest state of the stage), else its start.
+  const moment: Moment | null = momentChoice && moments.includes(momentChoice) ? momentChoice : (moments.at(-1) ?? null);
   const obsHash = available.find((o) => o.index === stage)?.hash ?? "";
-  const synHash = stage !== null ? synthetic.get(stage) ?? "" : "";
+  const synHash = stage !== null && moment ? ((moment === "end" ? atEnd : atStart).get(stage) ?? "") : "";
   const outline = useQuery({ ...artifactQueries.outline(obsHash), enabled: Boolean(obsHash) });
   const gatherIds = outline.data?.kind === "gathers" && "gathers" in outline.data ? outline.data.gathers.map((g) => g.id) : [];
   const [shotChoice, setShotChoice] = useState<string | null>(null);
@@ -154,7 +162,7 @@ export function StageTraces({ items, stages }: { items: IntermediateItem[]; stag
     return (
       <section className="card p-4" aria-label="Observed against synthetic by stage" data-testid="stage-traces">
         <h3 className="font-medium">Observed against synthetic, by stage</h3>
-        <p className="mt-2 text-sm muted">Recorded at the end of each stage: no stage has finished yet.</p>
+        <p className="mt-2 text-sm muted">Recorded at the start and the end of each stage: none recorded yet.</p>
       </section>
     );
   }
@@ -162,11 +170,21 @@ export function StageTraces({ items, stages }: { items: IntermediateItem[]; stag
   return (
     <section className="card space-y-3 p-4" aria-label="Observed against synthetic by stage" data-testid="stage-traces">
       <div className="flex flex-wrap items-end gap-3">
-        <h3 className="font-medium">Observed against synthetic, end of each stage</h3>
+        <h3 className="font-medium">Observed against synthetic, by stage</h3>
         <label className="text-xs">
           <span className="label">Stage</span>
           <select className="field mt-1 w-auto" value={stage ?? ""} onChange={(e) => setStageChoice(Number(e.target.value))} data-testid="stage-select">
             {available.map((o) => <option key={o.index} value={o.index}>{o.label ?? `stage ${o.index}`}</option>)}
+          </select>
+        </label>
+        <label className="text-xs">
+          <span className="label">Model</span>
+          <select className="field mt-1 w-auto" value={moment ?? ""} onChange={(e) => setMomentChoice(e.target.value as Moment)} data-testid="moment-select">
+            {moments.map((m) => (
+              <option key={m} value={m}>
+                {m === "start" ? "at the stage's start" : "at the stage's end"}
+              </option>
+            ))}
           </select>
         </label>
         <label className="text-xs">
@@ -184,7 +202,7 @@ export function StageTraces({ items, stages }: { items: IntermediateItem[]; stag
         </label>
       </div>
       <p className="text-xs text-ink-soft" data-testid="measure-explanation">
-        Stage {stage}: {settings?.lowPassHz !== undefined ? `low-passed at ${settings.lowPassHz} Hz, ` : ""}measure “{measure}”. {shown?.kind === "ok" ? shown.m.explanation : ""}
+        Stage {stage}, synthetics of the model {moment === "start" ? "it started from" : "it ended with"}: {settings?.lowPassHz !== undefined ? `low-passed at ${settings.lowPassHz} Hz, ` : ""}measure “{measure}”. {shown?.kind === "ok" ? shown.m.explanation : ""}
         {shown?.kind === "ok" ? ` Window ${((shown.h.startTimeS + shown.first * shown.h.sampleIntervalS) * 1000).toFixed(0)}–${((shown.h.startTimeS + (shown.end - 1) * shown.h.sampleIntervalS) * 1000).toFixed(0)} ms; ${shown.comparedCount} of ${shown.h.traceCount} traces compared (offset range and live traces), the others have no residual.` : ""}
       </p>
       {shown?.kind === "error" ? <p className="text-sm text-bad">{shown.error}</p> : null}

@@ -8,6 +8,7 @@ import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { waveformInversionParams, waveformInversionStep } from "../../../pipeline/steps/waveform-inversion";
 import { buildModel, paintShapes } from "../../../pipeline/kernels/fd/model-grid";
 import { simulateShot } from "../../../pipeline/kernels/fd/simulation";
+import { misfitAndAdjoint } from "../../../pipeline/kernels/misfit-adjoint";
 import { decodeArtifact, encodeArtifact } from "../../../pipeline/artifact-codec";
 import { createWorkerPool, type WorkerPool } from "../../../pipeline/workers/pool";
 import type { ElasticModel, Gather, GatherSet } from "../../../pipeline/types";
@@ -138,6 +139,18 @@ describe("waveform-inversion step", () => {
       expect(peakS).toBeGreaterThanOrEqual(0.049);
       expect(peakS).toBeLessThanOrEqual(0.053);
     }
+    // Observed against synthetic recorded at the stage's start and end: the start's synthetics are
+    // those the stage's first misfit was measured on (least squares over every trace and sample
+    // here, Σ ½‖s − d‖², pipeline/kernels/misfit-adjoint.ts), the end's those of its last model.
+    const one = (kind: string) => ctx.records.intermediates.filter((r) => r.kind === kind && r.index === 1).map((r) => r.value as GatherSet);
+    const [obsSet] = one("observed");
+    const [startSet] = one("synthetic-start");
+    const [endSet] = one("synthetic");
+    expect(obsSet && startSet && endSet).toBeTruthy();
+    const lsq = (syn: GatherSet) =>
+      syn.gathers.reduce((sum, g, k) => sum + misfitAndAdjoint({ measure: "least-squares", synthetic: g.data, observed: obsSet.gathers[k].data, traceCount: g.traces.length, sampleCount: g.sampleCount }).misfit, 0);
+    expect(Math.abs(lsq(startSet) / report.stages[0].startMisfit - 1)).toBeLessThan(1e-9);
+    expect(Math.abs(lsq(endSet) / report.stages[0].endMisfit - 1)).toBeLessThan(1e-9);
     // The measure table scores the starting and the final model with the stage's measure; with the
     // wavelet not re-estimated it must agree with the stage's own first and last misfit (the same
     // model, wavelet, filter and window give the same number).
