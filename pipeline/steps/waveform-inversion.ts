@@ -207,6 +207,11 @@ interface StageRecord {
   endMisfit: number;
   stoppedBy: string;
   waveletFit?: number;
+  /**
+   * A stage after the first that re-estimates its wavelet: its first misfit measured with the
+   * wavelets the last stage ended with, before the new ones (the change of band and offsets alone).
+   */
+  startMisfitWithLastWavelet?: number;
 }
 
 function sampled(w: { peakHz: number }, intervalS: number, count: number): Float32Array {
@@ -415,6 +420,16 @@ export const waveformInversionStep = defineStep({
           // Stage start: the starting wavelets in the stage band (re-estimated when asked), the
           // illumination and the scale, and the first evaluation.
           throwIfAborted(ctx.signal);
+          // Before a new wavelet replaces the last stage's: the model measured in this stage's band,
+          // offsets and window with the wavelets the last stage ended with. The misfit curve shows
+          // the change of measure there, then the effect of the new wavelet (one forward solve per shot).
+          let withLastWavelet: number | undefined;
+          if (state.stage > 0 && stage.reestimateWavelet) {
+            const physics = { sourceKind, component, output, cancelFlag };
+            withLastWavelet = (await evaluate(ctx, state, prepared, shots, p, physics, state.model, false, `stage-${state.stage + 1}/last-wavelet`)).misfit;
+            ctx.extendSeries({ name: "misfit-with-last-wavelet", xLabel: "iteration", yLabel: "misfit" }, [{ x: state.iteration, y: withLastWavelet, group }]);
+            ctx.log.info(`stage ${state.stage + 1}: misfit ${withLastWavelet.toPrecision(4)} with the last stage's wavelet, before re-estimating it`);
+          }
           const base = startWavelets();
           for (const s of shots) state.wavelets[s.id] = lowPass(base[s.id], 1, waveletCount, dt, stage.lowPassHz, stage.filterOrder);
           let waveletFit: number | undefined;
@@ -469,6 +484,7 @@ export const waveformInversionStep = defineStep({
             endMisfit: atStart.misfit,
             stoppedBy: "running",
             waveletFit,
+            ...(withLastWavelet === undefined ? {} : { startMisfitWithLastWavelet: withLastWavelet }),
           });
           state.curve.push({ x: state.iteration, y: atStart.misfit, group });
           ctx.extendSeries({ name: "misfit", xLabel: "iteration", yLabel: "misfit" }, [{ x: state.iteration, y: atStart.misfit, group }]);

@@ -55,6 +55,12 @@ describe("stageSegments", () => {
     expect(s[2].jump).toEqual({ x: 3, from: 390, to: 510 });
   });
 
+  it("adds the start measured with the last stage's wavelet where the step recorded one (series misfit-with-last-wavelet)", () => {
+    const s = stageSegments(points, [{ x: 3, y: 540, group: "stage 3 (40.5 Hz)" }]);
+    expect(s[1].jump).toEqual({ x: 2, from: 280, to: 420 });
+    expect(s[2].jump).toEqual({ x: 3, from: 390, to: 510, withLastWavelet: 540 });
+  });
+
   it("sorts each stage by iteration and skips non-finite values", () => {
     const s = stageSegments([
       { x: 2, y: 5, group: "stage 1 (10 Hz)" },

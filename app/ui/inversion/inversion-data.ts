@@ -12,6 +12,9 @@ export interface SeriesPoint {
   group?: string;
 }
 
+/** Series a step records only to mark points on another curve (the inversion's misfit curve draws them). */
+export const MARKER_SERIES: ReadonlySet<string> = new Set(["misfit-with-last-wavelet"]);
+
 /** One stage of the misfit curve. */
 export interface StageSegment {
   /** Series group, e.g. "stage 2 (30 Hz)". */
@@ -27,7 +30,7 @@ export interface StageSegment {
    * Where this stage starts against the previous stage's last point: the misfit jumps there,
    * because the new stage measures a wider band (or another measure) on the same model.
    */
-  jump: { x: number; from: number; to: number } | null;
+  jump: { x: number; from: number; to: number; withLastWavelet?: number } | null;
 }
 
 const GROUP = /stage\s+(\d+)(?:\s*\(([\d.]+)\s*Hz\))?/i;
@@ -35,9 +38,13 @@ const GROUP = /stage\s+(\d+)(?:\s*\(([\d.]+)\s*Hz\))?/i;
 /**
  * Splits series points into stages, in order of first appearance. Points of one group keep
  * their order (sorted by x). Each stage after the first records the jump from the previous
- * stage's last value to its own first value (the frequency-continuation step, Bunks et al. 1995).
+ * stage's last value to its own first value (the frequency-continuation step, Bunks et al. 1995),
+ * and, from `withLastWavelet` (the step's series "misfit-with-last-wavelet", same groups), its
+ * start measured with the last stage's wavelet before a re-estimated one replaced it.
  */
-export function stageSegments(points: readonly SeriesPoint[]): StageSegment[] {
+export function stageSegments(points: readonly SeriesPoint[], withLastWavelet: readonly SeriesPoint[] = []): StageSegment[] {
+  const before = new Map<string, number>();
+  for (const p of withLastWavelet) if (p.group && Number.isFinite(p.y)) before.set(p.group, p.y);
   const order: string[] = [];
   const byGroup = new Map<string, Array<{ x: number; y: number }>>();
   for (const p of points) {
@@ -62,7 +69,7 @@ export function stageSegments(points: readonly SeriesPoint[]): StageSegment[] {
       points: pts,
       startX: pts[0].x,
       endX: pts.at(-1)!.x,
-      jump: last ? { x: pts[0].x, from: last.y, to: pts[0].y } : null,
+      jump: last ? { x: pts[0].x, from: last.y, to: pts[0].y, ...(before.has(g) ? { withLastWavelet: before.get(g)! } : {}) } : null,
     });
   });
   return out;

@@ -39,6 +39,7 @@ export function InversionView({ run, step, live }: { run: RunView; step: StepVie
   const startHash = step.inputs.model ?? null;
   const frames = useMemo(() => iterationFrames(startHash, items), [startHash, items]);
   const misfit = useMemo<SeriesPoint[]>(() => step.series.find((s) => s.name === "misfit")?.points ?? [], [step.series]);
+  const withLastWavelet = useMemo<SeriesPoint[]>(() => step.series.find((s) => s.name === "misfit-with-last-wavelet")?.points ?? [], [step.series]);
   const parameters = invertedParameters(step.params.invertFor);
   const stages = Array.isArray(step.params.stages) ? (step.params.stages as Array<Record<string, unknown>>) : [];
 
@@ -74,7 +75,7 @@ export function InversionView({ run, step, live }: { run: RunView; step: StepVie
       {inter.error ? <p role="alert" className="text-sm text-bad">{inter.error.message}</p> : null}
 
       <div className="grid gap-4 lg:grid-cols-2">
-        <MisfitChart points={misfit} currentIteration={frames[shownIndex]?.iteration ?? null} />
+        <MisfitChart points={misfit} withLastWavelet={withLastWavelet} currentIteration={frames[shownIndex]?.iteration ?? null} />
         {waveletChoices.length > 0 ? <WaveletPanel choices={waveletChoices} /> : <p className="card p-3 text-sm muted">This inversion starts from a Ricker wavelet (no wavelet step).</p>}
       </div>
 

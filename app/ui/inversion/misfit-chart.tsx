@@ -11,10 +11,19 @@ export const STAGE_COLOURS = ["#1f5f8b", "#d0611b", "#2f7a4f", "#7a4fa1", "#a462
  * accepted model measured in the new stage's band, so the curve jumps there; the jump is drawn
  * as a dashed vertical segment and the stage start is marked. Linear or logarithmic misfit axis.
  */
-export function MisfitChart({ points, currentIteration }: { points: SeriesPoint[]; currentIteration?: number | null }) {
+export function MisfitChart({
+  points,
+  withLastWavelet = [],
+  currentIteration,
+}: {
+  points: SeriesPoint[];
+  /** Stage starts measured with the last stage's wavelet (series "misfit-with-last-wavelet"). */
+  withLastWavelet?: SeriesPoint[];
+  currentIteration?: number | null;
+}) {
   const [log, setLog] = useState(false);
-  const stages = useMemo(() => stageSegments(points), [points]);
-  const all = stages.flatMap((s) => s.points);
+  const stages = useMemo(() => stageSegments(points, withLastWavelet), [points, withLastWavelet]);
+  const all = [...stages.flatMap((s) => s.points), ...stages.flatMap((s) => (s.jump?.withLastWavelet !== undefined ? [{ x: s.jump.x, y: s.jump.withLastWavelet }] : []))];
   const positive = all.every((p) => p.y > 0);
   const useLog = log && positive;
   const ys = all.map((p) => p.y);
@@ -78,13 +87,27 @@ export function MisfitChart({ points, currentIteration }: { points: SeriesPoint[
                 s.jump ? (
                   <Line
                     key={`jump-${s.group}`}
-                    data={[{ x: s.jump.x, y: s.jump.from }, { x: s.jump.x, y: s.jump.to }]}
+                    data={[{ x: s.jump.x, y: s.jump.from }, ...(s.jump.withLastWavelet !== undefined ? [{ x: s.jump.x, y: s.jump.withLastWavelet }] : []), { x: s.jump.x, y: s.jump.to }]}
                     dataKey="y"
                     stroke={STAGE_COLOURS[i % STAGE_COLOURS.length]}
                     strokeDasharray="4 3"
                     dot={false}
                     legendType="none"
                     name={`jump into stage ${s.stage}`}
+                    isAnimationActive={false}
+                  />
+                ) : null,
+              )}
+              {stages.map((s, i) =>
+                s.jump?.withLastWavelet !== undefined ? (
+                  <Line
+                    key={`last-wavelet-${s.group}`}
+                    data={[{ x: s.jump.x, y: s.jump.withLastWavelet }]}
+                    dataKey="y"
+                    stroke={STAGE_COLOURS[i % STAGE_COLOURS.length]}
+                    dot={{ r: 4, fill: "#fff", strokeWidth: 1.5 }}
+                    legendType="none"
+                    name={`stage ${s.stage} start with the last stage's wavelet`}
                     isAnimationActive={false}
                   />
                 ) : null,
@@ -109,8 +132,9 @@ export function MisfitChart({ points, currentIteration }: { points: SeriesPoint[
         </div>
       )}
       <p className="mt-1 text-xs muted">
-        Each stage measures the misfit in its own frequency band, so the curve usually jumps up where a stage starts (dashed): the same model, measured with more of the data. A
-        stage that re-estimates the wavelet may also start lower, when the new wavelet explains the data better than the last one did.
+        Each stage measures the misfit in its own frequency band, so the curve jumps where a stage starts (dashed): the same model, measured with more of the data. Where a
+        stage re-estimates the wavelet, a hollow dot marks its start measured with the last stage&apos;s wavelet (the wider band and offsets alone); from there the new wavelet
+        takes it to the stage&apos;s first point, which can lie lower than the last stage ended when the new wavelet explains the data better.
         {stages.length ? ` ${stages.length} stage${stages.length > 1 ? "s" : ""} so far.` : ""}
       </p>
     </figure>

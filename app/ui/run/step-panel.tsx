@@ -7,6 +7,7 @@ import { formatOfSlot, stepDownloadHref } from "@/app/lib/downloads";
 import { StepSeriesChart } from "@/app/ui/charts/run-charts";
 import { StatusBadge } from "@/app/ui/status-badge";
 import { LogStream } from "./log-stream";
+import { MARKER_SERIES } from "@/app/ui/inversion/inversion-data";
 
 /** A setting's value in words; lists of objects (hand pick edits, inversion stages) item by item rather than as JSON. */
 function settingText(v: unknown, unit: string | null): string {
@@ -131,8 +132,10 @@ export function StepPanel({
         </div>
       </div>
 
-      {step.series.length ? (
-        <div className="grid gap-3 lg:grid-cols-2">{step.series.map((s) => <StepSeriesChart key={s.name} series={s} />)}</div>
+      {step.series.some((s) => !MARKER_SERIES.has(s.name)) ? (
+        <div className="grid gap-3 lg:grid-cols-2">
+          {step.series.filter((s) => !MARKER_SERIES.has(s.name)).map((s) => <StepSeriesChart key={s.name} series={s} />)}
+        </div>
       ) : null}
 
       <div>

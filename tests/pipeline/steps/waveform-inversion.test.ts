@@ -184,6 +184,26 @@ describe("waveform-inversion step", () => {
     expect(Buffer.from(resumed.outputs.model!.vs.buffer).equals(Buffer.from(whole.outputs.model!.vs.buffer))).toBe(true);
   });
 
+  it("measures a re-estimating stage's start with the last stage's wavelet first: no jump when the measure does not change", { timeout: 120_000 }, async () => {
+    // Two stages with the same band, offsets, window and measure; only the second re-estimates the
+    // wavelet. Measured with the first stage's wavelet, the second stage's start is the first
+    // stage's last model under the first stage's measure: its last misfit, to rounding.
+    const one = { lowPassHz: 60, measure: "least-squares", stopBelowRelativeChange: 0 };
+    const p = waveformInversionParams.parse({
+      ...settings(2),
+      stages: [{ ...one, iterations: 2, reestimateWavelet: false }, { ...one, iterations: 1, reestimateWavelet: true }],
+    });
+    const ctx = context(pool);
+    const res = await waveformInversionStep.run({ gathers: observed, model: background }, p, ctx);
+    const report = res.outputs.report!.data as { stages: Array<{ endMisfit: number; startMisfitWithLastWavelet?: number }> };
+    const marks = ctx.records.series.get("misfit-with-last-wavelet")?.points ?? [];
+    expect(marks).toHaveLength(1);
+    expect(marks[0]).toMatchObject({ x: 2, group: "stage 2 (60 Hz)" });
+    expect(Math.abs(marks[0].y / report.stages[0].endMisfit - 1)).toBeLessThan(1e-9);
+    expect(report.stages[1].startMisfitWithLastWavelet).toBe(marks[0].y);
+    expect(report.stages[0].startMisfitWithLastWavelet).toBeUndefined();
+  });
+
   it("with 0 iterations only measures: the model comes back unchanged and the measure table scores it", { timeout: 120_000 }, async () => {
     const res = await waveformInversionStep.run({ gathers: observed, model: background }, settings(0), context(pool));
     expect(Buffer.from(res.outputs.model!.vs.buffer).equals(Buffer.from(background.vs.buffer))).toBe(true);
