@@ -197,10 +197,16 @@ export interface StageMisfit {
   startMisfit: number;
   endMisfit: number;
   iterations: number;
+  /** The stage's start measured with the last stage's wavelet, before a re-estimated one (when recorded). */
+  startWithLastWavelet?: number;
 }
 
-/** First and last misfit of each stage, from the inversion's misfit series (points grouped by stage). */
-export function stageMisfits(points: Array<{ x: number; y: number; group?: string }>): StageMisfit[] {
+/**
+ * First and last misfit of each stage, from the inversion's misfit series (points grouped by
+ * stage), with the start measured with the last stage's wavelet from `withLastWavelet` (the
+ * series "misfit-with-last-wavelet") where there is one.
+ */
+export function stageMisfits(points: Array<{ x: number; y: number; group?: string }>, withLastWavelet: Array<{ y: number; group?: string }> = []): StageMisfit[] {
   const byStage = new Map<string, Array<{ x: number; y: number }>>();
   for (const p of points) {
     const key = p.group ?? "";
@@ -208,7 +214,8 @@ export function stageMisfits(points: Array<{ x: number; y: number; group?: strin
   }
   return [...byStage].map(([stage, pts]) => {
     const sorted = [...pts].sort((a, b) => a.x - b.x);
-    return { stage, startMisfit: sorted[0].y, endMisfit: sorted[sorted.length - 1].y, iterations: sorted.length - 1 };
+    const mark = withLastWavelet.find((p) => (p.group ?? "") === stage);
+    return { stage, startMisfit: sorted[0].y, endMisfit: sorted[sorted.length - 1].y, iterations: sorted.length - 1, ...(mark ? { startWithLastWavelet: mark.y } : {}) };
   });
 }
 
@@ -216,7 +223,8 @@ export function stageMisfits(points: Array<{ x: number; y: number; group?: strin
 export function describeStageMisfits(stages: StageMisfit[]): string[] {
   return stages.map(
     (s) =>
-      `misfit ${s.stage.padEnd(16)} ${s.startMisfit.toFixed(1)} → ${s.endMisfit.toFixed(1)} in ${s.iterations} iterations: ${((100 * s.endMisfit) / s.startMisfit).toFixed(0)} % of the stage's start`,
+      `misfit ${s.stage.padEnd(16)} ${s.startMisfit.toFixed(1)} → ${s.endMisfit.toFixed(1)} in ${s.iterations} iterations: ${((100 * s.endMisfit) / s.startMisfit).toFixed(0)} % of the stage's start` +
+      (s.startWithLastWavelet !== undefined ? ` (${s.startWithLastWavelet.toFixed(1)} at its start with the last stage's wavelet)` : ""),
   );
 }
 
@@ -263,7 +271,8 @@ if (process.argv[1] && import.meta.url === pathToFileURL(path.resolve(process.ar
   process.stdout.write(`Run ${run.id}: the inverted model against the hidden true ground (invented demo)\n`);
   for (const line of describeAssessment(assessInversion(model))) process.stdout.write(`  ${line}\n`);
   const misfit = step.series.find((s) => s.name === "misfit");
-  if (misfit) for (const line of describeStageMisfits(stageMisfits(misfit.points))) process.stdout.write(`  ${line}\n`);
+  const marks = step.series.find((s) => s.name === "misfit-with-last-wavelet")?.points ?? [];
+  if (misfit) for (const line of describeStageMisfits(stageMisfits(misfit.points, marks))) process.stdout.write(`  ${line}\n`);
   const report = step.outputs.report ? (readArtifactSync(step.outputs.report) as { data?: { measureTable?: MeasureRow[] } }) : null;
   const table = report?.data?.measureTable ?? [];
   if (table.length > 0) for (const line of describeMeasureTable(table)) process.stdout.write(`  ${line}\n`);
