@@ -154,6 +154,34 @@ export function cascadeMagnitude(sections: Float64Array, frequencyHz: number, sa
 }
 
 /**
+ * Complex response H(f) of a cascade at `frequencyHz` (z = e^{j 2π f/fs}), as [re, im]; negative
+ * frequencies give the conjugate.
+ */
+export function cascadeResponse(sections: Float64Array, frequencyHz: number, sampleRateHz: number): [number, number] {
+  const w = (2 * Math.PI * frequencyHz) / sampleRateHz;
+  const c1 = Math.cos(w);
+  const s1 = -Math.sin(w);
+  const c2 = Math.cos(2 * w);
+  const s2 = -Math.sin(2 * w);
+  let re = 1;
+  let im = 0;
+  for (let o = 0; o < sections.length; o += SECTION_STRIDE) {
+    const nr = sections[o] + sections[o + 1] * c1 + sections[o + 2] * c2;
+    const ni = sections[o + 1] * s1 + sections[o + 2] * s2;
+    const dr = 1 + sections[o + 3] * c1 + sections[o + 4] * c2;
+    const di = sections[o + 3] * s1 + sections[o + 4] * s2;
+    // (nr + j ni) / (dr + j di)
+    const d = dr * dr + di * di;
+    const qr = (nr * dr + ni * di) / d;
+    const qi = (ni * dr - nr * di) / d;
+    const r = re * qr - im * qi;
+    im = re * qi + im * qr;
+    re = r;
+  }
+  return [re, im];
+}
+
+/**
  * Runs the cascade over `buffer[offset … offset + count)` in place, forward in time
  * (transposed direct form II, zero initial state). Float64 keeps low corners (fc/fs ~ 10⁻³)
  * stable, where the poles lie close to z = 1.

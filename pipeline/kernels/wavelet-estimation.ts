@@ -22,6 +22,7 @@
  * evaluated per frequency (Parseval) with the full correction filter.
  */
 import { createFftPlan, forwardReal, nextPowerOfTwo } from "./fft";
+import { cascadeResponse } from "./butterworth";
 import { assertTraceBlock, cosineRampWeight } from "./taper";
 
 /** Arguments of {@link estimateWavelet}. */
@@ -193,6 +194,51 @@ export function bandLimitWavelet(samples: ArrayLike<number>, sampleIntervalS: nu
     const weight = f <= passHz ? 1 : f >= stopHz ? 0 : 0.5 * (1 + Math.cos((Math.PI * (f - passHz)) / (stopHz - passHz)));
     sp[2 * k] *= weight;
     sp[2 * k + 1] *= weight;
+  }
+  plan.fft.inverseTransform(plan.complexTime, sp);
+  for (let k = 0; k < n; k++) out[k] = plan.complexTime[2 * k];
+  return out;
+}
+
+/**
+ * A wavelet seen through one causal filter moved to another: W·H_to/H_from in the frequency
+ * domain (both cascades as butterworth.ts builds them, at the wavelet's sampling), zero where
+ * |H_from| is below `floor` (there the wavelet holds nothing to move). For a wavelet estimated
+ * against data filtered with H_from, the same source estimate as data filtered with H_to would
+ * show it, without anything new above the old band. Zero-padded to twice the length, so the
+ * circular wrap of the correction stays small.
+ */
+export function refilterWavelet(samples: ArrayLike<number>, sampleIntervalS: number, from: Float64Array, to: Float64Array, floor = 0.05): Float64Array {
+  if (!(sampleIntervalS > 0 && Number.isFinite(sampleIntervalS))) throw new RangeError(`sampleIntervalS must be a positive number, got ${sampleIntervalS}`);
+  if (!(floor > 0 && floor < 1)) throw new RangeError(`floor must lie in (0, 1), got ${floor}`);
+  const n = samples.length;
+  const out = new Float64Array(n);
+  if (n === 0) return out;
+  const size = nextPowerOfTwo(2 * n);
+  const plan = createFftPlan(size);
+  for (let k = 0; k < n; k++) plan.input[k] = samples[k];
+  forwardReal(plan);
+  const sp = plan.spectrum;
+  const fs = 1 / sampleIntervalS;
+  const df = fs / size;
+  for (let k = 0; k < size; k++) {
+    const f = (k <= size / 2 ? k : k - size) * df;
+    const [fr, fi] = cascadeResponse(from, f, fs);
+    const m = Math.hypot(fr, fi);
+    if (m < floor) {
+      sp[2 * k] = 0;
+      sp[2 * k + 1] = 0;
+      continue;
+    }
+    const [tr, ti] = cascadeResponse(to, f, fs);
+    // H_to / H_from
+    const d = fr * fr + fi * fi;
+    const gr = (tr * fr + ti * fi) / d;
+    const gi = (ti * fr - tr * fi) / d;
+    const a = sp[2 * k];
+    const b = sp[2 * k + 1];
+    sp[2 * k] = a * gr - b * gi;
+    sp[2 * k + 1] = a * gi + b * gr;
   }
   plan.fft.inverseTransform(plan.complexTime, sp);
   for (let k = 0; k < n; k++) out[k] = plan.complexTime[2 * k];

@@ -42,7 +42,8 @@ import {
   type Parameterisation,
 } from "../kernels/fwi/parameterisation";
 import { lbfgsIteration, startLbfgs, type LbfgsState } from "../kernels/optim/lbfgs";
-import { bandLimitWavelet, butterworthLevelHz, estimateWavelet } from "../kernels/wavelet-estimation";
+import { bandLimitWavelet, butterworthLevelHz, estimateWavelet, refilterWavelet } from "../kernels/wavelet-estimation";
+import { butterworthLowPass } from "../kernels/butterworth";
 import { ricker, defaultRickerShiftS, waveletBand } from "../kernels/fd/wavelet";
 import { shotExecutorOf } from "../workers/shot-executor";
 
@@ -421,11 +422,21 @@ export const waveformInversionStep = defineStep({
           // illumination and the scale, and the first evaluation.
           throwIfAborted(ctx.signal);
           // Before a new wavelet replaces the last stage's: the model measured in this stage's band,
-          // offsets and window with the wavelets the last stage ended with. The misfit curve shows
-          // the change of measure there, then the effect of the new wavelet (one forward solve per shot).
+          // offsets and window with the wavelets the last stage ended with, moved from the last
+          // stage's causal low-pass to this one's (they were estimated against data through the
+          // last filter, whose delay differs). The misfit curve shows the change of measure there,
+          // then the effect of the new wavelet (one forward solve per shot).
           let withLastWavelet: number | undefined;
           if (state.stage > 0 && stage.reestimateWavelet) {
             const physics = { sourceKind, component, output, cancelFlag };
+            const last = p.stages[state.stage - 1];
+            if (last.lowPassHz !== stage.lowPassHz || last.filterOrder !== stage.filterOrder) {
+              const from = butterworthLowPass(last.filterOrder, last.lowPassHz, 1 / dt);
+              const to = butterworthLowPass(stage.filterOrder, stage.lowPassHz, 1 / dt);
+              const moved: Record<string, Float32Array> = {};
+              for (const s of shots) moved[s.id] = Float32Array.from(refilterWavelet(state.wavelets[s.id], dt, from, to));
+              state.wavelets = moved;
+            }
             withLastWavelet = (await evaluate(ctx, state, prepared, shots, p, physics, state.model, false, `stage-${state.stage + 1}/last-wavelet`)).misfit;
             ctx.extendSeries({ name: "misfit-with-last-wavelet", xLabel: "iteration", yLabel: "misfit" }, [{ x: state.iteration, y: withLastWavelet, group }]);
             ctx.log.info(`stage ${state.stage + 1}: misfit ${withLastWavelet.toPrecision(4)} with the last stage's wavelet, before re-estimating it`);

@@ -488,7 +488,9 @@ async function main() {
       await page.waitForSelector("form[aria-label='Make the report'] [role=status] a", { timeout: 120_000 });
       const href = await page.getAttribute("form[aria-label='Make the report'] [role=status] a", "href");
       check(href, "no download link after making the report");
-      const pdf = await page.request.get(`${origin}${href}`);
+      // A retry on a reset connection: the request context may reuse a kept-alive socket the
+      // server closes at that moment (seen once while the report was being made).
+      const pdf = await page.request.get(`${origin}${href}`, { maxRetries: 2 });
       check(pdf.ok() && (pdf.headers()["content-type"] ?? "").includes("application/pdf"), `the report download answered ${pdf.status()} ${pdf.headers()["content-type"]}`);
       const bytes = await pdf.body();
       check(bytes.subarray(0, 5).toString("latin1") === "%PDF-", "the download is not a PDF");

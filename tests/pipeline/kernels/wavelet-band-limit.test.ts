@@ -6,7 +6,9 @@
  * amplifiers", Wireless Engineer 7).
  */
 import { describe, expect, it } from "vitest";
-import { bandLimitWavelet, butterworthLevelHz } from "../../../pipeline/kernels/wavelet-estimation";
+import { bandLimitWavelet, butterworthLevelHz, refilterWavelet } from "../../../pipeline/kernels/wavelet-estimation";
+import { butterworthLowPass } from "../../../pipeline/kernels/butterworth";
+import { filterTraces, planFrequencyFilter } from "../../../pipeline/kernels/filter";
 
 const dt = 0.0005;
 const n = 1024;
@@ -62,5 +64,30 @@ describe("butterworthLevelHz", () => {
     const f = butterworthLevelHz(36, 6, 0.05);
     expect(1 / Math.sqrt(1 + (f / 36) ** 12)).toBeCloseTo(0.05, 12);
     expect(f / 36).toBeCloseTo(1.647, 3);
+  });
+});
+
+describe("refilterWavelet", () => {
+  // A linear time-invariant filter commutes with convolution: a wavelet seen through one causal
+  // low-pass and moved by H_to/H_from equals the same wavelet seen through the other (exact in
+  // the band where |H_from| stays above the floor; a 15 Hz Ricker carries almost nothing beyond
+  // 60 Hz, its spectrum (f/fp)² e^{−(f/fp)²} being 2e-6 of its peak there). The filters are the
+  // cascades filterTraces runs (causal, forward only).
+  const through = (w: Float64Array, hz: number) => {
+    const plan = planFrequencyFilter({ passBand: "low-pass", lowCutHz: 0, highCutHz: hz, order: 6, zeroPhase: false, notchesHz: [], notchWidthHz: 1 }, dt, n);
+    return filterTraces({ data: Float32Array.from(w), traceCount: 1, sampleCount: n, plan, taperSamples: 0 });
+  };
+  const relL2 = (a: ArrayLike<number>, b: ArrayLike<number>) => Math.sqrt(energy(Array.from(a, (v, k) => v - b[k])) / energy(b));
+
+  it("moves a wavelet from a 40 Hz to a 28 Hz low-pass (order 6) as if filtered at 28 Hz in the first place, within 1e-3", () => {
+    const w = ricker(15, 0.15);
+    const moved = refilterWavelet(through(w, 40), dt, butterworthLowPass(6, 40, 1 / dt), butterworthLowPass(6, 28, 1 / dt), 1e-4);
+    expect(relL2(moved, through(w, 28))).toBeLessThan(1e-3);
+  });
+
+  it("leaves a wavelet unchanged when both filters are the same", () => {
+    const w = through(ricker(15, 0.15), 30);
+    const f = butterworthLowPass(6, 30, 1 / dt);
+    expect(relL2(refilterWavelet(w, dt, f, f, 1e-4), w)).toBeLessThan(1e-6);
   });
 });
